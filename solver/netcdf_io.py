@@ -1,0 +1,157 @@
+"""The one place where a solver result becomes (and comes back from) a netCDF file.
+
+Files follow the CF conventions (CF-1.11): every variable has ``units`` and
+``long_name``; the global attributes carry ``Conventions``, ``title``,
+``source`` (code name and version), ``history`` and the point's parameters.
+Writes are atomic: the dataset goes to a temporary name in the same directory
+and is renamed, so a file that exists under its final name is complete.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import json
+import os
+import platform
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import xarray as xr
+
+from solver import __version__
+from solver.result import ConvergenceRecord, Quantity, SolverResult
+
+CF_VERSION = "CF-1.11"
+_ATTR_PREFIX = "param_"
+
+
+def _attr_value(value: Any) -> Any:
+    """netCDF attributes take numbers and strings; everything else becomes JSON."""
+    if isinstance(value, bool):
+        return int(value)
+    if isinstance(value, (int, float, str, np.integer, np.floating)):
+        return value
+    if value is None:
+        return "none"
+    return json.dumps(value, sort_keys=True)
+
+
+def to_dataset(result: SolverResult, provenance: dict[str, Any] | None = None) -> xr.Dataset:
+    """Build the CF dataset of ``result``.
+
+    ``provenance`` adds global attributes (e.g. ``config_hash``, ``point_id``).
+    """
+    coords = {
+        name: (name, np.asarray(q.value), {"units": q.units, "long_name": q.long_name})
+        for name, q in result.coords.items()
+    }
+    data_vars: dict[str, Any] = {}
+    for name, q in result.profiles.items():
+        data_vars[name] = (q.dims, np.asarray(q.value), {"units": q.units, "long_name": q.long_name})
+    for name, q in result.coefficients.items():
+        data_vars[name] = ((), float(q.value), {"units": q.units, "long_name": q.long_name})
+
+    conv = result.convergence
+    data_vars["residual"] = (
+        ("iteration",),
+        np.asarray(conv.residuals, dtype=float),
+        {"units": "1", "long_name": "relative change of the iterate per iteration"},
+    )
+    coords["iteration"] = (
+        "iteration",
+        np.arange(1, len(conv.residuals) + 1, dtype=np.int32),
+        {"units": "1", "long_name": "iteration number"},
+    )
+    data_vars["iterations"] = ((), np.int32(conv.iterations), {"units": "1", "long_name": "iterations used"})
+    data_vars["wall_time"] = ((), float(result.wall_time), {"units": "s", "long_name": "solver wall-clock time"})
+
+    now = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
+    attrs: dict[str, Any] = {
+        "Conventions": CF_VERSION,
+        "title": f"knudsweep {result.family} {result.problem} point",
+        "source": f"knudsweep solver {__version__}",
+        "code_version": __version__,
+        "history": f"{now} written by knudsweep solver {__version__} (python {platform.python_version()})",
+        "family": result.family,
+        "problem": result.problem,
+        "status": conv.status,
+        "status_reason": conv.reason,
+        "tolerance": float(conv.tolerance),
+        "discretization": json.dumps(result.discretization, sort_keys=True, default=str),
+        "parameters": json.dumps(result.parameters, sort_keys=True, default=str),
+    }
+    for key, value in result.parameters.items():
+        attrs[_ATTR_PREFIX + key] = _attr_value(value)
+    for key, value in (provenance or {}).items():
+        attrs[key] = _attr_value(value)
+    return xr.Dataset(data_vars=data_vars, coords=coords, attrs=attrs)
+
+
+def write_dataset(ds: xr.Dataset, path: str | os.PathLike) -> Path:
+    """Write ``ds`` atomically to ``path`` (temporary name, fsync, rename)."""
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
+    encoding = {
+        name: {"zlib": True, "complevel": 4, "_FillValue": None}
+        for name, var in ds.data_vars.items()
+        if var.ndim > 0 and np.issubdtype(var.dtype, np.floating)
+    }
+    try:
+        ds.to_netcdf(tmp, format="NETCDF4", engine="netcdf4", encoding=encoding)
+        with open(tmp, "rb") as fh:
+            os.fsync(fh.fileno())
+        os.replace(tmp, path)
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+    return path
+
+
+def write_result(
+    result: SolverResult, path: str | os.PathLike, provenance: dict[str, Any] | None = None
+) -> Path:
+    """Write ``result`` as a CF netCDF file at ``path`` (atomic)."""
+    return write_dataset(to_dataset(result, provenance), path)
+
+
+def read_result(path: str | os.PathLike) -> SolverResult:
+    """Read a file written by :func:`write_result` back into a SolverResult."""
+    with xr.open_dataset(path, engine="netcdf4") as ds:
+        ds = ds.load()
+    attrs = ds.attrs
+    coords = {
+        name: Quantity(ds[name].values, ds[name].attrs.get("units", "1"), ds[name].attrs.get("long_name", ""), (name,))
+        for name in ds.coords
+        if name != "iteration"
+    }
+    profiles, coefficients = {}, {}
+    for name, var in ds.data_vars.items():
+        if name in ("residual", "iterations", "wall_time"):
+            continue
+        q = Quantity(
+            var.values if var.ndim else float(var.values),
+            var.attrs.get("units", "1"),
+            var.attrs.get("long_name", ""),
+            tuple(var.dims),
+        )
+        (profiles if var.ndim else coefficients)[name] = q
+    conv = ConvergenceRecord(
+        residuals=ds["residual"].values,
+        iterations=int(ds["iterations"].values),
+        status=attrs["status"],
+        reason=attrs.get("status_reason", ""),
+        tolerance=float(attrs.get("tolerance", float("nan"))),
+    )
+    return SolverResult(
+        family=attrs["family"],
+        problem=attrs["problem"],
+        parameters=json.loads(attrs["parameters"]),
+        coords=coords,
+        profiles=profiles,
+        coefficients=coefficients,
+        discretization=json.loads(attrs["discretization"]),
+        convergence=conv,
+        wall_time=float(ds["wall_time"].values),
+    )
