@@ -1,0 +1,151 @@
+"""Particle (DSMC) relaxation against exact results.
+
+Sources (check-values.md Sec. 5; "from memory, unconfirmed" there):
+- BKW solution for Maxwell molecules: Bobylev, Dokl. Akad. Nauk SSSR 225 (1975)
+  1041; Krook & Wu, Phys. Rev. Lett. 36 (1976) 1107.
+- Pressure-tensor anisotropy of Maxwell molecules decays exactly as
+  exp(-p t/mu): Truesdell & Muncaster, *Fundamentals of Maxwell's Kinetic
+  Theory of a Simple Monatomic Gas* (Academic Press 1980).
+- Hard-sphere collision frequency n pi d^2 <c_r>, <c_r> = sqrt(2) c_mean:
+  Chapman & Cowling, *The Mathematical Theory of Non-Uniform Gases* (1970),
+  Sec. 5.21; Bird 1994 Sec. 1.5 and 4.2.
+
+Statistical tolerances use the replica standard error; with R replicas the
+standardised error is Student-t with R-1 degrees of freedom.
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+from solver import gas as gasmod
+from solver.gas import BOLTZMANN, GasData
+from solver.relaxation import solve_relaxation
+from solver.relaxation.bkw import BKW_FIRST_TIME, bkw_fourth_moment, bkw_marginal
+from solver.relaxation.solve import HIST_BINS, HIST_LO, HIST_WIDTH
+
+
+def _bin_averages(t):
+    """Exact bin averages of the BKW marginal on the recorded bins (Simpson, 41 nodes per bin)."""
+    out = np.empty(HIST_BINS)
+    for b in range(HIST_BINS):
+        u = np.linspace(HIST_LO + b * HIST_WIDTH, HIST_LO + (b + 1) * HIST_WIDTH, 41)
+        y = bkw_marginal(u, t)
+        out[b] = (y[0] + y[-1] + 4 * y[1:-1:2].sum() + 2 * y[2:-1:2].sum()) * (u[1] - u[0]) / 3 / HIST_WIDTH
+    return out
+
+
+@pytest.fixture(scope="module")
+def bkw_run():
+    return solve_relaxation(method="dsmc", initial_state="bkw", molecular_model="maxwell",
+                            n_particles=20000, n_replicas=16, t_end=6.0, n_output=7, seed=2024)
+
+
+def test_bkw_fourth_moment(bkw_run):
+    r = bkw_run
+    t = r.coords["time"].value
+    exact = bkw_fourth_moment(t + BKW_FIRST_TIME)
+    se = r.profiles["fourth_moment_std"].value / math.sqrt(16)
+    z = (r.profiles["fourth_moment"].value - exact) / se
+    # 7 times, t_15: P(|z| > 4.5) = 4e-4 each, so a false failure has chance < 0.3 %
+    assert np.max(np.abs(z)) < 4.5, z
+    # the comparison resolves the relaxation: the signal 15 - <c^4> at t=0 is
+    # > 50 standard errors
+    assert (15.0 - exact[0]) / se[0] > 50
+
+
+def test_bkw_marginal_distribution(bkw_run):
+    r = bkw_run
+    t = r.coords["time"].value
+    f = r.profiles["velocity_distribution_x"].value
+    se = r.profiles["velocity_distribution_x_std"].value / math.sqrt(16)
+    for k in (0, 2, 6):
+        exact = _bin_averages(t[k] + BKW_FIRST_TIME)
+        use = exact > 1e-3  # bins with >~ 100 expected particles over all replicas
+        chi2 = np.sum(((f[k] - exact)[use] / se[k][use]) ** 2)
+        # z^2 of t_15 has mean 1.15 and variance 3.4: mean + 5 sd for n bins
+        n = use.sum()
+        limit = 1.154 * n + 5 * math.sqrt(3.4 * n)
+        assert chi2 < limit, (k, chi2, limit)
+        # the test can fail: the equilibrium Gaussian is rejected at t = 0
+        if k == 0:
+            gauss = _bin_averages(1e6)  # BKW at large t is the Maxwellian
+            chi2_eq = np.sum(((f[k] - gauss)[use] / se[k][use]) ** 2)
+            assert chi2_eq > 10 * limit
+
+
+def test_maxwell_molecule_anisotropy_rate():
+    r = solve_relaxation(method="dsmc", initial_state="anisotropic", molecular_model="maxwell",
+                         axis_temperature_ratios=(1.8, 0.6, 0.6), n_particles=50000, n_replicas=16,
+                         t_end=8.0, n_output=33, seed=7)
+    rate = 1.0 / r.coefficient("anisotropy_relaxation_time")
+    unc = r.coefficient("anisotropy_relaxation_time_uncertainty") * rate**2
+    exact = 0.5  # p/mu in 1/tau_c for Maxwell molecules (check-values 5.2)
+    assert abs(rate / exact - 1) < 0.02
+    assert abs(rate - exact) < 4 * unc + 1e-12 or unc == 0
+    # the test resolves the rate: 2 % is at least 4 standard uncertainties
+    assert unc < 0.005 * exact
+    assert r.coefficient("energy_drift") < 1e-12  # round-off after ~3e6 collisions
+    assert r.coefficient("momentum_drift") < 1e-12
+
+
+def test_vss_maxwell_anisotropy_rate():
+    # Maxwell molecules (omega = 1) with VSS scattering: the stress relaxation
+    # rate in collision times is (3/4) <sin^2 chi> = 3 alpha/((alpha+1)(alpha+2)),
+    # the VSS viscosity factor of Bird 1994 eq. 4.64 (exact for Maxwell
+    # molecules); alpha = 1.5 gives 0.5143 instead of 0.5 (isotropic).
+    gas = GasData("maxwell-vss-test", 66.3e-27, 2.117e-5, 1.0, 4.17e-10, 4.11e-10, 1.5, 273.0, "test")
+    r = solve_relaxation(method="dsmc", gas=gas, initial_state="anisotropic", molecular_model="vss",
+                         n_particles=20000, n_replicas=16, t_end=8.0, n_output=33, seed=8)
+    rate = 1.0 / r.coefficient("anisotropy_relaxation_time")
+    assert abs(rate / (3 * 1.5 / (2.5 * 3.5)) - 1) < 0.02
+
+
+def test_hard_sphere_collision_rate_in_si_units():
+    p, temp = 50.0, 300.0
+    g = gasmod.get_gas("Ar")
+    r = solve_relaxation(method="dsmc", gas=g, pressure=p, temperature=temp, initial_state="equilibrium",
+                         molecular_model="hard_sphere", n_particles=20000, n_replicas=8, t_end=5.0,
+                         n_output=6, seed=3)
+    mu = gasmod.viscosity(g, temp)
+    # hard-sphere diameter with the gas viscosity, first Chapman-Enskog
+    # approximation mu = (5/16) sqrt(pi m k T) / (pi d^2) (check-values 4.1)
+    d2 = 5.0 / 16.0 * math.sqrt(math.pi * g.mass * BOLTZMANN * temp) / (math.pi * mu)
+    n = p / (BOLTZMANN * temp)
+    nu = n * math.pi * d2 * math.sqrt(2.0) * gasmod.mean_speed(g, temp)
+    counted = r.profiles["collisions_per_particle"].value[-1] / r.profiles["time_s"].value[-1]
+    rel_se = r.profiles["collisions_per_particle_std"].value[-1] / r.profiles["collisions_per_particle"].value[-1] / math.sqrt(8)
+    # 5 standard errors (rel_se ~ 1e-3) plus 1e-3 for the rare majorant clipping
+    assert counted == pytest.approx(nu, rel=5 * rel_se + 1e-3)
+    assert r.coefficient("majorant_exceedances") < 1e-4 * r.profiles["collisions_per_particle"].value[-1] * 20000 * 8
+
+
+def test_h_noise_scales_like_one_over_n():
+    # At equilibrium the binned relative H fluctuates with standard deviation
+    # sqrt(2(B-1))/(2N) (chi-square, see solver.relaxation.h_function).  With
+    # 32 replicas x 4 nearly independent times per N the log-amplitude has a
+    # standard error ~0.06 and the fitted slope ~0.03, so the 10 % band is > 3 sd.
+    ns = np.array([2000, 4000, 8000, 16000, 32000])
+    amp = []
+    for n in ns:
+        r = solve_relaxation(method="dsmc", initial_state="equilibrium", molecular_model="hard_sphere",
+                             n_particles=int(n), n_replicas=32, t_end=6.0, n_output=4, seed=int(n),
+                             h_bins_per_axis=6)
+        amp.append(math.sqrt(np.mean(r.profiles["h_function_std"].value ** 2)))
+    slope = np.polyfit(np.log(ns), np.log(amp), 1)[0]
+    assert abs(slope + 1.0) < 0.1, slope
+    # amplitude itself: N * sd against sqrt(2 * 215)/2 = 10.4 within 20 % (the
+    # chi-square expansion has O(B/N) corrections at N = 2000)
+    assert np.mean(np.array(amp) * ns) == pytest.approx(math.sqrt(2 * 215) / 2, rel=0.2)
+
+
+@pytest.mark.slow
+def test_bkw_fourth_moment_large_n():
+    # 10x the particles of the default test: standard error ~0.006 in <c^4>
+    r = solve_relaxation(method="dsmc", initial_state="bkw", molecular_model="maxwell",
+                         n_particles=200_000, n_replicas=16, t_end=9.0, n_output=10, seed=99)
+    t = r.coords["time"].value
+    se = r.profiles["fourth_moment_std"].value / 4.0
+    z = (r.profiles["fourth_moment"].value - bkw_fourth_moment(t + BKW_FIRST_TIME)) / se
+    assert np.max(np.abs(z)) < 4.5
