@@ -1,0 +1,189 @@
+"""Checked Python entry point of the plane-channel solver."""
+
+from __future__ import annotations
+
+import math
+import time
+
+import numpy as np
+
+from solver.kinetic_models import get_model
+from solver.plane_channel import grids, kernels
+from solver.plane_channel.boundary import wall_operators
+from solver.plane_channel.problems import PROBLEMS, build_tables, coefficients_and_profiles
+from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+from solver.walls import CercignaniLampisWall, MaxwellWall
+
+DELTA_RANGE = (1e-4, 1e4)
+DEFAULT_MAX_ITER_PLAIN = 200_000
+DEFAULT_MAX_ITER_ACCELERATED = 2_000
+# Slip length (units of ell = mu v0 / p) in the wall condition of the
+# synthetic error equation: the BGK diffuse value (check-values.md Sec. 2,
+# from memory) at both walls whatever the accommodation.  It sets only the
+# speed of convergence, never the converged result.  Using the
+# Smoluchowski-scaled (2 - alpha)/alpha length instead diverged for unequal
+# walls (the upper-wall reflection lags one sweep).
+_SLIP_LENGTH = 1.0162
+
+
+def acceleration_parameters(problem, kinetic, delta, lower_wall, upper_wall):
+    """(accel_kind, kappa, robin_low, robin_up) of the synthetic correction (kernels._synthetic_step)."""
+    d = kinetic.collision_factor * delta
+    if problem == "heat_transfer":
+        # not accelerated yet: its slow modes couple mass, y-momentum and
+        # energy; the energy-only correction tried first diverged.
+        return 0, 1.0, 1.0, 1.0
+    kappa = 1.0 / (d * (1.0 - kinetic.stress_coefficient))
+    robin = _SLIP_LENGTH / (delta * kappa)
+    return 1, kappa, robin, robin
+
+_STATUS_REASON = {
+    kernels.MAX_ITER_CODE: "max_iter reached before the error estimate fell below tol",
+    kernels.NOT_FINITE_CODE: "non-finite values (NaN or inf) in the iteration",
+}
+
+
+def _check_int(name: str, value, low: int, high: int) -> int:
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or not (low <= value <= high):
+        raise ValueError(f"{name}: must be an integer in [{low}, {high}], got {value!r}")
+    return int(value)
+
+
+def _wall_parameters(prefix: str, wall) -> dict:
+    if isinstance(wall, MaxwellWall):
+        return {f"{prefix}_wall_model": "maxwell", f"{prefix}_alpha": wall.alpha}
+    return {f"{prefix}_wall_model": "cercignani_lampis", f"{prefix}_alpha_t": wall.alpha_t, f"{prefix}_alpha_n": wall.alpha_n}
+
+
+def check_inputs(problem, delta, model, lower_wall, upper_wall, tol):
+    if problem not in PROBLEMS:
+        raise ValueError(f"problem: must be one of {', '.join(PROBLEMS)}, got {problem!r}")
+    try:
+        delta = float(delta)
+    except (TypeError, ValueError):
+        raise ValueError(f"delta: must be a number in [{DELTA_RANGE[0]:g}, {DELTA_RANGE[1]:g}], got {delta!r}") from None
+    if not (DELTA_RANGE[0] <= delta <= DELTA_RANGE[1]):
+        raise ValueError(f"delta: must be in [{DELTA_RANGE[0]:g}, {DELTA_RANGE[1]:g}], got {delta!r}")
+    kinetic = get_model(model)
+    for name, wall in (("lower_wall", lower_wall), ("upper_wall", upper_wall)):
+        if not isinstance(wall, (MaxwellWall, CercignaniLampisWall)):
+            raise ValueError(f"{name}: must be a MaxwellWall or CercignaniLampisWall, got {type(wall).__name__}")
+    tol = float(tol)
+    if not (1e-14 <= tol <= 1e-2):
+        raise ValueError(f"tol: must be in [1e-14, 0.01], got {tol!r}")
+    return delta, kinetic, tol
+
+
+def solve_plane_channel(
+    problem: str,
+    *,
+    delta: float,
+    model: str = "bgk",
+    lower_wall=MaxwellWall(1.0),  # noqa: B008  (frozen dataclass, safe default)
+    upper_wall=None,
+    n_space: int | None = None,
+    n_velocity: int | None = None,
+    max_iter: int | None = None,
+    tol: float = 1e-8,
+    accelerate: bool = False,
+) -> SolverResult:
+    """Linearised flow between parallel plates by the discrete-velocity method.
+
+    Parameters
+    ----------
+    problem : "poiseuille", "thermal_creep", "couette" or "heat_transfer".
+    delta : rarefaction parameter p a / (mu v0), a = gap, in [1e-4, 1e4].
+    model : kinetic model, "bgk", "s_model" or "es_bgk" (solver.kinetic_models).
+    lower_wall, upper_wall : solver.walls.MaxwellWall / CercignaniLampisWall;
+        upper_wall None means the same as lower_wall.
+    n_space : cells across the gap (default from delta, grids.default_n_space).
+    n_velocity : positive half-range velocity nodes (default from delta).
+    max_iter : iteration cap (default 200000 plain).
+    tol : stop when the estimated relative error of the primary moment
+        (velocity, or temperature for heat transfer) is below tol.
+    accelerate : synthetic acceleration of the iteration (Poiseuille, thermal
+        creep, Couette; heat transfer runs the plain iteration and records
+        acceleration_applied = False).
+
+    Returns
+    -------
+    SolverResult with family "plane_channel"; coefficients G_P, Q_P
+    (poiseuille), G_T, Q_T (thermal_creep), shear_stress (couette),
+    heat_flux (heat_transfer); normalisation in ``problems`` module docstring.
+    A run that does not converge is returned with status "failed" and a reason.
+    """
+    t0 = time.perf_counter()
+    if upper_wall is None:
+        upper_wall = lower_wall
+    delta, kinetic, tol = check_inputs(problem, delta, model, lower_wall, upper_wall, tol)
+    n_space = grids.default_n_space(delta) if n_space is None else _check_int("n_space", n_space, grids.MIN_SPACE, grids.MAX_SPACE)
+    if n_velocity is None:
+        n_velocity = grids.default_n_velocity(delta)
+    else:
+        n_velocity = _check_int("n_velocity", n_velocity, grids.MIN_VELOCITY, grids.MAX_VELOCITY)
+    if max_iter is None:
+        max_iter = DEFAULT_MAX_ITER_ACCELERATED if accelerate and problem != "heat_transfer" else DEFAULT_MAX_ITER_PLAIN
+    else:
+        max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
+    if not isinstance(accelerate, bool):
+        raise ValueError(f"accelerate: must be True or False, got {accelerate!r}")
+    accel_kind, kappa, robin_low, robin_up = acceleration_parameters(problem, kinetic, delta, lower_wall, upper_wall)
+    es_factor = kinetic.stress_coefficient / (1.0 - kinetic.stress_coefficient)
+    if not accelerate:
+        accel_kind = 0
+
+    y = grids.channel_nodes(n_space)
+    c, w, vdesc = grids.velocity_set(delta, n_velocity)
+    tables = build_tables(problem, kinetic, c, w)
+    R_low, defect_low = wall_operators(lower_wall, tables.degrees, c, w)
+    R_up, defect_up = wall_operators(upper_wall, tables.degrees, c, w)
+    d = kinetic.collision_factor * delta
+    cell = kernels.cell_coefficients(y, c, d)
+    wy = np.diff(y)  # cell widths: the y-integral of a DG field is sum h_i a_i
+    yc = 0.5 * (y[1:] + y[:-1])
+    F = np.zeros((2, 2, c.size, n_space, 2))
+    history = np.zeros(max_iter)
+    iterations, code, estimate, rho = kernels.source_iteration(
+        F, *cell, tables.P, tables.Q, tables.src, d, R_low, R_up,
+        tables.Fw_low, tables.Fw_up, wy, tables.fix_mass, tables.primary, max_iter, tol, history,
+        accel_kind, kappa, es_factor, robin_low, robin_up,
+    )
+    M = np.zeros((tables.P.shape[0], n_space, 2))
+    kernels.compute_moments(F, tables.P, M)
+    coeffs, prof = coefficients_and_profiles(problem, M[:, :, 0], wy)
+
+    status, reason = CONVERGED, ""
+    if code != kernels.CONVERGED_CODE:
+        status, reason = FAILED, _STATUS_REASON[code]
+    elif not all(math.isfinite(v) for v, _ in coeffs.values()):
+        status, reason = FAILED, "non-finite coefficient"
+    convergence = ConvergenceRecord(
+        residuals=history[:iterations].copy(), iterations=int(iterations), status=status, reason=reason, tolerance=tol
+    )
+    parameters = {"problem": problem, "model": kinetic.name, "delta": delta, "prandtl": kinetic.prandtl}
+    parameters.update(_wall_parameters("lower", lower_wall))
+    parameters.update(_wall_parameters("upper", upper_wall))
+    discretization = {
+        "n_space": int(n_space),
+        "space_grid": "y = sin(pi xi / 2) / 2, xi uniform",
+        "space_scheme": "linear discontinuous Galerkin (upwind), profiles are cell averages",
+        **vdesc,
+        "tol": tol,
+        "max_iter": int(max_iter),
+        "accelerate": bool(accelerate),
+        "acceleration_applied": bool(accel_kind > 0),
+        "contraction_estimate": float(rho),
+        "final_error_estimate": float(estimate),
+        "wall_kernel_defect": float(max(defect_low, defect_up)),
+    }
+    return SolverResult(
+        family="plane_channel",
+        problem=problem,
+        parameters=parameters,
+        coords={"y": Quantity(yc, "1", "cell centre across the channel / gap (walls at -1/2, +1/2)", ("y",))},
+        profiles={k: Quantity(v, "1", ln, ("y",)) for k, (v, ln) in prof.items()},
+        coefficients={k: Quantity(v, "1", ln) for k, (v, ln) in coeffs.items()},
+        discretization=discretization,
+        convergence=convergence,
+        wall_time=time.perf_counter() - t0,
+    )
