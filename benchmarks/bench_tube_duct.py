@@ -19,6 +19,7 @@ import numba
 
 from solver.duct import solve_duct
 from solver.tube import solve_tube
+from solver.walls import CercignaniLampisWall
 
 
 def _estimate(res, tol):
@@ -64,6 +65,17 @@ def main():
         run(
             f"duct A=2 poiseuille d={d:g}",
             lambda d=d, **kw: solve_duct("poiseuille", **{"delta": d, "aspect_ratio": 2.0, **kw}),
+            args.tol,
+            args.plain_cap,
+        )
+    # Cercignani-Lampis walls: the tube solves the wall exchange exactly in each
+    # sweep; the duct lags it by one sweep like the Maxwell wall.
+    cl = CercignaniLampisWall(0.8, 0.5)
+    for d in (1.0, 100.0):
+        run(f"tube CL(0.8,0.5) d={d:g}", lambda d=d, **kw: solve_tube("poiseuille", **{"delta": d, "wall": cl, **kw}), args.tol, args.plain_cap)
+        run(
+            f"duct A=2 CL(0.8,0.5) d={d:g}",
+            lambda d=d, **kw: solve_duct("poiseuille", **{"delta": d, "aspect_ratio": 2.0, "wall": cl, **kw}),
             args.tol,
             args.plain_cap,
         )

@@ -1,0 +1,37 @@
+# knudsweep: parametric sweeps of rarefied-gas transport.
+#
+#   snakemake --cores 2                        demo study (config/config.yaml)
+#   snakemake --cores 2 --configfile my.yaml   any other study (replaces the demo)
+#   snakemake --cores 2 figures                redraw figures from results/<study>/sweep.nc
+#   recommended local settings: add  --workflow-profile config/profiles/default
+#   cluster: see config/profiles/slurm/profile.yaml
+from snakemake.utils import min_version
+
+min_version("9.0")
+
+
+##### configuration #####
+# A --configfile given on the command line is the whole study; the demo file is
+# read only when none is given (no silent merge of two studies).
+if not config:
+
+    configfile: "config/config.yaml"
+
+
+include: "workflow/rules/common.smk"
+
+
+##### stages #####
+include: "workflow/rules/solve.smk"
+include: "workflow/rules/gather.smk"
+include: "workflow/rules/summarize.smk"
+include: "workflow/rules/plot.smk"
+
+
+##### target #####
+rule all:
+    input:
+        PLAN.table_files(),
+        PLAN.figure_files(),
+    default_target: True
+    localrule: True

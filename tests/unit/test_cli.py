@@ -1,0 +1,112 @@
+"""knudsweep CLI: one-line errors with exit code 2, status listing, bench discovery."""
+
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from knudsweep.cli import main
+
+REPO = Path(__file__).resolve().parents[2]
+
+
+def run_cli(capsys, *argv):
+    with pytest.raises(SystemExit) as info:
+        main(list(argv))
+    err = capsys.readouterr().err
+    return info.value.code, err
+
+
+@pytest.mark.parametrize(
+    "argv,expected",
+    [
+        (["--delta", "0"], "--delta: got 0; allowed range is (0, inf)"),
+        (["--delta", "-1"], "--delta: got -1; allowed range is (0, inf)"),
+        (["--kn", "-2"], "--kn: got -2; allowed range is (0, inf)"),
+        (["--delta", "1", "--alpha", "1.5"], "--alpha: got 1.5; allowed range is (0, 1]"),
+        (["--delta", "1", "--alpha", "0"], "--alpha: got 0; allowed range is (0, 1]"),
+        (["--delta", "1", "--alpha-upper", "2"], "--alpha-upper: got 2; allowed range is (0, 1]"),
+        (["--delta", "1", "--wall-model", "cercignani_lampis", "--alpha-t", "2"],
+         "--alpha-t: got 2; allowed range is (0, 2)"),
+        (["--delta", "1", "--wall-model", "cercignani_lampis", "--alpha-n", "1.2"],
+         "--alpha-n: got 1.2; allowed range is (0, 1]"),
+        (["--delta", "1", "--model", "bkg"], "--model: unknown value 'bkg'; allowed values are bgk, s_model, es_bgk"),
+        (["--delta", "1", "--problem", "flow"], "--problem: unknown value 'flow'"),
+        (["--pressure", "100", "--length", "1e-6", "--gas", "Argon"], "--gas: unknown gas 'Argon'; allowed values are He"),
+        (["--pressure", "100"], "--length: required with --pressure"),
+        (["--delta", "1", "--kn", "1"], "give exactly one of --delta, --kn, --pressure"),
+        (["--delta", "1", "--n-space", "2"], "--n-space: got 2; allowed range is [4, inf)"),
+        (["--delta", "1", "--tol", "0"], "--tol: got 0; allowed range is (0, 0.1]"),
+        (["--delta", "abc"], "argument --delta: invalid float value: 'abc'"),
+        (["--delta", "1", "--wall-model", "specular"], "argument --wall-model: invalid choice"),
+    ],
+)
+def test_bad_solve_options_give_one_line_and_exit_2(capsys, argv, expected):
+    code, err = run_cli(capsys, "solve", *argv)
+    assert code == 2
+    assert expected in err
+    assert err.count("\n") == 1 and err.startswith("knudsweep: error: ")
+    assert "Traceback" not in err
+
+
+def test_console_script_has_no_traceback():
+    # the installed entry point, as a user runs it
+    exe = Path(sys.executable).with_name("knudsweep")
+    r = subprocess.run([str(exe), "solve", "--delta", "-3"], capture_output=True, text=True)
+    assert r.returncode == 2
+    assert r.stderr == "knudsweep: error: --delta: got -3; allowed range is (0, inf)\n"
+
+
+def test_status_of_a_fresh_study_lists_missing_points(tmp_path, capsys):
+    study = tmp_path / "s.yaml"
+    study.write_text("study: s\nplane_channel: {problems: [poiseuille], models: [bgk], "
+                     "walls: [{alpha: 1.0}], delta: [0.1, 1.0]}\n")
+    assert main(["status", str(study), "--directory", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert out.count("missing") >= 2 and "2 points: 0 done, 0 failed, 2 missing, 0 corrupt" in out
+    assert main(["status", str(study), "--directory", str(tmp_path), "--json"]) == 0
+    rows = json.loads(capsys.readouterr().out)
+    assert [r["state"] for r in rows] == ["missing", "missing"]
+
+
+def test_status_with_a_bad_study_is_one_line(tmp_path, capsys):
+    study = tmp_path / "s.yaml"
+    study.write_text("study: s\nplane_channel: {problems: [poiseuille], models: [bgk], "
+                     "walls: [{alpha: 1.0}], delta: [-0.1]}\n")
+    code, err = run_cli(capsys, "status", str(study))
+    assert code == 2 and err == "knudsweep: error: plane_channel.delta[0]: got -0.1; allowed range is (0, 1e+06]\n"
+
+
+def test_bench_runs_scripts_it_finds(tmp_path, capsys):
+    (tmp_path / "benchmarks").mkdir()
+    (tmp_path / "benchmarks" / "bench_hello.py").write_text("print('ratio 1.0')\n")
+    assert main(["bench", "--directory", str(tmp_path)]) == 0
+    assert "bench_hello.py" in capsys.readouterr().out
+
+
+def test_solve_one_point_json_and_netcdf(tmp_path):
+    exe = Path(sys.executable).with_name("knudsweep")
+    out = tmp_path / "p.nc"
+    r = subprocess.run([str(exe), "solve", "--problem", "poiseuille", "--model", "bgk", "--kn", "0.886227",
+                        "--alpha", "0.9", "--n-space", "16", "--n-velocity", "8", "--tol", "1e-6",
+                        "--output", str(out), "--json"], capture_output=True, text=True)
+    assert r.returncode == 0, r.stderr
+    summary = json.loads(r.stdout)  # exactly one JSON object on stdout
+    assert summary["status"] == "converged" and summary["iterations"] > 0
+    assert summary["delta"] == pytest.approx(1.0, rel=1e-5)  # sqrt(pi)/(2 Kn)
+    assert summary["wall"] == "maxwell-alpha=0.9"
+    from solver.netcdf_io import read_result
+
+    assert read_result(out).coefficient("G_P") == summary["coefficients"]["G_P"]
+
+
+def test_solve_from_pressure_uses_the_gas(capsys):
+    from solver.gas import delta_from_pressure
+
+    code = main(["solve", "--pressure", "2000", "--length", "2e-6", "--temperature", "300", "--gas", "He",
+                 "--n-space", "16", "--n-velocity", "8", "--tol", "1e-6", "--json"])
+    summary = json.loads(capsys.readouterr().out)
+    assert code == 0
+    assert summary["delta"] == pytest.approx(delta_from_pressure("He", 2000, 300, 2e-6), rel=1e-5)

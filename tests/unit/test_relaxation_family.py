@@ -1,0 +1,67 @@
+"""Relaxation family of the study layer: points, solve, gather, table, figures (tiny sweep)."""
+
+import numpy as np
+import pytest
+
+from knudsweep.families.relaxation import FAMILY, solver_labels
+from knudsweep.gather import gather_family
+from knudsweep.tables import write_tables
+from solver.netcdf_io import write_result
+
+SECTION = {
+    "gases": ["Ar"],
+    "pressures": [100.0],
+    "temperatures": [300.0],
+    "initial_states": ["anisotropic"],
+    "molecular_models": ["maxwell"],
+    "methods": ["dsmc", "bgk"],
+    "n_particles": [3000],
+    "run": {"n_replicas": 3, "t_end": 4.0, "n_output": 9, "seed": 3, "h_bins_per_axis": 4, "n_velocity": 16},
+}
+
+
+def test_points_identity_and_labels():
+    pts = FAMILY.points(SECTION)
+    assert solver_labels(SECTION) == ["dsmc-N3000", "bgk-nv16"]
+    assert len(pts) == 2 and len({p.pid for p in pts}) == 2
+    assert pts[0].pid.startswith("relaxation/anisotropic-1.8-0.6-0.6/gas=Ar/model=maxwell/solver=dsmc-N3000/")
+    # float noise does not create a new point
+    noisy = {**SECTION, "pressures": [100.0 + 1e-9]}
+    assert [p.pid for p in FAMILY.points(noisy)] == [p.pid for p in pts]
+
+
+def test_check_section_names_key():
+    with pytest.raises(ValueError, match="n_particles"):
+        FAMILY.check_section({**SECTION, "n_particles": [100]})
+    with pytest.raises(ValueError, match="methods"):
+        FAMILY.check_section({**SECTION, "methods": ["lattice"]})
+
+
+def test_tiny_sweep_end_to_end(tmp_path, monkeypatch):
+    monkeypatch.chdir(tmp_path)
+    pts = FAMILY.points(SECTION)
+    files = {}
+    for p in pts:
+        res = FAMILY.solve(p.values, max_iter=None, section=SECTION)
+        assert res.status == "converged"
+        files[p.pid] = str(tmp_path / "results" / "points" / f"{p.pid}.nc")
+        write_result(res, files[p.pid])
+    ds = gather_family(FAMILY, SECTION, pts, files)
+    assert set(ds["status"].values.ravel()) == {"converged"}
+    tau = ds["anisotropy_relaxation_time"].values.ravel()
+    # Maxwell molecules: 2 tau_c (BGK exactly; DSMC with 3 x 3000 particles within 15 %)
+    assert tau[1] == pytest.approx(2.0, rel=1e-6)
+    assert tau[0] == pytest.approx(2.0, rel=0.15)
+    tables = FAMILY.tables(ds, SECTION)
+    frame = tables["relaxation_times"].frame
+    assert "anisotropy time [s]" in frame.columns and len(frame) == 2
+    written = write_tables(tables, tmp_path / "tables")
+    assert all(w.exists() for w in written)
+    figs = FAMILY.figures(ds, SECTION, {"width": 5, "height": 3.5})
+    assert sorted(figs) == sorted(FAMILY.figure_names(SECTION))
+    ax = figs["relaxation_anisotropy_anisotropic"].axes[0]
+    assert len(ax.lines) >= 2 and np.isfinite(ax.lines[0].get_ydata()).any()
+    import matplotlib.pyplot as plt
+
+    for fig in figs.values():
+        plt.close(fig)

@@ -1,0 +1,192 @@
+"""Gather, status, tables and figures on point files built by hand (no solver run).
+
+The point files are written with solver.netcdf_io from SolverResults whose G_P
+follows the first-order slip formula delta/6 + sigma_P, so the expected table
+ratios are known exactly.
+"""
+
+import hashlib
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+import xarray as xr
+
+from knudsweep import gather as gather_mod
+from knudsweep.config import validate_study
+from knudsweep.families import get_family
+from knudsweep.families.plane_channel_report import SIGMA_P_DIFFUSE, slip_gp
+from knudsweep.figures import save_figure
+from knudsweep.gather import gather_study, open_sweep
+from knudsweep.plan import StudyPlan
+from knudsweep.status import requeue, study_status
+from knudsweep.tables import write_tables
+from solver.gas import pressure_from_delta
+from solver.netcdf_io import write_result
+from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+
+STUDY = {
+    "study": "hand",
+    "plane_channel": {
+        "problems": ["poiseuille", "thermal_creep"],
+        "models": ["bgk"],
+        "gases": ["Ar", "He"],
+        "walls": [{"alpha": 1.0}, {"alpha": 0.8}],
+        "delta": [0.01, 1.0, 100.0],
+        "conditions": {"temperature": 300.0, "gap": 2e-6},
+    },
+    "figures": {"formats": ["png", "pdf"], "width": 4.0, "height": 3.0, "dpi": 60},
+}
+
+
+def synthetic(point, status=CONVERGED):
+    v = point.values
+    d = v["delta"]
+    name = "G_P" if v["problem"] == "poiseuille" else "G_T"
+    value = d / 6 + SIGMA_P_DIFFUSE if name == "G_P" else 0.5 / (1 + d)
+    n = 5 + int(10 * math.log10(d) + 20)
+    return SolverResult(
+        family="plane_channel", problem=v["problem"], parameters={"delta": d},
+        coefficients={} if status == FAILED else {name: Quantity(value, "1", f"reduced flow rate {name}")},
+        convergence=ConvergenceRecord(np.geomspace(1, 1e-9, n), n, status,
+                                      "max_iter reached" if status == FAILED else "", 1e-8),
+        wall_time=0.01,
+    )
+
+
+@pytest.fixture
+def sweep(tmp_path):
+    plan = StudyPlan(validate_study(STUDY))
+    points = list(plan.points.values())
+    failed, missing, corrupt = points[1], points[4], points[3]
+    for p in points:
+        if p is missing:
+            continue
+        path = tmp_path / plan.point_file(p.pid)
+        if p is corrupt:
+            path.parent.mkdir(parents=True, exist_ok=True)
+            path.write_bytes(b"CDF\x01 this is not a complete file")
+            continue
+        write_result(synthetic(p, FAILED if p is failed else CONVERGED), path, {"point_id": p.pid})
+    out = tmp_path / plan.sweep_file
+    gather_study(plan, out, workers=1, root=tmp_path)
+    return plan, out, (failed, missing, corrupt), tmp_path
+
+
+def test_gather_grid_status_and_nan(sweep):
+    plan, out, (failed, missing, corrupt), root = sweep
+    ds = open_sweep(out, "plane_channel")
+    assert ds["G_P"].dims == ("problem", "model", "wall", "delta")
+    assert list(ds["delta"].values) == [0.01, 1.0, 100.0]
+    assert list(ds["wall"].values) == ["maxwell-alpha=1.0", "maxwell-alpha=0.8"]
+    np.testing.assert_allclose(ds["kn"].values, math.sqrt(math.pi) / (2 * ds["delta"].values), rtol=1e-5)
+
+    def at(p, var):
+        return ds[var].sel(**p.index).item()
+
+    assert at(failed, "status") == "failed" and at(failed, "reason") == "max_iter reached"
+    assert math.isnan(at(failed, "G_P"))
+    assert at(missing, "status") == "missing" and math.isnan(at(missing, "G_P"))
+    assert at(corrupt, "status") == "corrupt" and str(root / plan.point_file(corrupt.pid)) in at(corrupt, "reason")
+    good = [p for p in plan.points.values() if p not in (failed, missing, corrupt)]
+    for p in good:
+        assert at(p, "status") == "converged"
+    p = next(p for p in good if p.values["problem"] == "poiseuille")
+    assert at(p, "G_P") == pytest.approx(p.values["delta"] / 6 + SIGMA_P_DIFFUSE, rel=1e-12)
+    # G_T is NaN on the poiseuille rows: a problem only fills its own coefficients
+    assert np.isnan(ds["G_T"].sel(problem="poiseuille")).all()
+    with xr.open_dataset(out) as root_ds:
+        assert root_ds.attrs["study"] == "hand" and root_ds.attrs["families"] == "plane_channel"
+
+
+def test_corrupt_file_is_moved_aside_and_requeued(sweep):
+    plan, out, (_, _, corrupt), root = sweep
+    path = root / plan.point_file(corrupt.pid)
+    assert not path.exists()
+    assert (root / (plan.point_file(corrupt.pid) + ".corrupt")).exists()
+    rows = {r.pid: r for r in study_status(plan, root)}
+    assert rows[corrupt.pid].state == "missing" and "corrupt" in rows[corrupt.pid].reason
+
+
+def test_status_and_requeue_failed(sweep):
+    plan, _, (failed, missing, _), root = sweep
+    rows = {r.pid: r for r in study_status(plan, root)}
+    assert rows[failed.pid].state == "failed" and rows[failed.pid].reason == "max_iter reached"
+    assert rows[missing.pid].state == "missing"
+    assert sum(r.state == "converged" for r in rows.values()) == len(rows) - 3
+    removed = requeue(list(rows.values()))
+    assert removed == [str(root / plan.point_file(failed.pid))]
+    assert {r.pid: r.state for r in study_status(plan, root)}[failed.pid] == "missing"
+
+
+def test_parallel_read_in_processes_equals_serial(sweep, monkeypatch):
+    plan, _, _, root = sweep
+    paths = [str(root / plan.point_file(pid)) for pid in plan.points if (root / plan.point_file(pid)).exists()]
+    serial = gather_mod.read_points(paths, workers=1)
+    monkeypatch.setattr(gather_mod, "_MIN_FILES_PER_WORKER", 2)
+    parallel = gather_mod.read_points(paths, workers=2)
+    assert [r["path"] for r in parallel] == [r["path"] for r in serial]
+    for a, b in zip(serial, parallel):
+        assert a["coefficients"] == b["coefficients"] and a["status"] == b["status"]
+
+
+def test_tables_have_units_references_and_gas_pressures(sweep):
+    plan, out, (failed, _, _), root = sweep
+    section = plan.study["plane_channel"]
+    tables = get_family("plane_channel").tables(open_sweep(out, "plane_channel"), section)
+    written = write_tables(tables, root / "tables")
+    assert sorted(p.name for p in written) == sorted(
+        f"plane_channel_{p}.{ext}" for p in ("poiseuille", "thermal_creep") for ext in ("csv", "md"))
+    frame = pd.read_csv(root / "tables" / "plane_channel_poiseuille.csv")
+    for col in ("delta [1]", "Kn [1]", "pressure [Pa]", "G_P [1]", "G_P / (delta/6) [1]",
+                "G_P / G_slip [1]", "G_P / G_fm,asymptotic [1]"):
+        assert col in frame.columns
+    row = frame[(frame["gas"] == "He") & (frame["delta [1]"] == 100.0)
+                & (frame["wall"] == "maxwell-alpha=1.0") & (frame["status"] == "converged")].iloc[0]
+    # synthetic G_P = delta/6 + sigma_P, so the slip ratio is 1 for diffuse walls
+    assert row["G_P / G_slip [1]"] == pytest.approx(1.0, rel=1e-5)
+    assert row["G_P / (delta/6) [1]"] == pytest.approx(1 + 6 * SIGMA_P_DIFFUSE / 100, rel=1e-5)
+    assert row["pressure [Pa]"] == pytest.approx(pressure_from_delta("He", 100.0, 300.0, 2e-6), rel=1e-5)
+    # Ar and He rows share the reduced value (one solve, two gases)
+    ar = frame[(frame["gas"] == "Ar") & (frame["delta [1]"] == 100.0) & (frame["wall"] == "maxwell-alpha=1.0")]
+    assert ar["G_P [1]"].iloc[0] == row["G_P [1]"]
+    assert frame[frame["status"] == "failed"]["G_P [1]"].isna().all()
+    md = (root / "tables" / "plane_channel_poiseuille.md").read_text()
+    assert "Sharipov & Seleznev" in md and "free-molecular asymptotic form" in md
+
+
+def test_slip_formula_reduces_to_symmetric_form():
+    d = np.array([0.5, 3.0, 40.0])
+    np.testing.assert_allclose(slip_gp(d, 1.0162, 1.0162), d / 6 + 1.0162, rtol=1e-13)
+    # one no-slip plate, one with slip: between the no-slip and symmetric-slip values
+    mixed = slip_gp(d, 1e-12, 1.0162)
+    assert np.all(d / 6 < mixed) and np.all(mixed < d / 6 + 1.0162)
+
+
+def test_figures_are_written_and_byte_reproducible(sweep, tmp_path):
+    plan, out, _, _ = sweep
+    fam = get_family("plane_channel")
+    section, settings = plan.study["plane_channel"], plan.study["figures"]
+    names = fam.figure_names(section)
+
+    def draw(dirname, only=None):
+        import matplotlib.pyplot as plt
+
+        figs = fam.figures(open_sweep(out, "plane_channel"), section, settings)
+        assert sorted(figs) == sorted(names)
+        digests = {}
+        for name, fig in figs.items():
+            if only is not None and name not in only:
+                plt.close(fig)
+                continue
+            for path in save_figure(fig, tmp_path / dirname / name, settings["formats"], settings["dpi"]):
+                digests[path.name] = hashlib.sha256(path.read_bytes()).hexdigest()
+        return digests
+
+    first = draw("a")
+    assert len(first) == 2 * len(names)
+    # saving is the slow part: compare two figures (one with asymptotes, one with histories)
+    again = ["plane_channel_G_P_vs_delta_bgk", "plane_channel_convergence_poiseuille"]
+    second = draw("b", only=again)
+    assert second == {k: v for k, v in first.items() if k.rsplit(".", 1)[0] in again}

@@ -1,0 +1,263 @@
+"""``knudsweep`` command line: solve one point, list a study's status, run benchmarks.
+
+    knudsweep solve --problem poiseuille --model bgk --delta 1.0 --alpha 0.9 --json
+    knudsweep status config/config.yaml
+    knudsweep bench
+
+Bad values give one line ``knudsweep: error: --<option>: ...; allowed ...`` on
+stderr and exit code 2, never a traceback.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import subprocess
+import sys
+from pathlib import Path
+
+EXIT_USAGE = 2
+# Same bounds as config/schema.yaml (axis values at most 1e6).
+DELTA_MAX = 1.0e6
+
+
+class CliError(ValueError):
+    """A bad command-line value; the message names the option."""
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):  # one line, exit 2, no usage block
+        sys.stderr.write(f"knudsweep: error: {message}\n")
+        raise SystemExit(EXIT_USAGE)
+
+
+def _fail(message: str) -> None:
+    sys.stderr.write(f"knudsweep: error: {message}\n")
+    raise SystemExit(EXIT_USAGE)
+
+
+def _positive(option: str, value):
+    if value is None:
+        return None
+    if not (math.isfinite(value) and value > 0):
+        raise CliError(f"{option}: got {value:g}; allowed range is (0, inf)")
+    return value
+
+
+def _in_range(option: str, value, low, high, high_open=False):
+    if value is None:
+        return None
+    ok = math.isfinite(value) and low < value and (value < high if high_open else value <= high)
+    if not ok:
+        raise CliError(f"{option}: got {value:g}; allowed range is ({low:g}, {high:g}{')' if high_open else ']'}")
+    return value
+
+
+def _solve_values(args) -> dict:
+    """Point values (as the plane-channel family builds them) from the options."""
+    from knudsweep.families.plane_channel import MODELS, PROBLEMS, wall_label
+    from knudsweep.identity import canonical
+    from solver import gas as gasmod
+
+    if args.problem not in PROBLEMS:
+        raise CliError(f"--problem: unknown value {args.problem!r}; allowed values are {', '.join(PROBLEMS)}")
+    if args.model not in MODELS:
+        raise CliError(f"--model: unknown value {args.model!r}; allowed values are {', '.join(MODELS)}")
+    if args.gas not in gasmod.known_gases():
+        raise CliError(f"--gas: unknown gas {args.gas!r}; allowed values are {', '.join(gasmod.known_gases())}")
+    # Every value given is checked, used or not, against the study schema's ranges.
+    for option, value in (("--delta", args.delta), ("--kn", args.kn)):
+        _in_range(option, _positive(option, value), 0, DELTA_MAX)
+    _positive("--pressure", args.pressure)
+    _positive("--length", args.length)
+    _in_range("--temperature", _positive("--temperature", args.temperature), 0, 10000)
+    given = [name for name in ("delta", "kn", "pressure") if getattr(args, name) is not None]
+    if len(given) != 1:
+        raise CliError("--delta: give exactly one of --delta, --kn, --pressure")
+    if given[0] == "delta":
+        delta = _positive("--delta", args.delta)
+    elif given[0] == "kn":
+        delta = gasmod.delta_from_kn(_positive("--kn", args.kn))
+    else:
+        _positive("--pressure", args.pressure)
+        if args.length is None:
+            raise CliError("--length: required with --pressure (plate gap in m, allowed range (0, inf))")
+        _positive("--length", args.length)
+        _positive("--temperature", args.temperature)
+        delta = gasmod.delta_from_pressure(args.gas, args.pressure, args.temperature, args.length)
+        if not 0 < delta <= DELTA_MAX:
+            raise CliError(f"--pressure: gives delta = {delta:g} with this --length and --temperature; "
+                           f"allowed range of delta is (0, {DELTA_MAX:g}]")
+
+    def plate(alpha, alpha_t, alpha_n, suffix):
+        if args.wall_model == "maxwell":
+            if alpha_t is not None or alpha_n is not None:
+                raise CliError(f"--alpha-t{suffix}: only for --wall-model cercignani_lampis")
+            return {"model": "maxwell", "alpha": canonical(_in_range(f"--alpha{suffix}", 1.0 if alpha is None else alpha, 0, 1))}
+        if alpha is not None:
+            raise CliError(f"--alpha{suffix}: only for --wall-model maxwell; use --alpha-t/--alpha-n")
+        return {
+            "model": "cercignani_lampis",
+            "alpha_t": canonical(_in_range(f"--alpha-t{suffix}", 1.0 if alpha_t is None else alpha_t, 0, 2, high_open=True)),
+            "alpha_n": canonical(_in_range(f"--alpha-n{suffix}", 1.0 if alpha_n is None else alpha_n, 0, 1)),
+        }
+
+    lower = plate(args.alpha, args.alpha_t, args.alpha_n, "")
+    has_upper = any(v is not None for v in (args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper))
+    upper = plate(args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper, "-upper") if has_upper else None
+    for opt, val, low, high in (("--n-space", args.n_space, 4, 100000), ("--n-velocity", args.n_velocity, 4, 10000),
+                                ("--max-iter", args.max_iter, 1, 100000000), ("--threads", args.threads, 1, 256)):
+        if val is not None and val < low:
+            raise CliError(f"{opt}: got {val}; allowed range is [{low}, inf)")
+        if val is not None and val > high:
+            raise CliError(f"{opt}: got {val}; allowed range is [{low}, {high}]")
+    _in_range("--tol", args.tol, 0, 0.1)
+    return {
+        "problem": args.problem,
+        "model": args.model,
+        "delta": canonical(delta),
+        "wall": wall_label(lower, upper),
+        "lower_wall": lower,
+        "upper_wall": upper,
+        "n_space": args.n_space,
+        "n_velocity": args.n_velocity,
+        "tol": canonical(args.tol),
+    }
+
+
+def cmd_solve(args) -> int:
+    from knudsweep.point_job import configure_numba
+
+    values = _solve_values(args)
+    configure_numba(args.threads)
+    from knudsweep.point_job import solve_point, solve_values
+
+    section = {"iteration": {"max_iter": args.max_iter, "accelerate": not args.no_accelerate,
+                             "retry_max_iter_factor": 1}}
+    if args.output:
+        result = solve_point("plane_channel", values, args.output, section=section, pid="cli")
+    else:
+        result, _, _ = solve_values("plane_channel", values, section)
+    summary = result.summary()
+    summary["delta"] = values["delta"]
+    summary["wall"] = values["wall"]
+    if args.output:
+        summary["output"] = str(args.output)
+    if args.json:
+        print(json.dumps(summary, sort_keys=True, default=str))
+    else:
+        print(f"status: {summary['status']} {summary['reason']}".rstrip())
+        print(f"iterations: {summary['iterations']}  wall time: {summary['wall_time_s']:.3g} s")
+        for name, value in summary["coefficients"].items():
+            print(f"{name} = {value:.6g}")
+    return 0 if result.status == "converged" else 1
+
+
+def cmd_status(args) -> int:
+    from knudsweep.config import load_study
+    from knudsweep.plan import StudyPlan
+    from knudsweep.status import clean_stray_temporaries, requeue, study_status
+    from solver import __version__
+
+    plan = StudyPlan(load_study(args.study))
+    for path in clean_stray_temporaries(plan, args.directory):
+        print(f"removed stray temporary {path} (left by a killed writer)")
+    rows = study_status(plan, args.directory)
+    if args.requeue_failed:
+        for path in requeue(rows):
+            print(f"removed {path} (will be recomputed on the next run)")
+    if args.requeue_outdated:
+        for path in requeue(rows, outdated=True):
+            print(f"removed {path} (older solver version; will be recomputed on the next run)")
+    if args.requeue_failed or args.requeue_outdated:
+        rows = study_status(plan, args.directory)
+    if args.json:
+        print(json.dumps([r.__dict__ for r in rows], sort_keys=True))
+        return 0
+    counts: dict[str, int] = {}
+    for r in rows:
+        counts[r.state] = counts.get(r.state, 0) + 1
+        if r.state != "converged" or r.outdated or args.all:
+            reason = f"  ({r.reason})" if r.reason else ""
+            old = f"  [computed by solver {r.code_version or 'unknown'}, now {__version__}]" if r.outdated else ""
+            print(f"{r.state:9s} {r.pid}{reason}{old}")
+    summary = ", ".join(f"{counts.get(s, 0)} {label}" for s, label in
+                        (("converged", "done"), ("failed", "failed"), ("missing", "missing"), ("corrupt", "corrupt")))
+    outdated = sum(r.outdated for r in rows)
+    print(f"study {plan.name}: {len(rows)} points: {summary}; {outdated} outdated "
+          f"(older solver version{', remove with --requeue-outdated' if outdated else ''})")
+    return 0
+
+
+def cmd_bench(args) -> int:
+    root = Path(args.directory)
+    scripts = sorted((root / "benchmarks").glob("bench_*.py"))
+    if not scripts:
+        print(f"no benchmark scripts in {root / 'benchmarks'}")
+        return 0
+    status = 0
+    for script in scripts:
+        print(f"== {script.relative_to(root)}", flush=True)
+        status |= subprocess.run([sys.executable, str(script)], cwd=root).returncode
+    return status
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="knudsweep", description="Parametric sweeps of rarefied-gas transport.")
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    s = sub.add_parser("solve", help="solve one plane-channel point")
+    s.add_argument("--problem", default="poiseuille", help="poiseuille, thermal_creep, couette, heat_transfer")
+    s.add_argument("--model", default="bgk", help="bgk, s_model, es_bgk")
+    s.add_argument("--gas", default="Ar", help="gas name from config/gases.yaml (used with --pressure)")
+    s.add_argument("--delta", type=float, help="rarefaction parameter, > 0")
+    s.add_argument("--kn", type=float, help="Knudsen number, > 0 (delta = sqrt(pi)/(2 Kn))")
+    s.add_argument("--pressure", type=float, help="pressure in Pa (needs --length, --temperature, --gas)")
+    s.add_argument("--length", type=float, help="plate gap in m (with --pressure)")
+    s.add_argument("--temperature", type=float, default=300.0, help="temperature in K (with --pressure), default 300")
+    s.add_argument("--wall-model", default="maxwell", choices=["maxwell", "cercignani_lampis"])
+    s.add_argument("--alpha", type=float, help="Maxwell accommodation in (0, 1], default 1")
+    s.add_argument("--alpha-upper", type=float, help="Maxwell accommodation of the upper plate, (0, 1]")
+    s.add_argument("--alpha-t", type=float, help="Cercignani-Lampis tangential accommodation in (0, 2)")
+    s.add_argument("--alpha-n", type=float, help="Cercignani-Lampis normal-energy accommodation in (0, 1]")
+    s.add_argument("--alpha-t-upper", type=float, help="upper plate alpha_t, (0, 2)")
+    s.add_argument("--alpha-n-upper", type=float, help="upper plate alpha_n, (0, 1]")
+    s.add_argument("--n-space", type=int, help="cells across the gap (default: solver's)")
+    s.add_argument("--n-velocity", type=int, help="velocity nodes (default: solver's)")
+    s.add_argument("--max-iter", type=int, help="iteration limit (default: solver's)")
+    s.add_argument("--tol", type=float, default=1e-8, help="convergence tolerance, (0, 0.1]")
+    s.add_argument("--no-accelerate", action="store_true", help="switch off convergence acceleration")
+    s.add_argument("--threads", type=int, default=1, help="numba threads")
+    s.add_argument("--output", type=Path, help="write the point as netCDF to this path")
+    s.add_argument("--json", action="store_true", help="print coefficients, iterations and status as JSON")
+    s.set_defaults(func=cmd_solve)
+
+    st = sub.add_parser("status", help="list done / failed / missing points of a study")
+    st.add_argument("study", help="study YAML file")
+    st.add_argument("--directory", default=".", help="working directory holding results/ (default .)")
+    st.add_argument("--all", action="store_true", help="also list converged points")
+    st.add_argument("--json", action="store_true", help="print one JSON list")
+    st.add_argument("--requeue-failed", action="store_true",
+                    help="delete failed and corrupt point files so the next run recomputes them")
+    st.add_argument("--requeue-outdated", action="store_true",
+                    help="delete only the point files computed by an older solver version")
+    st.set_defaults(func=cmd_status)
+
+    b = sub.add_parser("bench", help="run benchmarks/bench_*.py")
+    b.add_argument("--directory", default=str(Path(__file__).resolve().parents[2]), help="repository root")
+    b.set_defaults(func=cmd_bench)
+    return parser
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    try:
+        return args.func(args)
+    except ValueError as exc:  # CliError, StudyConfigError, checked solver input errors
+        _fail(str(exc).splitlines()[0] if str(exc) else type(exc).__name__)
+    return EXIT_USAGE
+
+
+if __name__ == "__main__":
+    sys.exit(main())

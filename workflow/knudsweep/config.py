@@ -1,0 +1,209 @@
+"""Study files: load, validate against config/schema.yaml, fill defaults.
+
+A study is one YAML file (``config/config.yaml`` is the demo).  Validation uses
+JSON Schema draft 2020-12 (``jsonschema.Draft202012Validator``) extended to
+fill ``default`` values, then the family-specific checks of every registered
+solver family (see :mod:`knudsweep.families`).  The first problem found is
+raised as :class:`StudyConfigError`, a ``ValueError`` whose message is one line:
+``<key path>: <what is wrong>; <allowed values or range>``.
+"""
+
+from __future__ import annotations
+
+import copy
+import hashlib
+import json
+import math
+from functools import lru_cache
+from pathlib import Path
+from typing import Any
+
+import jsonschema
+import yaml
+
+from solver.gas import known_gases
+
+SCHEMA_FILE = Path(__file__).resolve().parents[2] / "config" / "schema.yaml"
+
+# Sections that never change a point's numbers: excluded from the config hash
+# written into point files, so that editing them does not look like a new study.
+_PRESENTATION_SECTIONS = ("figures", "execution", "description")
+
+
+class StudyConfigError(ValueError):
+    """A study file violates the schema; the message is one line."""
+
+
+@lru_cache(maxsize=1)
+def load_schema() -> dict[str, Any]:
+    """The study schema with the gas-name enum filled from ``known_gases()``."""
+    with open(SCHEMA_FILE, encoding="utf-8") as fh:
+        schema = yaml.safe_load(fh)
+    schema["$defs"]["gas_name"]["enum"] = list(known_gases())
+    return schema
+
+
+def _fill_defaults(validator_class):
+    """Extend a validator class so that ``properties`` also inserts defaults.
+
+    This is the recipe from the jsonschema FAQ ("Why doesn't my schema's
+    default property set the default on my instance?").  Defaults are deep
+    copied so that two studies never share a mutable default.
+    """
+    validate_properties = validator_class.VALIDATORS["properties"]
+
+    def set_defaults(validator, properties, instance, schema):
+        if isinstance(instance, dict):
+            for name, sub in properties.items():
+                if isinstance(sub, dict) and "default" in sub and name not in instance:
+                    instance[name] = copy.deepcopy(sub["default"])
+        yield from validate_properties(validator, properties, instance, schema)
+
+    return jsonschema.validators.extend(validator_class, {"properties": set_defaults})
+
+
+_DefaultFillingValidator = _fill_defaults(jsonschema.Draft202012Validator)
+
+
+def key_path(parts) -> str:
+    """``['plane_channel', 'delta', 0]`` -> ``plane_channel.delta[0]``."""
+    out = ""
+    for part in parts:
+        if isinstance(part, int):
+            out += f"[{part}]"
+        else:
+            out += f".{part}" if out else str(part)
+    return out or "<top level>"
+
+
+def _allowed(schema: dict[str, Any]) -> str:
+    """Human text for the allowed values of a (sub)schema."""
+    if "enum" in schema:
+        return "allowed values are " + ", ".join(map(str, schema["enum"]))
+    low = schema.get("exclusiveMinimum", schema.get("minimum"))
+    high = schema.get("exclusiveMaximum", schema.get("maximum"))
+    if low is not None or high is not None:
+        lb = "(" if "exclusiveMinimum" in schema or low is None else "["
+        rb = ")" if "exclusiveMaximum" in schema or high is None else "]"
+        lo = "-inf" if low is None else f"{low:g}"
+        hi = "inf" if high is None else f"{high:g}"
+        unit = schema.get("unit")
+        unit_text = f" {unit}" if unit and unit not in ("1", "none") else ""
+        return f"allowed range is {lb}{lo}, {hi}{rb}{unit_text}"
+    if "type" in schema:
+        return f"expected type {schema['type']}"
+    return ""
+
+
+def _error_message(error: jsonschema.ValidationError) -> str:
+    path = list(error.absolute_path)
+    kind = error.validator
+    if kind == "additionalProperties":
+        allowed = sorted(error.schema.get("properties", {}))
+        extra = sorted(set(error.instance) - set(allowed))
+        return (
+            f"{key_path(path + [extra[0]])}: unknown key; "
+            f"allowed keys here are {', '.join(allowed)}"
+        )
+    if kind == "required":
+        return f"{key_path(path)}: {error.message}"
+    if kind == "anyOf":
+        # The only anyOf is the axis (list or {start, stop, num}): report the
+        # most specific sub-error, which names the offending element.
+        specific = [e for e in error.context if not (e.validator == "type" and not e.relative_path)]
+        if specific:
+            specific.sort(key=lambda e: (-len(e.absolute_path), key_path(e.absolute_path)))
+            return _error_message(specific[0])
+        return (
+            f"{key_path(path)}: got {error.instance!r}; expected a list of numbers > 0 "
+            "or a range {start, stop, num}"
+        )
+    if kind == "enum":
+        return f"{key_path(path)}: unknown value {error.instance!r}; {_allowed(error.schema)}"
+    if kind in ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum"):
+        return f"{key_path(path)}: got {error.instance!r}; {_allowed(error.schema)}"
+    if kind == "type":
+        return f"{key_path(path)}: got {error.instance!r}; expected type {error.validator_value}"
+    return f"{key_path(path)}: {error.message}"
+
+
+def _first_error(validator, instance) -> jsonschema.ValidationError | None:
+    errors = list(validator.iter_errors(instance))
+    if not errors:
+        return None
+    # Deterministic and most useful first: the deepest path, then the path text.
+    errors.sort(key=lambda e: (-len(e.absolute_path), key_path(e.absolute_path)))
+    return errors[0]
+
+
+def validate_study(raw: dict[str, Any]) -> dict[str, Any]:
+    """Validate a study mapping; return a new dict with defaults filled in.
+
+    Raises :class:`StudyConfigError` (one line) on the first problem.
+    """
+    if not isinstance(raw, dict) or not raw:
+        raise StudyConfigError("<top level>: the study file is empty or not a mapping")
+    study = copy.deepcopy(dict(raw))
+    validator = _DefaultFillingValidator(load_schema())
+    error = _first_error(validator, study)
+    if error is not None:
+        raise StudyConfigError(_error_message(error))
+
+    from knudsweep.families import family_sections, get_family
+
+    sections = family_sections(study)
+    if not sections:
+        raise StudyConfigError(
+            "<top level>: no solver family section; add one of "
+            + ", ".join(family_sections(None))
+        )
+    for name in sections:
+        try:
+            get_family(name).check_section(study[name])
+        except ValueError as exc:
+            raise StudyConfigError(f"{name}.{exc}") from None
+    return study
+
+
+def load_study(path: str | Path) -> dict[str, Any]:
+    """Read and validate the study file at ``path``."""
+    path = Path(path)
+    try:
+        with open(path, encoding="utf-8") as fh:
+            raw = yaml.safe_load(fh)
+    except FileNotFoundError:
+        raise StudyConfigError(f"study file {str(path)!r} does not exist") from None
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f" at line {mark.line + 1}" if mark is not None else ""
+        raise StudyConfigError(f"study file {str(path)!r} is not valid YAML{where}") from None
+    return validate_study(raw)
+
+
+def config_hash(study: dict[str, Any]) -> str:
+    """Short SHA-256 of the validated study without its presentation sections."""
+    core = {k: v for k, v in study.items() if k not in _PRESENTATION_SECTIONS}
+    text = json.dumps(core, sort_keys=True, default=str, separators=(",", ":"))
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()[:16]
+
+
+def log_spaced(start: float, stop: float, num: int) -> list[float]:
+    """``num`` values from ``start`` to ``stop`` (both included), equally spaced in log."""
+    if num == 1:
+        return [float(start)]
+    a, b = math.log10(start), math.log10(stop)
+    return [10.0 ** (a + (b - a) * i / (num - 1)) for i in range(num)]
+
+
+def axis_values(name: str, spec: Any) -> list[float]:
+    """Values of a positive axis given as a list or as ``{start, stop, num}``.
+
+    Raises ValueError naming ``name`` when a range is reversed or values repeat.
+    """
+    if isinstance(spec, dict):
+        if not spec["start"] < spec["stop"] and spec["num"] > 1:
+            raise ValueError(
+                f"{name}: start ({spec['start']:g}) must be below stop ({spec['stop']:g})"
+            )
+        return log_spaced(spec["start"], spec["stop"], spec["num"])
+    return [float(v) for v in spec]

@@ -1,0 +1,133 @@
+"""Registry of solver families: how a study section becomes points, files, tables, figures.
+
+A *family* is one kind of problem with its own solver and its own grid of
+parameters (the plane channel; later a tube/duct family and a homogeneous
+relaxation family).  The core (config loading, Snakemake rules, the solve job,
+gather, tables, figures, status, CLI) never names a family: it asks this
+registry.  Adding a family takes three steps and no change to the core:
+
+1. write ``knudsweep/families/<name>.py`` with a subclass of :class:`Family`
+   and a module-level instance called ``FAMILY``;
+2. add one line to :data:`REGISTRY` below (``"<name>": "knudsweep.families.<name>"``);
+3. describe its study section under the top-level key ``<name>`` in
+   ``config/schema.yaml`` (description/unit/range/default on every key,
+   ``additionalProperties: false``); tests/unit/test_config.py checks that every
+   registered family has a schema section.
+
+The protocol (what the core calls; ``section`` is the family's validated study
+section with defaults filled in, ``study`` the whole validated study):
+
+``name``
+    Section key, first path segment under ``results/points/`` and the netCDF
+    group name in ``results/<study>/sweep.nc``.
+``check_section(section)``
+    Checks the schema cannot express; raise ``ValueError("<key>: ... allowed ...")``
+    (the caller prefixes the family name, so the message names the key path).
+``points(section) -> list[Point]``
+    Expand the grid.  Each :class:`Point` carries canonical ``values`` (JSON
+    scalars only; build floats with :func:`knudsweep.identity.canonical`), its
+    ``pid`` (``<name>/...``, from :mod:`knudsweep.identity`) and its ``index``:
+    the coordinate label of the point along every gather dimension.
+``solve(values, *, max_iter, section) -> SolverResult``
+    Solve one point by calling the solver package.  Must not write files.
+    ``max_iter`` may be None (solver default).  Raise only for programming
+    errors; numerical trouble comes back as a result with status "failed".
+``warm_up()``
+    Compile the numba kernels once on a tiny problem (the ``warm_up`` rule).
+``gather_dims(section) -> dict[str, list]``
+    Ordered gather dimensions and their coordinate labels (the sweep grid).
+``dim_attrs(section) -> dict[str, dict]`` (optional)
+    CF attributes of the dimension coordinates, extra coordinates along them.
+``table_names(section) / tables(ds, section) -> dict[str, Table]``
+    Tables written to ``results/<study>/tables/<name>.csv`` and ``.md``.
+``figure_names(section) / figures(ds, section, settings) -> dict[str, Figure]``
+    matplotlib figures written to ``results/<study>/figures/<name>.<fmt>``.
+    Names must follow from the section alone (Snakemake needs them before
+    anything is computed); a figure without data shows a "no data" note.
+"""
+
+from __future__ import annotations
+
+import importlib
+from dataclasses import dataclass, field
+from typing import Any
+
+# One line per family: section name -> module holding ``FAMILY``.
+REGISTRY: dict[str, str] = {
+    "plane_channel": "knudsweep.families.plane_channel",
+    "tube_duct": "knudsweep.families.tube_duct",
+    "relaxation": "knudsweep.families.relaxation",
+}
+
+
+@dataclass(frozen=True)
+class Point:
+    """One point of a sweep: canonical values, identity and grid position."""
+
+    family: str
+    pid: str
+    values: dict[str, Any]
+    index: dict[str, Any]
+
+    @property
+    def relpath(self) -> str:
+        return f"points/{self.pid}.nc"
+
+
+@dataclass
+class Table:
+    """A table with units in its column headers and notes for the Markdown file."""
+
+    frame: Any  # pandas.DataFrame
+    title: str
+    notes: list[str] = field(default_factory=list)
+
+
+class Family:
+    """Base class of a solver family; see the module docstring for the protocol."""
+
+    name: str = ""
+
+    def check_section(self, section: dict[str, Any]) -> None:
+        return None
+
+    def points(self, section: dict[str, Any]) -> list[Point]:
+        raise NotImplementedError
+
+    def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
+        raise NotImplementedError
+
+    def warm_up(self) -> None:
+        return None
+
+    def gather_dims(self, section: dict[str, Any]) -> dict[str, list]:
+        raise NotImplementedError
+
+    def dim_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
+        return {}
+
+    def table_names(self, section: dict[str, Any]) -> list[str]:
+        return []
+
+    def tables(self, ds, section: dict[str, Any]) -> dict[str, Table]:
+        return {}
+
+    def figure_names(self, section: dict[str, Any]) -> list[str]:
+        return []
+
+    def figures(self, ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+        return {}
+
+
+def get_family(name: str) -> Family:
+    """The registered family ``name`` (ValueError lists the known ones)."""
+    if name not in REGISTRY:
+        raise ValueError(f"family: unknown family {name!r}; known families are {', '.join(REGISTRY)}")
+    return importlib.import_module(REGISTRY[name]).FAMILY
+
+
+def family_sections(study: dict[str, Any] | None) -> list[str]:
+    """Registered families present in ``study`` (all registered ones if None), in registry order."""
+    if study is None:
+        return list(REGISTRY)
+    return [name for name in REGISTRY if name in study]

@@ -1,0 +1,258 @@
+"""Plane-channel family: fully developed flow between parallel plates.
+
+Grid: problems x kinetic models x wall settings x delta (or Kn).
+
+Point identity (the file path below ``results/points/``)::
+
+    plane_channel/<problem>/model=<model>/wall=<wall label>/grid=<ns>-<nv>-<tol>/delta=<delta>.nc
+
+e.g. ``plane_channel/poiseuille/model=bgk/wall=maxwell-alpha=0.9/grid=ns40-nv16-tol1.0e-08/delta=1.0e+00.nc``.
+
+* **Gas is not part of the point.**  The linearised plane-channel problems are
+  solved in reduced variables; the solver sees delta, the kinetic model and the
+  walls only.  A study that lists Ar and He therefore solves each point once and
+  the tables convert the same reduced result to each gas's pressure and flow
+  (``solver.gas.pressure_from_delta``).  If a Kn axis is given, it is turned into
+  delta = sqrt(pi) / (2 Kn) before the point is named, so ``kn`` and ``delta``
+  studies share files.
+* **Resolution and tolerance are part of the point** (``grid=`` segment): two
+  studies at different resolution must not overwrite each other's files.
+  ``auto`` stands for "solver default".
+* The iteration limit and the acceleration switch are not: a converged answer
+  does not depend on them.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from knudsweep.config import axis_values
+from knudsweep.families import Family, Point
+from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
+
+PROBLEMS = ("poiseuille", "thermal_creep", "couette", "heat_transfer")
+MODELS = ("bgk", "s_model", "es_bgk")
+
+# Scalar results of each problem (names as returned by solver.plane_channel).
+COEFFICIENTS: dict[str, tuple[str, ...]] = {
+    "poiseuille": ("G_P", "Q_P"),
+    "thermal_creep": ("G_T", "Q_T"),
+    "couette": ("shear_stress",),
+    "heat_transfer": ("heat_flux",),
+}
+# The coefficient drawn and tabulated for each problem.
+MAIN_COEFFICIENT = {
+    "poiseuille": "G_P",
+    "thermal_creep": "G_T",
+    "couette": "shear_stress",
+    "heat_transfer": "heat_flux",
+}
+
+_WALL_KEYS = {"maxwell": ("alpha",), "cercignani_lampis": ("alpha_t", "alpha_n")}
+
+
+def _wall_params(spec: dict[str, Any], where: str) -> dict[str, Any]:
+    """Canonical ``{model, <its accommodation keys>}`` of one plate; checks keys and ranges."""
+    from solver.walls import make_wall
+
+    model = spec.get("model", "maxwell")
+    allowed = _WALL_KEYS[model]
+    for key in ("alpha", "alpha_t", "alpha_n"):
+        if key in spec and key not in allowed:
+            raise ValueError(
+                f"{where}.{key}: not a parameter of wall model {model!r}; "
+                f"its parameters are {', '.join(allowed)}"
+            )
+    params = {key: canonical(spec.get(key, 1.0)) for key in allowed}
+    try:
+        make_wall(model, **params)
+    except ValueError as exc:
+        raise ValueError(f"{where}.{exc}") from None
+    return {"model": model, **params}
+
+
+def wall_label(lower: dict[str, Any], upper: dict[str, Any] | None) -> str:
+    """Readable, path-safe label: ``maxwell-alpha=0.9`` or ``cercignani_lampis-alpha_t=1.0-alpha_n=0.5``."""
+
+    def one(w):
+        return "-".join([w["model"]] + [f"{k}={format_plain(w[k])}" for k in _WALL_KEYS[w["model"]]])
+
+    return one(lower) if upper is None else f"{one(lower)}_upper={one(upper)}"
+
+
+def make_wall_objects(values: dict[str, Any]):
+    """Solver wall objects (lower, upper-or-None) from a point's values."""
+    from solver.walls import make_wall
+
+    def build(w):
+        return None if w is None else make_wall(w["model"], **{k: w[k] for k in _WALL_KEYS[w["model"]]})
+
+    return build(values["lower_wall"]), build(values["upper_wall"])
+
+
+def wall_settings(section: dict[str, Any]) -> list[tuple[str, dict, dict | None]]:
+    """``[(label, lower, upper-or-None), ...]`` of the section's walls."""
+    out = []
+    for i, spec in enumerate(section["walls"]):
+        lower = _wall_params(spec, f"walls[{i}]")
+        upper = _wall_params(spec["upper"], f"walls[{i}].upper") if "upper" in spec else None
+        out.append((wall_label(lower, upper), lower, upper))
+    return out
+
+
+def delta_values(section: dict[str, Any]) -> list[float]:
+    """Canonical delta values of the section, ascending (Kn converted if given)."""
+    if "delta" in section:
+        raw = axis_values("delta", section["delta"])
+    else:
+        raw = [math.sqrt(math.pi) / (2.0 * kn) for kn in axis_values("kn", section["kn"])]
+    return sorted(canonical(d) for d in raw)
+
+
+def grid_label(section: dict[str, Any]) -> str:
+    res = section["resolution"]
+    ns = "auto" if res["n_space"] is None else str(res["n_space"])
+    nv = "auto" if res["n_velocity"] is None else str(res["n_velocity"])
+    return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
+
+
+class PlaneChannel(Family):
+    name = "plane_channel"
+
+    def check_section(self, section: dict[str, Any]) -> None:
+        has_delta, has_kn = "delta" in section, "kn" in section
+        if has_delta == has_kn:
+            raise ValueError("delta: give exactly one of 'delta' and 'kn' (both positive axes)")
+        labels = [label for label, _, _ in wall_settings(section)]
+        for i, label in enumerate(labels):
+            if label in labels[:i]:
+                raise ValueError(f"walls[{i}]: repeats walls[{labels.index(label)}] ({label})")
+        axis = "delta" if has_delta else "kn"
+        deltas = delta_values(section)
+        if len(set(deltas)) != len(deltas):
+            raise ValueError(f"{axis}: values repeat after rounding to 6 significant digits")
+
+    def points(self, section: dict[str, Any]) -> list[Point]:
+        res = section["resolution"]
+        grid = grid_label(section)
+        out = []
+        for problem in section["problems"]:
+            for model in section["models"]:
+                for label, lower, upper in wall_settings(section):
+                    for delta in delta_values(section):
+                        pid = point_id(
+                            self.name,
+                            [
+                                segment("", problem),
+                                segment("model", model),
+                                segment("wall", label),
+                                segment("grid", grid),
+                                segment("delta", format_exp(delta)),
+                            ],
+                        )
+                        values = {
+                            "problem": problem,
+                            "model": model,
+                            "delta": delta,
+                            "wall": label,
+                            "lower_wall": lower,
+                            "upper_wall": upper,
+                            "n_space": res["n_space"],
+                            "n_velocity": res["n_velocity"],
+                            "tol": canonical(res["tol"]),
+                        }
+                        index = {"problem": problem, "model": model, "wall": label, "delta": delta}
+                        out.append(Point(self.name, pid, values, index))
+        return out
+
+    def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
+        from solver.plane_channel import solve_plane_channel
+
+        lower, upper = make_wall_objects(values)
+        return solve_plane_channel(
+            values["problem"],
+            delta=values["delta"],
+            model=values["model"],
+            lower_wall=lower,
+            upper_wall=upper,
+            n_space=values["n_space"],
+            n_velocity=values["n_velocity"],
+            max_iter=max_iter,
+            tol=values["tol"],
+            accelerate=bool(section.get("iteration", {}).get("accelerate", True)),
+        )
+
+    def warm_up(self) -> None:
+        from solver.plane_channel import solve_plane_channel
+        from solver.walls import MaxwellWall
+
+        # Tiny problems that go through every kernel once, so numba writes its cache.
+        for problem in PROBLEMS:
+            for model in MODELS:
+                solve_plane_channel(
+                    problem, delta=1.0, model=model, lower_wall=MaxwellWall(0.9),
+                    n_space=8, n_velocity=8, max_iter=5, tol=1e-3,
+                )
+
+    def gather_dims(self, section: dict[str, Any]) -> dict[str, list]:
+        return {
+            "problem": list(section["problems"]),
+            "model": list(section["models"]),
+            "wall": [label for label, _, _ in wall_settings(section)],
+            "delta": delta_values(section),
+        }
+
+    def dim_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
+        walls = wall_settings(section)
+        deltas = delta_values(section)
+
+        def acc(w, key):
+            return float(w[key]) if w is not None and key in w else float("nan")
+
+        return {
+            "problem": {"attrs": {"long_name": "driving problem"}},
+            "model": {"attrs": {"long_name": "kinetic model equation"}},
+            "wall": {
+                "attrs": {"long_name": "gas-surface interaction setting"},
+                "extra": {
+                    "wall_model": ([w[1]["model"] for w in walls], {"long_name": "wall model (lower plate)"}),
+                    "alpha": ([acc(w[1], "alpha") for w in walls], {"units": "1", "long_name": "Maxwell accommodation coefficient (lower plate)"}),
+                    "alpha_t": ([acc(w[1], "alpha_t") for w in walls], {"units": "1", "long_name": "Cercignani-Lampis tangential-momentum accommodation (lower plate)"}),
+                    "alpha_n": ([acc(w[1], "alpha_n") for w in walls], {"units": "1", "long_name": "Cercignani-Lampis normal-energy accommodation (lower plate)"}),
+                    "symmetric_walls": ([int(w[2] is None) for w in walls], {"units": "1", "long_name": "1 if both plates have the same wall setting"}),
+                },
+            },
+            "delta": {
+                "attrs": {"units": "1", "long_name": "rarefaction parameter delta = p a / (mu v0), a = plate gap"},
+                "extra": {
+                    "kn": (
+                        [canonical(math.sqrt(math.pi) / (2.0 * d)) for d in deltas],
+                        {"units": "1", "long_name": "Knudsen number sqrt(pi) / (2 delta)"},
+                    )
+                },
+            },
+        }
+
+    def table_names(self, section: dict[str, Any]) -> list[str]:
+        from knudsweep.families import plane_channel_report as report
+
+        return report.table_names(section)
+
+    def tables(self, ds, section: dict[str, Any]):
+        from knudsweep.families import plane_channel_report as report
+
+        return report.build_tables(ds, section)
+
+    def figure_names(self, section: dict[str, Any]) -> list[str]:
+        from knudsweep.families import plane_channel_report as report
+
+        return report.figure_names(section)
+
+    def figures(self, ds, section: dict[str, Any], settings: dict[str, Any]):
+        from knudsweep.families import plane_channel_report as report
+
+        return report.build_figures(ds, section, settings)
+
+
+FAMILY = PlaneChannel()

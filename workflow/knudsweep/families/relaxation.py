@@ -1,0 +1,348 @@
+"""Relaxation family: a space-homogeneous gas relaxing to equilibrium.
+
+Grid: gases x pressures x temperatures x initial states x molecular models x
+solvers, where a *solver* is a method with its resolution: ``dsmc-N20000``
+(particle method, one per particle number) or ``bgk-nv32`` (model equation
+on a 32^3 velocity grid).  Putting method and particle number on one axis
+keeps the grid dense: a deterministic method has no particle number.
+
+Point identity (below ``results/points/``)::
+
+    relaxation/<state label>/gas=<gas>/model=<molecular model>/solver=<solver label>/
+        run=<t_end>-<outputs>-<H cells>-<replicas>-<seed>/p=<Pa>/T=<K>.nc
+
+e.g. ``relaxation/anisotropic-1.8-0.6-0.6/gas=Ar/model=vhs/solver=dsmc-N20000/
+run=t1.0e+01-o41-k8-R8-s1/p=1.0e+02/T=300.0.nc``.  Every setting that changes
+the numbers is in the path (state options, run settings, seed); p and T only
+scale the time axis to seconds but are part of the point as the study asks
+for them.
+
+Tables: ``relaxation_times`` (CSV + Markdown, units in the headers): the fitted
+anisotropy, heat-flux and fourth-moment relaxation times with their standard
+uncertainty, in mean collision times and in seconds, per gas and point.
+
+Figures (per initial state, at the first pressure and temperature; reduced
+time does not depend on p and T): ``relaxation_h_<state>`` H(t) with the
+replica noise band of the particle runs against the deterministic curves, and
+``relaxation_anisotropy_<state>`` |anisotropy| on a log axis with the fitted
+exp(-t/tau).  Time series come from the gathered sweep when it holds them
+(variables with a ``time`` dimension), otherwise from the point files.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from typing import Any
+
+import numpy as np
+
+from knudsweep.families import Family, Point, Table
+from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
+
+METHODS = ("dsmc", "bgk", "s_model", "es_bgk")
+STATES = ("equilibrium", "anisotropic", "two_beams", "bkw")
+MODELS = ("vhs", "vss", "hard_sphere", "maxwell")
+FIT_NAMES = ("anisotropy", "heat_flux", "fourth_moment")
+STATE_DEFAULTS = {"axis_temperature_ratios": [1.8, 0.6, 0.6], "beam_separation": 3.0,
+                  "beam_fraction": 0.5, "bkw_start_time": 6.0 * math.log(2.5)}
+RUN_DEFAULTS = {"n_replicas": 8, "t_end": 10.0, "n_output": 41, "seed": 1, "h_bins_per_axis": 8,
+                "n_velocity": 32}
+
+
+def _options(section: dict[str, Any]) -> tuple[dict[str, Any], dict[str, Any]]:
+    state = {**STATE_DEFAULTS, **section.get("state_options", {})}
+    run = {**RUN_DEFAULTS, **section.get("run", {})}
+    return state, run
+
+
+def state_label(name: str, opts: dict[str, Any]) -> str:
+    """Path-safe label of an initial state with its options."""
+    if name == "anisotropic":
+        r = np.asarray(opts["axis_temperature_ratios"], dtype=float)
+        r = r / r.mean()
+        return "anisotropic-" + "-".join(format_plain(x) for x in r)
+    if name == "two_beams":
+        return f"two_beams-s{format_plain(opts['beam_separation'])}-w{format_plain(opts['beam_fraction'])}"
+    if name == "bkw":
+        return f"bkw-t{format_plain(opts['bkw_start_time'])}"
+    return name
+
+
+def solver_labels(section: dict[str, Any]) -> list[str]:
+    """``dsmc-N<particles>`` per particle number, ``<method>-nv<grid>`` per model equation."""
+    _, run = _options(section)
+    out = []
+    for method in section["methods"]:
+        if method == "dsmc":
+            out += [f"dsmc-N{int(n)}" for n in section["n_particles"]]
+        else:
+            out.append(f"{method}-nv{int(run['n_velocity'])}")
+    return out
+
+
+def _parse_solver(label: str) -> tuple[str, int | None]:
+    method, res = label.rsplit("-", 1)
+    return method, (int(res[1:]) if method == "dsmc" else int(res[2:]))
+
+
+def _run_label(run: dict[str, Any]) -> str:
+    return (f"t{format_exp(run['t_end'])}-o{int(run['n_output'])}-k{int(run['h_bins_per_axis'])}"
+            f"-R{int(run['n_replicas'])}-s{int(run['seed'])}")
+
+
+class Relaxation(Family):
+    name = "relaxation"
+
+    def check_section(self, section: dict[str, Any]) -> None:
+        from solver.relaxation.initial_states import make_initial_state
+
+        state, run = _options(section)
+        for key, allowed in (("methods", METHODS), ("initial_states", STATES), ("molecular_models", MODELS)):
+            for v in section[key]:
+                if v not in allowed:
+                    raise ValueError(f"{key}: {v!r} not allowed; allowed are {', '.join(allowed)}")
+        for name in section["initial_states"]:
+            make_initial_state(name, tuple(state["axis_temperature_ratios"]), state["beam_separation"],
+                               state["beam_fraction"], state["bkw_start_time"])
+        if "dsmc" in section["methods"]:
+            k3 = int(run["h_bins_per_axis"]) ** 3
+            for n in section["n_particles"]:
+                if int(n) < 5 * k3:
+                    raise ValueError(f"n_particles: {n} is below 5 per H cell ({5 * k3} for "
+                                     f"h_bins_per_axis={run['h_bins_per_axis']})")
+        for key in ("pressures", "temperatures"):
+            vals = [canonical(v) for v in section[key]]
+            if len(set(vals)) != len(vals):
+                raise ValueError(f"{key}: values repeat after rounding to 6 significant digits")
+
+    def points(self, section: dict[str, Any]) -> list[Point]:
+        state, run = _options(section)
+        out = []
+        for st in section["initial_states"]:
+            slabel = state_label(st, state)
+            for gas in section["gases"]:
+                for model in section["molecular_models"]:
+                    for solver in solver_labels(section):
+                        method, res = _parse_solver(solver)
+                        for p in section["pressures"]:
+                            for t in section["temperatures"]:
+                                p, t = canonical(p), canonical(t)
+                                pid = point_id(self.name, [
+                                    segment("", slabel), segment("gas", gas), segment("model", model),
+                                    segment("solver", solver), segment("run", _run_label(run)),
+                                    segment("p", format_exp(p)), segment("T", format_plain(t)),
+                                ])
+                                values = {
+                                    "method": method, "gas": gas, "pressure": p, "temperature": t,
+                                    "initial_state": st, "molecular_model": model,
+                                    "n_particles": res if method == "dsmc" else None,
+                                    "n_velocity": res if method != "dsmc" else None,
+                                    "n_replicas": int(run["n_replicas"]), "t_end": canonical(run["t_end"]),
+                                    "n_output": int(run["n_output"]), "seed": int(run["seed"]),
+                                    "h_bins_per_axis": int(run["h_bins_per_axis"]),
+                                    "axis_temperature_ratios": [canonical(x) for x in state["axis_temperature_ratios"]],
+                                    "beam_separation": canonical(state["beam_separation"]),
+                                    "beam_fraction": canonical(state["beam_fraction"]),
+                                    "bkw_start_time": canonical(state["bkw_start_time"]),
+                                }
+                                index = {"gas": gas, "pressure": p, "temperature": t, "initial_state": st,
+                                         "molecular_model": model, "solver": solver}
+                                out.append(Point(self.name, pid, values, index))
+        return out
+
+    def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
+        from solver.relaxation import solve_relaxation
+
+        kw = dict(
+            method=values["method"], gas=values["gas"], pressure=values["pressure"],
+            temperature=values["temperature"], initial_state=values["initial_state"],
+            molecular_model=values["molecular_model"], t_end=values["t_end"], n_output=values["n_output"],
+            seed=values["seed"], h_bins_per_axis=values["h_bins_per_axis"],
+            axis_temperature_ratios=tuple(values["axis_temperature_ratios"]),
+            beam_separation=values["beam_separation"], beam_fraction=values["beam_fraction"],
+            bkw_start_time=max(values["bkw_start_time"], 6.0 * math.log(2.5)),
+        )
+        if values["method"] == "dsmc":
+            kw.update(n_particles=values["n_particles"], n_replicas=values["n_replicas"])
+        else:
+            kw.update(n_velocity=values["n_velocity"])
+        return solve_relaxation(**kw)
+
+    def warm_up(self) -> None:
+        from solver.relaxation import solve_relaxation
+
+        for model in ("maxwell", "vss"):
+            solve_relaxation(method="dsmc", initial_state="two_beams", molecular_model=model, n_particles=200,
+                             n_replicas=2, t_end=0.2, n_output=2, h_bins_per_axis=2)
+        for method in ("bgk", "s_model", "es_bgk"):
+            solve_relaxation(method=method, initial_state="two_beams", beam_fraction=0.3, n_velocity=8,
+                             velocity_half_width=7.0, t_end=0.02, n_output=2)
+
+    def gather_dims(self, section: dict[str, Any]) -> dict[str, list]:
+        return {
+            "gas": list(section["gases"]),
+            "pressure": [canonical(p) for p in section["pressures"]],
+            "temperature": [canonical(t) for t in section["temperatures"]],
+            "initial_state": list(section["initial_states"]),
+            "molecular_model": list(section["molecular_models"]),
+            "solver": solver_labels(section),
+        }
+
+    def dim_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
+        labels = solver_labels(section)
+        parsed = [_parse_solver(s) for s in labels]
+        return {
+            "gas": {"attrs": {"long_name": "gas (config/gases.yaml)"}},
+            "pressure": {"attrs": {"units": "Pa", "long_name": "pressure"}},
+            "temperature": {"attrs": {"units": "K", "long_name": "equilibrium temperature"}},
+            "initial_state": {"attrs": {"long_name": "initial velocity distribution"}},
+            "molecular_model": {"attrs": {"long_name": "molecular model (sets p/mu in mean collision times)"}},
+            "solver": {
+                "attrs": {"long_name": "method and resolution"},
+                "extra": {
+                    "method": ([m for m, _ in parsed], {"long_name": "dsmc, bgk, s_model or es_bgk"}),
+                    "n_particles": ([float(r) if m == "dsmc" else float("nan") for m, r in parsed],
+                                    {"units": "1", "long_name": "particles per replica (particle method)"}),
+                },
+            },
+        }
+
+    def table_names(self, section: dict[str, Any]) -> list[str]:
+        return ["relaxation_times"]
+
+    def tables(self, ds, section: dict[str, Any]) -> dict[str, Table]:
+        import pandas as pd
+
+        rows = []
+        dims = self.gather_dims(section)
+        for gas in dims["gas"]:
+            for p in dims["pressure"]:
+                for t in dims["temperature"]:
+                    for st in dims["initial_state"]:
+                        for model in dims["molecular_model"]:
+                            for solver in dims["solver"]:
+                                sel = ds.sel(gas=gas, pressure=p, temperature=t, initial_state=st,
+                                             molecular_model=model, solver=solver)
+
+                                def val(name):
+                                    return float(sel[name].values) if name in sel else float("nan")
+
+                                row = {"gas": gas, "pressure [Pa]": p, "temperature [K]": t,
+                                       "initial state": st, "molecular model": model, "solver": solver,
+                                       "mean collision time [s]": val("mean_collision_time_s")}
+                                for f in FIT_NAMES:
+                                    lab = f.replace("_", " ")
+                                    row[f"{lab} time [tau_c]"] = val(f"{f}_relaxation_time")
+                                    row[f"{lab} time uncertainty [tau_c]"] = val(f"{f}_relaxation_time_uncertainty")
+                                    row[f"{lab} time [s]"] = val(f"{f}_relaxation_time_s")
+                                    row[f"{lab} time uncertainty [s]"] = val(f"{f}_relaxation_time_s_uncertainty")
+                                row["status"] = str(sel["status"].values) if "status" in sel else "missing"
+                                rows.append(row)
+        notes = [
+            "tau_c = mean collision time of the molecular model at (p, T): lambda / c_mean with Bird's "
+            "viscosity-based free path, tau_c = f mu(T)/p, f = (7-2w)(5-2w)/30 [x 6a/((a+1)(a+2)) for VSS].",
+            "Relaxation times: exponential fits y = a exp(-t/tau) to the anisotropy of the temperature tensor, "
+            "the heat flux and <c^4> - 15; uncertainty: jackknife over replicas (particles) or slope "
+            "standard error (model equations).  Empty: no such initial non-equilibrium, or the point failed.",
+            "Exact for Maxwell molecules (Truesdell & Muncaster 1980): anisotropy time 2 tau_c (= mu/p), "
+            "fourth-moment and heat-flux time 3 tau_c (= 1.5 mu/p).",
+        ]
+        return {"relaxation_times": Table(pd.DataFrame(rows), "Relaxation times", notes)}
+
+    def figure_names(self, section: dict[str, Any]) -> list[str]:
+        out = []
+        for st in section["initial_states"]:
+            out.append(f"relaxation_h_{st}")
+            if st in ("anisotropic", "two_beams"):
+                out.append(f"relaxation_anisotropy_{st}")
+        return out
+
+    def figures(self, ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+        from knudsweep.figures import new_figure
+
+        series = self._series(ds, section)
+        figs = {}
+        for st in section["initial_states"]:
+            fig, ax = new_figure(settings)
+            curves = series.get(st, [])
+            for c in curves:
+                if c["method"] == "dsmc":
+                    line = ax.plot(c["time"], c["h"], lw=1.2, label=c["label"])[0]
+                    ax.fill_between(c["time"], c["h"] - c["h_std"], c["h"] + c["h_std"],
+                                    color=line.get_color(), alpha=0.25, lw=0)
+                else:
+                    ax.plot(c["time"], c["h"], lw=1.5, ls="--", label=c["label"])
+            ax.set_xlabel("time [mean collision times]")
+            ax.set_ylabel("relative H-function (binned) [1]")
+            ax.set_title(f"H-function, initial state {st}")
+            _finish(ax, curves)
+            figs[f"relaxation_h_{st}"] = fig
+            if st in ("anisotropic", "two_beams"):
+                fig, ax = new_figure(settings)
+                for c in curves:
+                    a = np.abs(c["aniso"])
+                    line = ax.semilogy(c["time"], np.where(a > 0, a, np.nan), lw=1.2, label=c["label"])[0]
+                    if c["method"] == "dsmc":
+                        lo = np.clip(c["aniso"] - c["aniso_std"], 1e-12, None)
+                        ax.fill_between(c["time"], lo, c["aniso"] + c["aniso_std"], color=line.get_color(),
+                                        alpha=0.2, lw=0)
+                    tau = c["tau"]
+                    if np.isfinite(tau) and tau > 0:
+                        ax.semilogy(c["time"], abs(c["aniso"][0]) * np.exp(-c["time"] / tau), ls=":",
+                                    color=line.get_color(), lw=1.0, label=f"fit tau = {tau:.3g} tau_c")
+                ax.set_xlabel("time [mean collision times]")
+                ax.set_ylabel("|anisotropy of T_ij| / T [1]")
+                ax.set_title(f"Anisotropy decay, initial state {st}")
+                _finish(ax, curves)
+                figs[f"relaxation_anisotropy_{st}"] = fig
+        return figs
+
+    def _series(self, ds, section: dict[str, Any]) -> dict[str, list[dict]]:
+        """Time series at the first pressure and temperature, per initial state."""
+        from solver.netcdf_io import read_result
+
+        p0, t0 = canonical(section["pressures"][0]), canonical(section["temperatures"][0])
+        from_sweep = "h_function" in ds and "time" in ds["h_function"].dims
+        out: dict[str, list[dict]] = {}
+        for pt in self.points(section):
+            if pt.values["pressure"] != p0 or pt.values["temperature"] != t0:
+                continue
+            ix = pt.index
+            label = f"{ix['gas']} {ix['molecular_model']} {ix['solver']}"
+            if from_sweep:
+                sel = ds.sel(gas=ix["gas"], pressure=p0, temperature=t0, initial_state=ix["initial_state"],
+                             molecular_model=ix["molecular_model"], solver=ix["solver"])
+                if str(sel["status"].values) != "converged":
+                    continue
+                get = {k: np.asarray(sel[k].values, dtype=float) for k in
+                       ("h_function", "h_function_std", "anisotropy", "anisotropy_std")}
+                get["time"] = np.asarray(ds["time"].values, dtype=float)
+                tau = float(sel["anisotropy_relaxation_time"].values)
+            else:
+                path = f"results/points/{pt.pid}.nc"
+                if not os.path.exists(path):
+                    continue
+                res = read_result(path)
+                if res.status != "converged":
+                    continue
+                get = {k: res.profiles[k].value for k in ("h_function", "h_function_std", "anisotropy",
+                                                          "anisotropy_std")}
+                get["time"] = res.coords["time"].value
+                tau = res.coefficient("anisotropy_relaxation_time")
+            out.setdefault(ix["initial_state"], []).append({
+                "method": pt.values["method"], "label": label, "time": get["time"], "h": get["h_function"],
+                "h_std": get["h_function_std"], "aniso": get["anisotropy"], "aniso_std": get["anisotropy_std"],
+                "tau": tau,
+            })
+        return out
+
+
+def _finish(ax, curves) -> None:
+    if curves:
+        ax.legend()
+    else:
+        ax.text(0.5, 0.5, "no data", transform=ax.transAxes, ha="center", va="center")
+
+
+FAMILY = Relaxation()

@@ -1,0 +1,595 @@
+"""Tube and rectangular-duct family: fully developed flow through long channels.
+
+Grid: geometries x problems x kinetic models x wall settings x delta (or Kn).
+A geometry is the circular tube or a rectangular duct of one aspect ratio
+(width / height >= 1).
+
+Point identity (the file path below ``results/points/``)::
+
+    tube_duct/<geometry>/<problem>/model=<model>/wall=<wall label>/grid=<ns>-<nv>-<tol>/delta=<delta>.nc
+
+e.g. ``tube_duct/duct-A=4.0/thermal_creep/model=bgk/wall=maxwell-alpha=0.9/grid=nsauto-nvauto-tol1.0e-07/delta=1.0e+01.nc``.
+
+* The length in delta is the tube *radius* or the duct *height* (the smaller
+  side): delta = p a / (mu v0).  A Kn axis is turned into delta = sqrt(pi)/(2 Kn)
+  before the point is named, so ``kn`` and ``delta`` studies share files.
+* Gas, temperature and channel size are not part of a point (the solvers work
+  in reduced variables); they only convert results to SI units in the tables
+  and figures.
+* Resolution and tolerance are part of the point; iteration limits are not.
+
+Tables and figures are built from the gathered sweep by :func:`build_tables`
+and :func:`build_figures` below; physical conversions use ``solver.conductance``
+and ``solver.gas``; the reference curves come from ``solver.duct``
+(continuum series, first-order slip, free-molecular quadrature) and
+check-values.md sections 0.3 and 2.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from knudsweep.config import axis_values
+from knudsweep.families import Family, Point, Table
+from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
+
+PROBLEMS = ("poiseuille", "thermal_creep")
+MODELS = ("bgk", "s_model", "es_bgk")
+MAIN_COEFFICIENT = {"poiseuille": "G_P", "thermal_creep": "G_T"}
+_WALL_KEYS = {"maxwell": ("alpha",), "cercignani_lampis": ("alpha_t", "alpha_n")}
+
+SQRT_PI = math.sqrt(math.pi)
+G_FM_TUBE = 8.0 / (3.0 * SQRT_PI)  # Knudsen 1909; check-values 0.3 [derived]
+SIGMA_P_DIFFUSE = 1.0162  # BGK viscous slip, diffuse walls (check-values 2, from memory, unconfirmed)
+SIGMA_T_DIFFUSE_BGK = 0.7663  # BGK thermal slip, diffuse walls (check-values 2, from memory, unconfirmed)
+
+
+# ---------------------------------------------------------------- section helpers
+def geometry_settings(section: dict[str, Any]) -> list[tuple[str, str, float]]:
+    """``[(label, shape, aspect_ratio), ...]``: ``("tube", "tube", 1.0)``, ``("duct-A=4.0", "duct", 4.0)``."""
+    out = []
+    for spec in section["geometries"]:
+        if spec["shape"] == "tube":
+            if spec.get("aspect_ratio", 1.0) != 1.0:  # the schema fills the default 1.0
+                raise ValueError("geometries.aspect_ratio: only for shape 'duct' (a tube has none; leave it out or 1)")
+            out.append(("tube", "tube", 1.0))
+        else:
+            a = canonical(spec.get("aspect_ratio", 1.0))
+            out.append((f"duct-A={format_plain(a)}", "duct", a))
+    return out
+
+
+def _wall_params(spec: dict[str, Any], where: str) -> dict[str, Any]:
+    from solver.walls import make_wall
+
+    model = spec.get("model", "maxwell")
+    allowed = _WALL_KEYS[model]
+    for key in ("alpha", "alpha_t", "alpha_n"):
+        if key in spec and key not in allowed:
+            raise ValueError(f"{where}.{key}: not a parameter of wall model {model!r}; its parameters are {', '.join(allowed)}")
+    params = {key: canonical(spec.get(key, 1.0)) for key in allowed}
+    try:
+        make_wall(model, **params)
+    except ValueError as exc:
+        raise ValueError(f"{where}.{exc}") from None
+    return {"model": model, **params}
+
+
+def wall_label(w: dict[str, Any]) -> str:
+    """``maxwell-alpha=0.9`` or ``cercignani_lampis-alpha_t=0.8-alpha_n=0.5``."""
+    return "-".join([w["model"]] + [f"{k}={format_plain(w[k])}" for k in _WALL_KEYS[w["model"]]])
+
+
+def wall_settings(section: dict[str, Any]) -> list[tuple[str, dict]]:
+    out = []
+    for i, spec in enumerate(section["walls"]):
+        w = _wall_params(spec, f"walls[{i}]")
+        out.append((wall_label(w), w))
+    return out
+
+
+def make_wall_object(w: dict[str, Any]):
+    from solver.walls import make_wall
+
+    return make_wall(w["model"], **{k: w[k] for k in _WALL_KEYS[w["model"]]})
+
+
+def delta_values(section: dict[str, Any]) -> list[float]:
+    """Canonical delta values, ascending (Kn converted if given)."""
+    if "delta" in section:
+        raw = axis_values("delta", section["delta"])
+    else:
+        raw = [SQRT_PI / (2.0 * kn) for kn in axis_values("kn", section["kn"])]
+    return sorted(canonical(d) for d in raw)
+
+
+def grid_label(section: dict[str, Any]) -> str:
+    res = section["resolution"]
+    ns = "auto" if res["n_space"] is None else str(res["n_space"])
+    nv = "auto" if res["n_velocity"] is None else str(res["n_velocity"])
+    return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
+
+
+def _tangential_alpha(w: dict[str, Any]) -> float:
+    return w["alpha"] if w["model"] == "maxwell" else w["alpha_t"]
+
+
+def _is_diffuse(w: dict[str, Any]) -> bool:
+    return _tangential_alpha(w) == 1.0
+
+
+# ---------------------------------------------------------------- reference values (reduced)
+def free_molecular_gp(shape: str, aspect: float) -> float:
+    """Diffuse-wall free-molecular G_P: Knudsen's 8/(3 sqrt(pi)) (tube) or the duct quadrature."""
+    if shape == "tube":
+        return G_FM_TUBE
+    from solver.duct import free_molecular_flow_rate
+
+    return free_molecular_flow_rate(aspect)
+
+
+def continuum_gp(shape: str, aspect: float, delta) -> np.ndarray:
+    """No-slip G_P: delta/4 (Hagen-Poiseuille) or the rectangular-duct series (White 2006 eq. 3-48)."""
+    from solver.duct import continuum_flow_rate
+
+    d = np.asarray(delta, float)
+    if shape == "tube":
+        return d / 4.0
+    return d * continuum_flow_rate(1.0, aspect)
+
+
+def slip_gp(shape: str, aspect: float, delta, sigma_p: float) -> np.ndarray:
+    """First-order slip G_P: delta/4 + sigma_P (tube, check-values 0.3); duct: solver.duct.slip_flow_rate."""
+    d = np.asarray(delta, float)
+    if shape == "tube":
+        return d / 4.0 + sigma_p
+    from solver.duct import slip_flow_rate
+
+    return continuum_gp(shape, aspect, d) + (slip_flow_rate(0.0, aspect, sigma_p))
+
+
+def slip_sigma(w: dict[str, Any]) -> float:
+    """sigma_P of the diffuse wall times Maxwell's (2 - alpha)/alpha (approximate; alpha_t for CL walls,
+    common practice, no source)."""
+    a = min(_tangential_alpha(w), 1.0)
+    return SIGMA_P_DIFFUSE * (2.0 - a) / a
+
+
+def flow_table(ds, geometry: str, shape: str, aspect: float, model: str, wall: str):
+    """A :class:`solver.conductance.FlowRateTable` from the gathered G_P, G_T (None if too few points).
+
+    Uses the delta values where both problems converged.  At delta = 0, G_P is
+    taken equal to its value at the smallest delta (the free-molecular plateau
+    of the tube and of ducts of moderate aspect ratio; common practice, no
+    source) and G_T = G_P / 2 (free-molecular flux proportional to p/sqrt(T)
+    for any wall law at the wall temperature; check-values 0.3); below the
+    smallest delta solver.conductance blends linearly.
+    """
+    from solver.conductance import FlowRateTable
+    from solver.duct import continuum_flow_rate
+
+    if "G_P" not in ds or "G_T" not in ds:
+        return None
+    sel = dict(geometry=geometry, model=model, wall=wall)
+    d = ds["delta"].values.astype(float)
+    gp = ds["G_P"].sel(problem="poiseuille", **sel).values.astype(float)
+    gt = ds["G_T"].sel(problem="thermal_creep", **sel).values.astype(float)
+    ok = np.isfinite(gp) & np.isfinite(gt) & (d > 0) & (gp > 0) & (gt > 0)
+    if ok.sum() < 2:
+        return None
+    slope = 0.25 if shape == "tube" else continuum_flow_rate(1.0, aspect)
+    return FlowRateTable(shape, d[ok], gp[ok], gt[ok], float(gp[ok][0]), 0.5 * float(gp[ok][0]), slope, aspect)
+
+
+# ---------------------------------------------------------------- the family
+class TubeDuct(Family):
+    name = "tube_duct"
+
+    def check_section(self, section: dict[str, Any]) -> None:
+        from solver.duct import MAX_DELTA as DUCT_MAX
+        from solver.tube import MAX_DELTA as TUBE_MAX
+
+        has_delta, has_kn = "delta" in section, "kn" in section
+        if has_delta == has_kn:
+            raise ValueError("delta: give exactly one of 'delta' and 'kn' (both positive axes)")
+        geos = [label for label, _, _ in geometry_settings(section)]
+        for i, label in enumerate(geos):
+            if label in geos[:i]:
+                raise ValueError(f"geometries[{i}]: repeats geometries[{geos.index(label)}] ({label})")
+        labels = [label for label, _ in wall_settings(section)]
+        for i, label in enumerate(labels):
+            if label in labels[:i]:
+                raise ValueError(f"walls[{i}]: repeats walls[{labels.index(label)}] ({label})")
+        axis = "delta" if has_delta else "kn"
+        deltas = delta_values(section)
+        if len(set(deltas)) != len(deltas):
+            raise ValueError(f"{axis}: values repeat after rounding to 6 significant digits")
+        top = min(TUBE_MAX, DUCT_MAX)
+        if deltas[-1] > top:
+            raise ValueError(
+                f"{axis}: delta must be in (0, {top:g}] for the tube and duct solvers "
+                f"(Kn >= {SQRT_PI / (2 * top):.3g}); got delta = {deltas[-1]:g}"
+            )
+        if "conditions" in section:
+            c = section["conditions"]
+            for key in ("pressure_ratios",):
+                if any(r <= 1.0 for r in c.get(key, [])):
+                    raise ValueError(f"conditions.{key}: every ratio p_in/p_out must be > 1")
+            th = c.get("thermal", {})
+            if th and th.get("t_hot", 2.0) <= th.get("t_cold", 1.0):
+                raise ValueError("conditions.thermal.t_hot: must be > t_cold")
+
+    def points(self, section: dict[str, Any]) -> list[Point]:
+        res = section["resolution"]
+        grid = grid_label(section)
+        out = []
+        for glabel, shape, aspect in geometry_settings(section):
+            for problem in section["problems"]:
+                for model in section["models"]:
+                    for wlabel, w in wall_settings(section):
+                        for delta in delta_values(section):
+                            pid = point_id(self.name, [
+                                segment("", glabel), segment("", problem), segment("model", model),
+                                segment("wall", wlabel), segment("grid", grid), segment("delta", format_exp(delta)),
+                            ])
+                            values = {
+                                "geometry": glabel, "shape": shape, "aspect_ratio": aspect,
+                                "problem": problem, "model": model, "delta": delta,
+                                "wall": wlabel, "wall_params": w,
+                                "n_space": res["n_space"], "n_velocity": res["n_velocity"],
+                                "tol": canonical(res["tol"]),
+                            }
+                            index = {"geometry": glabel, "problem": problem, "model": model, "wall": wlabel, "delta": delta}
+                            out.append(Point(self.name, pid, values, index))
+        return out
+
+    def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
+        kw = dict(
+            delta=values["delta"], model=values["model"], wall=make_wall_object(values["wall_params"]),
+            n_space=values["n_space"], n_velocity=values["n_velocity"], max_iter=max_iter, tol=values["tol"],
+            accelerate=bool(section.get("iteration", {}).get("accelerate", True)),
+        )
+        if values["shape"] == "tube":
+            from solver.tube import solve_tube
+
+            return solve_tube(values["problem"], **kw)
+        from solver.duct import solve_duct
+
+        return solve_duct(values["problem"], aspect_ratio=values["aspect_ratio"], **kw)
+
+    def warm_up(self) -> None:
+        from solver.duct import solve_duct
+        from solver.tube import solve_tube
+        from solver.walls import CercignaniLampisWall, MaxwellWall
+
+        for wall in (MaxwellWall(0.9), CercignaniLampisWall(0.8, 0.5)):
+            for problem in PROBLEMS:
+                solve_tube(problem, delta=1.0, wall=wall, n_space=6, n_velocity=4, max_iter=3, tol=1e-3)
+                solve_duct(problem, delta=1.0, aspect_ratio=1.5, wall=wall, n_space=6, n_velocity=4, max_iter=3, tol=1e-3)
+
+    def gather_dims(self, section: dict[str, Any]) -> dict[str, list]:
+        return {
+            "geometry": [g for g, _, _ in geometry_settings(section)],
+            "problem": list(section["problems"]),
+            "model": list(section["models"]),
+            "wall": [w for w, _ in wall_settings(section)],
+            "delta": delta_values(section),
+        }
+
+    def dim_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
+        geos = geometry_settings(section)
+        walls = wall_settings(section)
+        deltas = delta_values(section)
+
+        def acc(w, key):
+            return float(w[key]) if key in w else float("nan")
+
+        return {
+            "geometry": {
+                "attrs": {"long_name": "channel cross-section"},
+                "extra": {
+                    "shape": ([s for _, s, _ in geos], {"long_name": "tube or rectangular duct"}),
+                    "aspect_ratio": ([a for _, _, a in geos], {"units": "1", "long_name": "duct width / height (1 for the tube)"}),
+                },
+            },
+            "problem": {"attrs": {"long_name": "driving problem"}},
+            "model": {"attrs": {"long_name": "kinetic model equation"}},
+            "wall": {
+                "attrs": {"long_name": "gas-surface interaction setting"},
+                "extra": {
+                    "wall_model": ([w["model"] for _, w in walls], {"long_name": "wall model"}),
+                    "alpha": ([acc(w, "alpha") for _, w in walls], {"units": "1", "long_name": "Maxwell accommodation coefficient"}),
+                    "alpha_t": ([acc(w, "alpha_t") for _, w in walls], {"units": "1", "long_name": "Cercignani-Lampis tangential-momentum accommodation"}),
+                    "alpha_n": ([acc(w, "alpha_n") for _, w in walls], {"units": "1", "long_name": "Cercignani-Lampis normal-energy accommodation"}),
+                },
+            },
+            "delta": {
+                "attrs": {"units": "1", "long_name": "rarefaction parameter delta = p a / (mu v0), a = tube radius or duct height"},
+                "extra": {"kn": ([canonical(SQRT_PI / (2.0 * d)) for d in deltas], {"units": "1", "long_name": "Knudsen number sqrt(pi) / (2 delta)"})},
+            },
+        }
+
+    # ------------------------------------------------------------ tables
+    def table_names(self, section: dict[str, Any]) -> list[str]:
+        names = []
+        if "poiseuille" in section["problems"]:
+            names.append("tube_duct_conductance")
+        if "thermal_creep" in section["problems"]:
+            names.append("tube_duct_thermal_creep")
+        return names
+
+    def tables(self, ds, section: dict[str, Any]) -> dict[str, Table]:
+        return build_tables(ds, section)
+
+    # ------------------------------------------------------------ figures
+    def figure_names(self, section: dict[str, Any]) -> list[str]:
+        names = []
+        for problem in section["problems"]:
+            for model in section["models"]:
+                names.append(f"tube_duct_{MAIN_COEFFICIENT[problem]}_vs_delta_{model}")
+        if set(PROBLEMS) <= set(section["problems"]):
+            names += ["tube_duct_flow_vs_pressure_ratio", "tube_duct_thermal_transpiration"]
+        return names
+
+    def figures(self, ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+        return build_figures(ds, section, settings)
+
+
+FAMILY = TubeDuct()
+
+
+# ---------------------------------------------------------------- physical units
+def _size(section, shape: str, aspect: float) -> tuple[float, float, dict]:
+    """(cross-section area S [m^2], length scale a [m], keyword for solver.conductance)."""
+    c = section["conditions"]
+    if shape == "tube":
+        a = c["radius"]
+        return math.pi * a * a, a, {"radius": a}
+    h = c["height"]
+    return aspect * h * h, h, {"height": h, "width": aspect * h}
+
+
+NOTES_COMMON = [
+    "delta = p a / (mu v0), a = tube radius or duct height (smaller side), v0 = sqrt(2 k T / m); Kn = sqrt(pi) / (2 delta).",
+    "Normalisation of G_P, G_T: Sharipov & Seleznev, J. Phys. Chem. Ref. Data 27 (1998) 657; the duct per unit width "
+    "(M / W = (H p / v0) G X), see solver.duct.",
+    "Pressure for each gas: p = delta mu(T) v0 / a at the study temperature (solver.gas.pressure_from_delta; mu(T) from config/gases.yaml).",
+    "status 'failed', 'missing' or 'corrupt': the coefficient columns are empty for that row.",
+]
+
+
+def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
+    import pandas as pd
+
+    from solver.gas import most_probable_speed, pressure_from_delta
+
+    c = section["conditions"]
+    t = c["temperature"]
+    length = c["length"]
+    delta = ds["delta"].values.astype(float)
+    tables = {}
+    geos = geometry_settings(section)
+    walls = wall_settings(section)
+    if "poiseuille" in section["problems"]:
+        rows = []
+        for glabel, shape, aspect in geos:
+            s_area, a, _ = _size(section, shape, aspect)
+            g_fm = free_molecular_gp(shape, aspect)
+            g_cont = continuum_gp(shape, aspect, delta)
+            for model in section["models"]:
+                for wlabel, w in walls:
+                    sel = dict(geometry=glabel, problem="poiseuille", model=model, wall=wlabel)
+                    status = ds["status"].sel(**sel).values
+                    gp = ds["G_P"].sel(**sel).values.astype(float) if "G_P" in ds else np.full(delta.shape, np.nan)
+                    gslip = slip_gp(shape, aspect, delta, slip_sigma(w))
+                    for gas in section["gases"]:
+                        v0 = most_probable_speed(gas, t)
+                        factor = s_area * a * v0 / (2.0 * length)  # C = S a v0 G_P / (2 L)  [m^3/s]
+                        for j, d in enumerate(delta):
+                            cond = factor * gp[j]
+                            rows.append({
+                                "geometry": glabel, "model": model, "wall": wlabel, "gas": gas,
+                                "delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d), "status": status[j],
+                                "pressure [Pa]": pressure_from_delta(gas, d, t, a),
+                                "G_P [1]": gp[j],
+                                "conductance [m^3 s^-1]": cond,
+                                "conductance [L s^-1]": 1e3 * cond,
+                                "free-molecular conductance, diffuse [m^3 s^-1]": factor * g_fm,
+                                "continuum conductance, no slip [m^3 s^-1]": factor * g_cont[j],
+                                "C / C_free-molecular [1]": gp[j] / g_fm,
+                                "C / C_continuum [1]": gp[j] / g_cont[j],
+                                "C / C_slip [1]": gp[j] / gslip[j],
+                            })
+        notes = NOTES_COMMON + [
+            f"temperature {t:g} K, tube radius {c['radius']:g} m, duct height {c['height']:g} m, length {length:g} m.",
+            "Conductance in the linear regime at the row's pressure: C = S a v0 G_P / (2 L), S = cross-section area "
+            "(solver.conductance).",
+            "Free-molecular reference, diffuse walls: Knudsen's long-tube value G_P = 8/(3 sqrt(pi)) (Knudsen, Ann. Phys. 28 "
+            "(1909) 75; C = (2 pi a^3 / (3 L)) v_mean); duct: closed-form quadrature solver.duct.free_molecular_flow_rate. "
+            "For non-diffuse walls the factor includes the accommodation effect.",
+            "Continuum reference, no slip: Hagen-Poiseuille C = pi a^4 p / (8 mu L) (G_P = delta/4); duct: series of White, "
+            "Viscous Fluid Flow (2006) eq. 3-48 (solver.duct.continuum_flow_rate).",
+            f"Slip reference: first order, sigma_P = {SIGMA_P_DIFFUSE} (BGK, diffuse; check-values section 2, from memory, "
+            "unconfirmed) times (2 - alpha)/alpha (Maxwell 1879, approximate; alpha_t for Cercignani-Lampis walls, "
+            "common practice, no source); tube delta/4 + sigma_P, duct solver.duct.slip_flow_rate.",
+        ]
+        tables["tube_duct_conductance"] = Table(pd.DataFrame(rows), "Tube and duct: conductance and correction factors", notes)
+    if "thermal_creep" in section["problems"]:
+        rows = []
+        for glabel, shape, aspect in geos:
+            s_area, a, _ = _size(section, shape, aspect)
+            for model in section["models"]:
+                for wlabel, w in walls:
+                    sel = dict(geometry=glabel, problem="thermal_creep", model=model, wall=wlabel)
+                    status = ds["status"].sel(**sel).values
+                    gt = ds["G_T"].sel(**sel).values.astype(float) if "G_T" in ds else np.full(delta.shape, np.nan)
+                    gp = (ds["G_P"].sel(geometry=glabel, problem="poiseuille", model=model, wall=wlabel).values.astype(float)
+                          if ("G_P" in ds and "poiseuille" in section["problems"]) else np.full(delta.shape, np.nan))
+                    ref_t = (SIGMA_T_DIFFUSE_BGK / delta) if (model == "bgk" and _is_diffuse(w)) else np.full(delta.shape, np.nan)
+                    for gas in section["gases"]:
+                        v0 = most_probable_speed(gas, t)
+                        for j, d in enumerate(delta):
+                            p = pressure_from_delta(gas, d, t, a)
+                            rows.append({
+                                "geometry": glabel, "model": model, "wall": wlabel, "gas": gas,
+                                "delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d), "status": status[j],
+                                "pressure [Pa]": p, "G_T [1]": gt[j],
+                                # M / ((1/T) dT/dx) = S a p G_T / v0  [kg s^-1 per m^-1 ... = kg m s^-1]
+                                "mass flow per log-temperature gradient [kg m s^-1]": s_area * a * p * gt[j] / v0,
+                                "G_T / G_P (d ln p / d ln T at zero flow) [1]": gt[j] / gp[j],
+                                "G_T / (sigma_T/delta) [1]": gt[j] / ref_t[j],
+                            })
+        notes = NOTES_COMMON + [
+            f"temperature {t:g} K, tube radius {c['radius']:g} m, duct height {c['height']:g} m.",
+            "G_T / G_P = d ln p / d ln T at zero net flow (check-values section 6); 1/2 in the free-molecular limit "
+            "(Knudsen 1909), -> 0 in the continuum.",
+            f"G_T / (sigma_T/delta): ratio to first-order thermal slip, sigma_T = {SIGMA_T_DIFFUSE_BGK} (BGK, diffuse; "
+            "check-values section 2, from memory, unconfirmed); BGK with diffuse walls only.",
+        ]
+        tables["tube_duct_thermal_creep"] = Table(pd.DataFrame(rows), "Tube and duct: thermal creep", notes)
+    return tables
+
+
+# ---------------------------------------------------------------- figures
+def _legend(ax):
+    if ax.get_legend_handles_labels()[0]:
+        ax.legend(fontsize="xx-small", loc="best")
+
+
+def _no_data(ax, text="no converged points"):
+    ax.text(0.5, 0.5, text, transform=ax.transAxes, ha="center", va="center")
+
+
+def build_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+    import matplotlib.pyplot as plt
+
+    from knudsweep.figures import new_figure
+
+    geos = geometry_settings(section)
+    walls = wall_settings(section)
+    delta = ds["delta"].values.astype(float)
+    dense = np.geomspace(delta.min(), delta.max(), 200) if len(delta) > 1 else delta
+    colors = plt.get_cmap("viridis")(np.linspace(0.0, 0.85, max(len(geos), 1)))
+    styles = ["o-", "s--", "^-.", "d:"]
+    figs = {}
+    for problem in section["problems"]:
+        key = MAIN_COEFFICIENT[problem]
+        for model in section["models"]:
+            fig, ax = new_figure(settings)
+            drawn = False
+            for color, (glabel, shape, aspect) in zip(colors, geos):
+                for k, (wlabel, w) in enumerate(walls):
+                    sel = dict(geometry=glabel, problem=problem, model=model, wall=wlabel)
+                    g = ds[key].sel(**sel).values.astype(float) if key in ds else np.full(delta.shape, np.nan)
+                    bad = np.isin(ds["status"].sel(**sel).values, ["failed", "corrupt"])
+                    if bad.any():
+                        ax.plot(delta[bad], np.full(bad.sum(), 0.03), "x", color=color, transform=ax.get_xaxis_transform())
+                    if np.isfinite(g).any():
+                        drawn = True
+                        ax.plot(delta, g, styles[k % 4], color=color, ms=3.5, label=f"{glabel}, {wlabel}")
+                if key == "G_P":
+                    g_fm = free_molecular_gp(shape, aspect)
+                    small = dense[dense <= 1.0]
+                    ax.plot(small, np.full(small.size, g_fm), ":", color=color, lw=1.0)
+                    big = dense[dense >= 1.0]
+                    for wlabel, w in walls[:1]:
+                        ax.plot(big, slip_gp(shape, aspect, big, slip_sigma(w)), "--", color=color, lw=0.8)
+                elif model == "bgk" and any(_is_diffuse(w) for _, w in walls):
+                    big = dense[dense >= 1.0]
+                    ax.plot(big, SIGMA_T_DIFFUSE_BGK / big, "--", color="0.3", lw=0.8)
+                    small = dense[dense <= 1.0]
+                    ax.plot(small, np.full(small.size, 0.5 * free_molecular_gp(shape, aspect)), ":", color=color, lw=1.0)
+            if key == "G_P":
+                ax.plot([], [], ":", color="0.4", label="free molecular, diffuse")
+                ax.plot([], [], "--", color="0.4", label=f"first-order slip ({walls[0][0]})")
+            else:
+                ax.plot([], [], ":", color="0.4", label="free molecular, diffuse: G_P(0)/2")
+                ax.plot([], [], "--", color="0.3", label="thermal slip sigma_T/delta (BGK)")
+            if drawn:
+                ax.set_yscale("log")
+            else:
+                _no_data(ax)
+            ax.set_xscale("log")
+            ax.set_xlabel("rarefaction parameter delta [1]")
+            ax.set_ylabel(f"{key} [1]")
+            ax.set_title(f"Tube and ducts, {problem.replace('_', ' ')}, {model}", fontsize="medium")
+            _legend(ax)
+            figs[f"tube_duct_{key}_vs_delta_{model}"] = fig
+
+    if set(PROBLEMS) <= set(section["problems"]):
+        figs.update(_pressure_figures(ds, section, settings, geos, walls, colors))
+    return figs
+
+
+def _pressure_figures(ds, section, settings, geos, walls, colors):
+    """Flow against pressure ratio, and thermal transpiration (first model, first wall, first gas)."""
+    from knudsweep.figures import new_figure
+    from solver import gas as gasmod
+    from solver.conductance import flow_at_pressure_ratio, thermomolecular_pressure_ratio
+
+    c = section["conditions"]
+    gas = section["gases"][0]
+    model = section["models"][0]
+    wlabel = walls[0][0]
+    t = c["temperature"]
+    delta = ds["delta"].values.astype(float)
+    out = {}
+
+    fig, ax = new_figure(settings)
+    drawn = False
+    ratios = np.asarray(c["pressure_ratios"], float)
+    for color, (glabel, shape, aspect) in zip(colors, geos):
+        table = flow_table(ds, glabel, shape, aspect, model, wlabel)
+        if table is None:
+            continue
+        _, a, kw = _size(section, shape, aspect)
+        p_out = gasmod.pressure_from_delta(gas, float(np.sqrt(delta.min() * delta.max())), t, a)
+        mdot = []
+        for r in ratios:
+            try:
+                mdot.append(flow_at_pressure_ratio(table, gas, r * p_out, p_out, c["length"], t_in=t, **kw)["mass_flow"])
+            except (RuntimeError, ValueError):
+                mdot.append(np.nan)
+        if np.isfinite(mdot).any():
+            drawn = True
+            ax.plot(ratios, mdot, "o-", color=color, ms=3.5, label=f"{glabel}, p_out = {p_out:.3g} Pa")
+    if drawn:
+        ax.set_xscale("log")
+        ax.set_yscale("log")
+    else:
+        _no_data(ax, "needs converged G_P and G_T at two or more delta")
+    ax.set_xlabel("pressure ratio p_in / p_out [1]")
+    ax.set_ylabel("mass flow [kg s^-1]")
+    ax.set_title(f"Flow through a {c['length']:g} m channel, {gas}, {t:g} K, {model}, {wlabel}", fontsize="small")
+    _legend(ax)
+    out["tube_duct_flow_vs_pressure_ratio"] = fig
+
+    fig, ax = new_figure(settings)
+    th = c["thermal"]
+    t_cold, t_hot = th["t_cold"], th["t_hot"]
+    drawn = False
+    for color, (glabel, shape, aspect) in zip(colors, geos):
+        table = flow_table(ds, glabel, shape, aspect, model, wlabel)
+        if table is None:
+            continue
+        _, a, kw = _size(section, shape, aspect)
+        lo = gasmod.pressure_from_delta(gas, delta.min() / 10.0, t_cold, a)
+        hi = gasmod.pressure_from_delta(gas, delta.max() * 10.0, t_cold, a)
+        pc = np.geomspace(lo, hi, 40)
+        ratio = [thermomolecular_pressure_ratio(table, gas, t_cold, t_hot, p, **kw) for p in pc]
+        drawn = True
+        ax.plot(pc, ratio, "-", color=color, label=glabel)
+    ax.axhline(math.sqrt(t_hot / t_cold), color="k", ls=":", lw=1.0, label="free molecular sqrt(T_hot/T_cold)")
+    ax.axhline(1.0, color="k", ls="--", lw=0.8, label="continuum: 1")
+    if not drawn:
+        _no_data(ax, "needs converged G_P and G_T at two or more delta")
+    ax.set_xscale("log")
+    ax.set_xlabel("cold-side pressure p_cold [Pa]")
+    ax.set_ylabel("p_hot / p_cold [1]")
+    ax.set_title(f"Thermal transpiration, {gas}, {t_cold:g} K / {t_hot:g} K, {model}, {wlabel}", fontsize="small")
+    _legend(ax)
+    out["tube_duct_thermal_transpiration"] = fig
+    return out

@@ -1,0 +1,207 @@
+"""Status of a study's points: done (converged), failed, missing, corrupt; outdated; stray temporaries.
+
+Fast listing
+    Opening a netCDF file costs a few milliseconds (HDF5 header), which is tens
+    of seconds for 10,000 points.  So each point file may have a small *status
+    sidecar* beside it, ``.<name>.nc.status.json`` (hidden), holding the file's
+    size and modification time and the few attributes the status needs.  The
+    sidecar is trusted only while the point file still has exactly that size and
+    mtime; otherwise (or when there is none) the point file's attributes are read
+    with netCDF4 (no variable is loaded) and the sidecar is rewritten.  The solve
+    job writes it right after the point file; files from elsewhere get one on
+    their first status.  A corruption that keeps both size and mtime is not seen
+    by the status (gather reads every byte and reports it).
+
+Outdated points
+    A point whose ``code_version`` attribute differs from ``solver.__version__``
+    was computed by another solver version.  It stays in its state (it is still
+    a result) but is flagged ``outdated``; :func:`requeue` with
+    ``outdated=True`` removes only those files so the next run recomputes only them.
+
+Stray temporaries
+    A writer killed between creating and renaming its temporary file leaves
+    ``.<name>.nc.<pid>.tmp`` (see ``solver.netcdf_io.write_dataset``).  Such a
+    file is never read as a point (its name is not a point file's name) and
+    :func:`clean_stray_temporaries` removes it once its writer process is gone
+    from this host and it has not been modified for ``min_age_s`` seconds (a
+    writer on another cluster node keeps touching its file while it writes).
+
+A ``<point>.nc.corrupt`` file left by the gather step is reported as the reason
+of a missing point.
+"""
+
+from __future__ import annotations
+
+import json
+import logging
+import os
+import re
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+from solver import __version__
+
+log = logging.getLogger("knudsweep.status")
+
+_TMP_NAME = re.compile(r"^\.(?P<final>.+)\.(?P<pid>\d+)\.tmp$")
+_ATTRS = ("status", "status_reason", "iterations_used", "code_version", "point_id")
+# Seconds a temporary must be untouched before it counts as abandoned (a small point
+# file is written in well under a second; common practice, no source).
+STRAY_MIN_AGE_S = 60.0
+
+
+@dataclass
+class PointStatus:
+    pid: str
+    path: str
+    state: str  # converged | failed | missing | corrupt
+    reason: str = ""
+    iterations: int = -1
+    code_version: str = ""
+    outdated: bool = False
+
+
+def sidecar_path(path: str | os.PathLike) -> Path:
+    """``dir/.name.nc.status.json`` for the point file ``dir/name.nc``."""
+    path = Path(path)
+    return path.with_name(f".{path.name}.status.json")
+
+
+def write_sidecar(path: str | os.PathLike, attrs: dict | None = None) -> None:
+    """Record the status attributes of point file ``path`` beside it (atomic, best effort).
+
+    ``attrs``: the file's global attributes if the caller has them, else they are read.
+    """
+    path = Path(path)
+    try:
+        if attrs is None:
+            attrs = _read_attrs(path)
+        st = path.stat()
+        record = {"size": st.st_size, "mtime_ns": st.st_mtime_ns}
+        record.update({k: _plain(attrs[k]) for k in _ATTRS if k in attrs})
+        side = sidecar_path(path)
+        tmp = side.with_name(f"{side.name}.{os.getpid()}.tmp")
+        tmp.write_text(json.dumps(record), encoding="utf-8")
+        os.replace(tmp, side)
+    except OSError as exc:  # a cache only: a read-only or full disk must not fail the caller
+        log.warning("could not write status sidecar of %s: %s", path, exc)
+
+
+def _plain(value):
+    return value.item() if hasattr(value, "item") else value
+
+
+def _read_attrs(path: Path) -> dict:
+    import netCDF4
+
+    with netCDF4.Dataset(str(path), "r") as nc:
+        names = nc.ncattrs()
+        return {k: nc.getncattr(k) for k in _ATTRS if k in names}
+
+
+def _from_sidecar(path: Path, st: os.stat_result) -> dict | None:
+    try:
+        record = json.loads(sidecar_path(path).read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return None
+    if record.get("size") != st.st_size or record.get("mtime_ns") != st.st_mtime_ns:
+        return None
+    return record
+
+
+def read_status(path: str | os.PathLike, update_sidecar: bool = True) -> PointStatus:
+    """Status of one point file from its sidecar or, failing that, its attributes."""
+    path = Path(path)
+    try:
+        st = path.stat()
+    except FileNotFoundError:
+        aside = f"{path}.corrupt"
+        reason = f"earlier file was corrupt, kept as {aside}" if os.path.exists(aside) else "not computed yet"
+        return PointStatus("", str(path), "missing", reason)
+    attrs = _from_sidecar(path, st)
+    if attrs is None:
+        try:
+            attrs = _read_attrs(path)
+        except Exception as exc:  # unreadable header: corrupt
+            return PointStatus("", str(path), "corrupt", f"{type(exc).__name__}: {exc}")
+        if "status" in attrs and update_sidecar:
+            write_sidecar(path, attrs)
+    if "status" not in attrs:
+        return PointStatus("", str(path), "corrupt", "no status attribute (not a knudsweep point file)")
+    version = str(attrs.get("code_version", ""))
+    return PointStatus("", str(path), str(attrs["status"]), str(attrs.get("status_reason", "")),
+                       int(attrs.get("iterations_used", -1)), version, version != __version__)
+
+
+def study_status(plan, root: str | os.PathLike = ".", update_sidecar: bool = True) -> list[PointStatus]:
+    """Status of every point of ``plan`` (a StudyPlan), paths relative to ``root``."""
+    out = []
+    for pid in plan.points:
+        st = read_status(Path(root) / plan.point_file(pid), update_sidecar)
+        st.pid = pid
+        out.append(st)
+    return out
+
+
+def requeue(statuses: list[PointStatus], states=("failed", "corrupt"), outdated: bool = False) -> list[str]:
+    """Delete the files of points in ``states`` (or, with ``outdated``, only outdated ones).
+
+    The next run of the workflow recomputes exactly the removed points.
+    """
+    removed = []
+    for st in statuses:
+        chosen = st.outdated if outdated else st.state in states
+        if chosen and os.path.exists(st.path):
+            os.remove(st.path)
+            sidecar_path(st.path).unlink(missing_ok=True)
+            removed.append(st.path)
+    return removed
+
+
+def _pid_alive(pid: int) -> bool:
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:
+        return True
+    return True
+
+
+def stray_temporaries(directories, min_age_s: float = STRAY_MIN_AGE_S) -> list[Path]:
+    """Abandoned ``.<name>.<pid>.tmp`` files in ``directories`` (writer gone, untouched for ``min_age_s``)."""
+    now = time.time()
+    out = []
+    for d in sorted({str(d) for d in directories}):
+        try:
+            entries = list(os.scandir(d))
+        except FileNotFoundError:
+            continue
+        for entry in entries:
+            m = _TMP_NAME.match(entry.name)
+            if not m or not entry.is_file(follow_symlinks=False):
+                continue
+            try:
+                age = now - entry.stat().st_mtime
+            except FileNotFoundError:  # renamed or removed meanwhile
+                continue
+            if age >= min_age_s and not _pid_alive(int(m["pid"])):
+                out.append(Path(entry.path))
+    return out
+
+
+def clean_stray_temporaries(plan, root: str | os.PathLike = ".", min_age_s: float = STRAY_MIN_AGE_S) -> list[str]:
+    """Remove abandoned temporaries in the point folders and the study folder of ``plan``."""
+    root = Path(root)
+    dirs = {(root / plan.point_file(pid)).parent for pid in plan.points}
+    dirs.add(root / plan.study_dir)
+    removed = []
+    for tmp in stray_temporaries(dirs, min_age_s):
+        try:
+            tmp.unlink()
+        except FileNotFoundError:
+            continue
+        log.warning("removed stray temporary %s (its writer was killed before renaming it)", tmp)
+        removed.append(str(tmp))
+    return removed

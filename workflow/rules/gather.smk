@@ -1,0 +1,18 @@
+# Stage 2: all point files of the study -> results/<study>/sweep.nc.
+
+
+rule gather:
+    input:
+        PLAN.point_files(),
+    output:
+        PLAN.sweep_file,
+    log:
+        f"logs/{PLAN.name}/gather.log",
+    params:
+        study=tracked(),
+    threads: EXEC["gather_workers"]
+    resources:
+        mem_mb=4000,
+        runtime=60,
+    script:
+        "../scripts/gather.py"
