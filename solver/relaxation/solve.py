@@ -391,6 +391,12 @@ def _assemble(parameters, discretization, times, tau_c, mu_over_p, model, state,
         fit = fits.get(name, None)
         if fit is None:
             fit = DecayFit(math.nan, math.nan, math.nan, math.nan, math.nan, 0, notes[name])
+        discretization[f"{name}_fit"] = {"t_first": fit.t_first, "t_last": fit.t_last, "n_points": fit.n_points,
+                                         "note": fit.note}
+        if not math.isfinite(fit.time):
+            # Not defined for this start (e.g. no initial heat flux) or not resolved above
+            # the noise: the time is left out, and the reason stays in the fit note.
+            continue
         label = name.replace("_", " ")
         coefficients[f"{name}_relaxation_time"] = Quantity(fit.time, "1", f"{label} relaxation time in mean collision times")
         coefficients[f"{name}_relaxation_time_uncertainty"] = Quantity(
@@ -398,8 +404,6 @@ def _assemble(parameters, discretization, times, tau_c, mu_over_p, model, state,
         coefficients[f"{name}_relaxation_time_s"] = Quantity(fit.time * tau_c, "s", f"{label} relaxation time")
         coefficients[f"{name}_relaxation_time_s_uncertainty"] = Quantity(
             fit.time_uncertainty * tau_c, "s", f"standard uncertainty of the {label} relaxation time")
-        discretization[f"{name}_fit"] = {"t_first": fit.t_first, "t_last": fit.t_last, "n_points": fit.n_points,
-                                         "note": fit.note}
     conv = ConvergenceRecord(np.zeros(0), iterations=int((n_output - 1) * discretization["steps_per_output"]),
                              status=CONVERGED, reason="", tolerance=MAX_ENERGY_DRIFT)
     return SolverResult(FAMILY, state.name, parameters, coords, profiles, coefficients, discretization, conv,

@@ -64,7 +64,7 @@ def test_result_record():
     y = res.coords["y"].value
     assert y.min() > -0.5 and y.max() < 0.5 and res.profiles["velocity"].value.shape == y.shape
     assert res.discretization["n_space"] == y.size
-    assert set(res.coefficients) == {"G_P", "Q_P"}
+    assert set(res.coefficients) == {"G_P", "Q_P", "G_P_error_estimate", "Q_P_error_estimate"}
     assert res.convergence.iterations == res.convergence.residuals.size
 
 

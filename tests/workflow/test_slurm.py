@@ -6,6 +6,7 @@ The one-node cluster has no accounting database, so the executor polls with
 squeue and submits without an account.
 """
 
+import os
 import shutil
 import subprocess
 
@@ -34,7 +35,17 @@ def _slurm_ready() -> str:
     return ""
 
 
-pytestmark = [pytest.mark.slurm, pytest.mark.skipif(bool(_slurm_ready()), reason=_slurm_ready() or "ready")]
+_NOT_READY = _slurm_ready()
+# .ci/run sets KNUDSWEEP_REQUIRE_SLURM=1 after starting the one-node cluster, so
+# in CI a broken SLURM set-up fails this test instead of skipping it silently.
+if _NOT_READY and os.environ.get("KNUDSWEEP_REQUIRE_SLURM") == "1":
+    pytestmark = [pytest.mark.slurm]
+else:
+    pytestmark = [pytest.mark.slurm, pytest.mark.skipif(bool(_NOT_READY), reason=_NOT_READY or "ready")]
+
+
+def test_slurm_is_ready_when_required():
+    assert not _NOT_READY, f"KNUDSWEEP_REQUIRE_SLURM=1 but SLURM is not usable: {_NOT_READY}"
 
 
 def test_tiny_study_through_slurm_with_grouped_points(tmp_path):
