@@ -40,7 +40,7 @@ def test_demo_config_is_valid_and_defaults_are_filled():
     small = validate_study(tiny())
     # defaults from schema.yaml land in nested sections that were absent
     assert small["figures"] == {"formats": ["png", "pdf"], "width": 6.0, "height": 4.2, "dpi": 150}
-    assert small["plane_channel"]["resolution"] == {"n_space": None, "n_velocity": None, "tol": 1e-8}
+    assert small["plane_channel"]["resolution"] == {"accuracy": None, "n_space": None, "n_velocity": None, "tol": 1e-8}
     assert small["plane_channel"]["gases"] == ["Ar"]
     assert small["execution"]["threads_per_point"] == 1
 
@@ -182,3 +182,28 @@ def test_snakefile_is_thin():
     lines = (REPO / "Snakefile").read_text().splitlines()
     assert len(lines) < 50
     assert any('min_version("9.0")' in line for line in lines)
+
+
+def test_accuracy_target_excludes_explicit_grid_sizes(tmp_path):
+    # The user asks for accuracy *or* grid sizes; both at once is ambiguous.
+    import yaml
+
+    from knudsweep.config import StudyConfigError, load_study
+
+    study = {
+        "study": "acc",
+        "plane_channel": {
+            "problems": ["poiseuille"], "models": ["bgk"], "walls": [{"model": "maxwell", "alpha": 1.0}],
+            "delta": [1.0], "resolution": {"accuracy": 1e-4, "n_space": 40},
+        },
+    }
+    path = tmp_path / "s.yaml"
+    path.write_text(yaml.safe_dump(study))
+    with pytest.raises(StudyConfigError, match="accuracy"):
+        load_study(path)
+    study["plane_channel"]["resolution"] = {"accuracy": 1e-4}
+    path.write_text(yaml.safe_dump(study))
+    from knudsweep.plan import StudyPlan
+
+    pids = list(StudyPlan(load_study(path)).points)
+    assert len(pids) == 1 and "grid=acc1.0e-04" in pids[0]

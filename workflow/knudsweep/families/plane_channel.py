@@ -114,6 +114,8 @@ def grid_label(section: dict[str, Any]) -> str:
     res = section["resolution"]
     ns = "auto" if res["n_space"] is None else str(res["n_space"])
     nv = "auto" if res["n_velocity"] is None else str(res["n_velocity"])
+    if res.get("accuracy") is not None:
+        return f"acc{format_exp(res['accuracy'])}-tol{format_exp(res['tol'])}"
     return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
 
 
@@ -128,6 +130,10 @@ class PlaneChannel(Family):
         for i, label in enumerate(labels):
             if label in labels[:i]:
                 raise ValueError(f"walls[{i}]: repeats walls[{labels.index(label)}] ({label})")
+        res = section.get("resolution", {})
+        if res.get("accuracy") is not None and (res.get("n_space") is not None or res.get("n_velocity") is not None):
+            raise ValueError("resolution.accuracy: give either an accuracy target or n_space/n_velocity, not both "
+                             "(set n_space and n_velocity to null)")
         axis = "delta" if has_delta else "kn"
         deltas = delta_values(section)
         if len(set(deltas)) != len(deltas):
@@ -161,6 +167,7 @@ class PlaneChannel(Family):
                             "n_space": res["n_space"],
                             "n_velocity": res["n_velocity"],
                             "tol": canonical(res["tol"]),
+                            "accuracy": None if res.get("accuracy") is None else canonical(res["accuracy"]),
                         }
                         index = {"problem": problem, "model": model, "wall": label, "delta": delta}
                         out.append(Point(self.name, pid, values, index))
@@ -180,6 +187,7 @@ class PlaneChannel(Family):
             n_velocity=values["n_velocity"],
             max_iter=max_iter,
             tol=values["tol"],
+            accuracy=values.get("accuracy"),
             accelerate=bool(section.get("iteration", {}).get("accelerate", True)),
         )
 

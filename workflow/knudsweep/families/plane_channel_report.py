@@ -130,6 +130,9 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                 sel = dict(problem=problem, model=model, wall=label)
                 status = ds["status"].sel(**sel).values
                 g = ds[key].sel(**sel).values.astype(float) if key in ds else np.full(delta.shape, np.nan)
+                err_name = f"{key}_error_estimate"
+                g_err = (ds[err_name].sel(**sel).values.astype(float) if err_name in ds
+                         else np.full(delta.shape, np.nan))
                 extra_cols = {}
                 if key == "G_P":
                     s_lo = _slip_sigma(lower, SIGMA_P_DIFFUSE)
@@ -160,12 +163,17 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                             "Kn [1]": SQRT_PI / (2.0 * d),
                             "status": status[j],
                             f"{key} [1]": g[j],
+                            f"{key} error estimate [1]": g_err[j],
                         }
                         row.update({k: float(v[j]) for k, v in extra_cols.items()})
                         row.update(_gas_columns(gas, d, section, g[j], key))
                         rows.append(row)
         frame = pd.DataFrame(rows)
         notes = list(NOTES_COMMON)
+        notes.append(
+            f"{key} error estimate: estimated discretisation error of {key} (absolute), from a Richardson "
+            "extrapolation over a coarser solve (solver.resolution); it does not include the model error."
+        )
         notes.append(
             f"temperature {section['conditions']['temperature']:g} K, gap "
             f"{section['conditions']['gap']:g} m."
