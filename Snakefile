@@ -31,6 +31,7 @@ include: "workflow/rules/plot.smk"
 ##### target #####
 rule all:
     input:
+        PLAN.point_files(),
         PLAN.table_files(),
         PLAN.figure_files(),
     default_target: True

@@ -1,8 +1,12 @@
 """``knudsweep`` command line: solve one point, list a study's status, run benchmarks.
 
     knudsweep solve --problem poiseuille --model bgk --delta 1.0 --alpha 0.9 --json
-    knudsweep status config/config.yaml
+    knudsweep status config/config.yaml [--requeue-failed] [--requeue-outdated]
     knudsweep bench
+
+``status`` also removes abandoned writer temporaries; ``--requeue-*`` delete the
+chosen point files and the study's sweep, tables and figures, so that the next
+``snakemake`` run recomputes exactly those points and rebuilds the products.
 
 Bad values give one line ``knudsweep: error: --<option>: ...; allowed ...`` on
 stderr and exit code 2, never a traceback.
@@ -157,7 +161,7 @@ def cmd_solve(args) -> int:
 def cmd_status(args) -> int:
     from knudsweep.config import load_study
     from knudsweep.plan import StudyPlan
-    from knudsweep.status import clean_stray_temporaries, requeue, study_status
+    from knudsweep.status import clean_stray_temporaries, invalidate_products, requeue, study_status
     from solver import __version__
 
     plan = StudyPlan(load_study(args.study))
@@ -172,6 +176,11 @@ def cmd_status(args) -> int:
             print(f"removed {path} (older solver version; will be recomputed on the next run)")
     if args.requeue_failed or args.requeue_outdated:
         rows = study_status(plan, args.directory)
+        if any(r.state == "missing" for r in rows):
+            products = invalidate_products(plan, args.directory)
+            if products:
+                print(f"removed the study's sweep, tables and figures ({len(products)} files); "
+                      "the next run recomputes the missing points and rebuilds them")
     if args.json:
         print(json.dumps([r.__dict__ for r in rows], sort_keys=True))
         return 0
@@ -250,9 +259,29 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _check_parsed_types(parser: argparse.ArgumentParser, args) -> None:
+    """argparse turns ``--delta=--`` into an empty list; refuse any value of the wrong type."""
+    for action in _all_actions(parser, args):
+        value = getattr(args, action.dest, None)
+        if action.type in (float, int) and value is not None and not isinstance(value, action.type):
+            raise CliError(f"{action.option_strings[-1]}: expected one {action.type.__name__} value, got {value!r}")
+
+
+def _all_actions(parser, args):
+    for action in parser._actions:
+        if isinstance(action, argparse._SubParsersAction):
+            sub = action.choices.get(getattr(args, "command", None))
+            if sub is not None:
+                yield from sub._actions
+        else:
+            yield action
+
+
 def main(argv: list[str] | None = None) -> int:
-    args = build_parser().parse_args(argv)
+    parser = build_parser()
+    args = parser.parse_args(argv)
     try:
+        _check_parsed_types(parser, args)
         return args.func(args)
     except ValueError as exc:  # CliError, StudyConfigError, checked solver input errors
         _fail(str(exc).splitlines()[0] if str(exc) else type(exc).__name__)

@@ -14,6 +14,7 @@ import copy
 import hashlib
 import json
 import math
+import re
 from functools import lru_cache
 from pathlib import Path
 from typing import Any
@@ -28,6 +29,10 @@ SCHEMA_FILE = Path(__file__).resolve().parents[2] / "config" / "schema.yaml"
 # Sections that never change a point's numbers: excluded from the config hash
 # written into point files, so that editing them does not look like a new study.
 _PRESENTATION_SECTIONS = ("figures", "execution", "description")
+
+
+# YAML 1.1 (PyYAML, Snakemake) reads 1e-6 as a string: a float needs a dot (1.0e-6).
+_EXPONENT_WITHOUT_DOT = re.compile(r"^[-+]?[0-9]+[eE][-+]?[0-9]+$")
 
 
 class StudyConfigError(ValueError):
@@ -123,7 +128,11 @@ def _error_message(error: jsonschema.ValidationError) -> str:
     if kind in ("minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum"):
         return f"{key_path(path)}: got {error.instance!r}; {_allowed(error.schema)}"
     if kind == "type":
-        return f"{key_path(path)}: got {error.instance!r}; expected type {error.validator_value}"
+        hint = ""
+        if isinstance(error.instance, str) and _EXPONENT_WITHOUT_DOT.match(error.instance):
+            hint = (f" (YAML reads {error.instance} as text; write it with a dot, "
+                    f"e.g. {error.instance.replace('e', '.0e', 1).replace('E', '.0E', 1)})")
+        return f"{key_path(path)}: got {error.instance!r}; expected type {error.validator_value}{hint}"
     return f"{key_path(path)}: {error.message}"
 
 
@@ -136,6 +145,18 @@ def _first_error(validator, instance) -> jsonschema.ValidationError | None:
     return errors[0]
 
 
+def _reject_non_finite(node: Any, path: list) -> None:
+    """NaN and infinities pass JSON-schema range checks (every comparison is false): refuse them here."""
+    if isinstance(node, float) and not math.isfinite(node):
+        raise StudyConfigError(f"{key_path(path)}: got {node!r}; expected a finite number")
+    if isinstance(node, dict):
+        for k, v in node.items():
+            _reject_non_finite(v, path + [k])
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            _reject_non_finite(v, path + [i])
+
+
 def validate_study(raw: dict[str, Any]) -> dict[str, Any]:
     """Validate a study mapping; return a new dict with defaults filled in.
 
@@ -144,6 +165,7 @@ def validate_study(raw: dict[str, Any]) -> dict[str, Any]:
     if not isinstance(raw, dict) or not raw:
         raise StudyConfigError("<top level>: the study file is empty or not a mapping")
     study = copy.deepcopy(dict(raw))
+    _reject_non_finite(study, [])
     validator = _DefaultFillingValidator(load_schema())
     error = _first_error(validator, study)
     if error is not None:
@@ -173,6 +195,12 @@ def load_study(path: str | Path) -> dict[str, Any]:
             raw = yaml.safe_load(fh)
     except FileNotFoundError:
         raise StudyConfigError(f"study file {str(path)!r} does not exist") from None
+    except IsADirectoryError:
+        raise StudyConfigError(f"study file {str(path)!r} is a directory") from None
+    except UnicodeDecodeError as exc:
+        raise StudyConfigError(f"study file {str(path)!r} is not UTF-8 text (byte {exc.start})") from None
+    except RecursionError:
+        raise StudyConfigError(f"study file {str(path)!r} is nested too deeply") from None
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         where = f" at line {mark.line + 1}" if mark is not None else ""

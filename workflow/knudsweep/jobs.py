@@ -159,14 +159,38 @@ def _apply_injected_write_limit(pid: str, logger: logging.Logger) -> None:
                    limit, FAULT_WRITE_LIMIT_ENV)
 
 
+class CorruptPointsError(RuntimeError):
+    """Gather found unreadable point files (moved aside); the job fails so the next run recomputes them."""
+
+
 def run_gather(study: dict[str, Any], output: str, workers: int = 1, log: str | None = None):
-    """Gather all point files of ``study`` into ``output`` (sweep.nc)."""
+    """Gather all point files of ``study`` into ``output`` (sweep.nc).
+
+    If point files were corrupt, they are moved aside (``<file>.corrupt``), the
+    sweep is written with them marked "corrupt", and then this job fails with
+    one line listing them, after removing the study's tables and figures.
+    Snakemake removes the sweep of the failed job, so the next run must rebuild
+    all three and therefore recomputes exactly the moved points (Snakemake skips
+    a missing input of an output that exists and is up to date).
+    """
     setup_logging(log)
     from knudsweep.config import validate_study
     from knudsweep.gather import gather_study
     from knudsweep.plan import StudyPlan
 
-    return gather_study(StudyPlan(validate_study(study)), output, workers=workers)
+    plan = StudyPlan(validate_study(study))
+    datasets = gather_study(plan, output, workers=workers)
+    corrupt = [str(r) for ds in datasets.values()
+               for r in ds["reason"].values[ds["status"].values == "corrupt"].ravel()]
+    if corrupt:
+        message = (f"{len(corrupt)} corrupt point file(s) moved aside; run the workflow again to "
+                   f"recompute them: " + "; ".join(corrupt))
+        logging.getLogger("knudsweep.gather").error("%s", message)
+        from knudsweep.status import invalidate_products
+
+        invalidate_products(plan, sweep=False)
+        raise CorruptPointsError(message)
+    return datasets
 
 
 def run_tables(study: dict[str, Any], sweep: str, outdir: str, log: str | None = None):

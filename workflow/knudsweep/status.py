@@ -147,7 +147,9 @@ def study_status(plan, root: str | os.PathLike = ".", update_sidecar: bool = Tru
 def requeue(statuses: list[PointStatus], states=("failed", "corrupt"), outdated: bool = False) -> list[str]:
     """Delete the files of points in ``states`` (or, with ``outdated``, only outdated ones).
 
-    The next run of the workflow recomputes exactly the removed points.
+    The next run of the workflow recomputes exactly the removed points, provided
+    the study's sweep file is rebuilt: Snakemake does not recompute a deleted
+    input of an up-to-date output, so :func:`invalidate_products` must follow.
     """
     removed = []
     for st in statuses:
@@ -156,6 +158,23 @@ def requeue(statuses: list[PointStatus], states=("failed", "corrupt"), outdated:
             os.remove(st.path)
             sidecar_path(st.path).unlink(missing_ok=True)
             removed.append(st.path)
+    return removed
+
+
+def invalidate_products(plan, root: str | os.PathLike = ".", sweep: bool = True) -> list[str]:
+    """Delete the study's sweep file, tables and figures (all derived, rebuilt on the next run).
+
+    Needed after point files were removed: Snakemake skips a deleted input of an
+    output that exists and is up to date, so as long as the tables and figures
+    exist the removed points would never be recomputed.
+    """
+    files = ([plan.sweep_file] if sweep else []) + plan.table_files() + plan.figure_files()
+    removed = []
+    for f in files:
+        path = Path(root) / f
+        if path.exists():
+            path.unlink()
+            removed.append(str(path))
     return removed
 
 

@@ -134,7 +134,25 @@ class PlaneChannel(Family):
         if res.get("accuracy") is not None and (res.get("n_space") is not None or res.get("n_velocity") is not None):
             raise ValueError("resolution.accuracy: give either an accuracy target or n_space/n_velocity, not both "
                              "(set n_space and n_velocity to null)")
+        # The solver's own limits, checked here so a study fails before any job
+        # starts instead of producing points that fail with a solver error.
+        from solver.plane_channel import driver, grids
+
+        lo, hi = driver.DELTA_RANGE
+        for key, value, (vmin, vmax) in (
+            ("n_space", res.get("n_space"), (grids.MIN_SPACE, grids.MAX_SPACE)),
+            ("n_velocity", res.get("n_velocity"), (grids.MIN_VELOCITY, grids.MAX_VELOCITY)),
+        ):
+            if value is not None and not vmin <= value <= vmax:
+                raise ValueError(f"resolution.{key}: got {value}; allowed range is [{vmin}, {vmax}] or null")
+        if res.get("tol") is not None and not 1e-14 <= res["tol"] <= 0.01:
+            raise ValueError(f"resolution.tol: got {res['tol']}; allowed range is [1e-14, 0.01]")
         axis = "delta" if has_delta else "kn"
+        for d in delta_values(section):
+            if not lo <= d <= hi:
+                bounds = (f"[{lo:g}, {hi:g}]" if has_delta
+                          else f"[{math.sqrt(math.pi) / (2 * hi):.3g}, {math.sqrt(math.pi) / (2 * lo):.3g}]")
+                raise ValueError(f"{axis}: a value gives delta = {d:g}; allowed range of {axis} is {bounds}")
         deltas = delta_values(section)
         if len(set(deltas)) != len(deltas):
             raise ValueError(f"{axis}: values repeat after rounding to 6 significant digits")

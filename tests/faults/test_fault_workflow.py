@@ -1,0 +1,283 @@
+"""Fault injection on the whole workflow: kills, a second workflow, corrupt files, a full disk.
+
+All runs use the real Snakefile and solver on a tiny plane-channel study
+(n_space 16, n_velocity 8; a point solves in well under a second, the job
+around it -- a Python process importing numba -- costs about two seconds).
+
+What "identical to an uninterrupted run" means here (``same_point_content``):
+every variable of a point file (profiles, coefficients, residual history,
+iteration count) is bit-identical, and every attribute is equal, except the
+attributes ``history``, ``job_wall_time_s``, ``solver_wall_time_s`` and the
+variable ``wall_time``, which record when and how long the computation ran.
+HDF5 files are not byte-reproducible (they embed those values and allocation
+order), so byte equality is not the right test; equality of everything that
+is not a clock reading is.
+"""
+
+from __future__ import annotations
+
+import os
+import random
+import shutil
+import subprocess
+import time
+from pathlib import Path
+
+import pytest
+import xarray as xr
+
+from knudsweep.cli import main
+from knudsweep.config import load_study
+from knudsweep.jobs import FAULT_WRITE_LIMIT_ENV
+from knudsweep.plan import StudyPlan
+from knudsweep.status import study_status
+from solver.netcdf_io import read_result, write_result
+
+from fault_helpers import (check_complete, job_counts, kill_tree, point_folder_files, same_point_content,
+                           smk, start_workflow, wait_for, write_study)
+
+DELTAS = [0.1, 0.3, 1.0, 10.0]
+SEED = 20261201
+
+
+def report(capsys, text):
+    with capsys.disabled():
+        print(f"\n[faults] {text}")
+
+
+@pytest.fixture(scope="module")
+def reference(tmp_path_factory):
+    """One uninterrupted run; while it runs, two more workflows try to start in its directory."""
+    base = tmp_path_factory.mktemp("reference")
+    study = write_study(base / "faults.yaml", study="faults", plane_channel__delta=DELTAS)
+    # A second study that shares two of the points (same grid, delta subset).
+    other = write_study(base / "other.yaml", study="other", plane_channel__delta=[0.1, 1.0])
+    workdir = base / "w"
+    t0 = time.monotonic()
+    proc = start_workflow(workdir, study, base / "reference.log")
+    try:
+        running = wait_for(lambda: any((workdir / "logs" / "points").rglob("*.log")), 240, proc)
+        assert running and proc.poll() is None, (base / "reference.log").read_text()[-3000:]
+        same = smk(workdir, study, check=False, timeout=120)
+        # as the default workflow profile runs it (rerun-incomplete: true), so that
+        # the running points' "incomplete" marks do not stop it before the lock check
+        shared = smk(workdir, other, "--rerun-incomplete", check=False, timeout=120)
+        proc.wait(timeout=600)
+    finally:
+        if proc.poll() is None:
+            kill_tree(proc)
+    elapsed = time.monotonic() - t0
+    assert proc.returncode == 0, (base / "reference.log").read_text()[-4000:]
+    return {"study": study, "workdir": workdir, "elapsed": elapsed, "same": same, "shared": shared,
+            "plan": StudyPlan(load_study(study))}
+
+
+def test_second_workflow_on_the_same_directory_refuses_and_damages_nothing(reference):
+    plan, workdir = reference["plan"], reference["workdir"]
+    for key in ("same", "shared"):
+        r = reference[key]
+        out = r.stdout + r.stderr
+        assert r.returncode != 0, f"{key}: a second workflow was allowed to run:\n{out[-3000:]}"
+        assert "LockException" in out or "cannot be locked" in out, out[-3000:]
+        assert "rule solve" not in out  # refused before scheduling any job
+    for f in plan.point_files():
+        assert check_complete(workdir / f) == "converged"
+    assert (workdir / plan.sweep_file).is_file()
+
+
+def test_five_random_sigkills_then_resume_lose_nothing(reference, tmp_path, capsys):
+    study, plan, ref = reference["study"], reference["plan"], reference["workdir"]
+    workdir = tmp_path / "w"
+    rng = random.Random(SEED)
+    # Kill moments: uniform in (0.15, 1) x 30 % of an uninterrupted run, scaled by
+    # the share of work left (missing points + 1 for gather/tables/figures), so
+    # each killed run makes only part of the progress and all five kills land
+    # mid-study, from Snakemake's start-up to the figures.
+    kills, finished_early, seen_tmp = 0, 0, 0
+    moments = []
+    total = len(plan.points)
+    for attempt in range(5):
+        if attempt:
+            smk(workdir, study, "--unlock")
+        missing = sum(not (workdir / f).exists() for f in plan.point_files())
+        at = rng.uniform(0.15, 1.0) * 0.3 * reference["elapsed"] * (missing + 1) / (total + 1)
+        proc = start_workflow(workdir, study, tmp_path / f"run{attempt}.log", "--rerun-incomplete")
+        try:
+            proc.wait(timeout=at)
+        except subprocess.TimeoutExpired:
+            pass
+        if proc.poll() is None:
+            kill_tree(proc)
+            kills += 1
+            moments.append(round(at, 2))
+        else:
+            finished_early += 1
+        # Invariants right after the kill: every file under a final name is complete.
+        finals, hidden, other = point_folder_files(workdir)
+        assert not other, other
+        for f in finals:
+            check_complete(f)
+        seen_tmp += sum(f.name.endswith(".tmp") for f in hidden)
+        sweep = workdir / plan.sweep_file
+        if sweep.exists():
+            with xr.open_dataset(sweep, group="plane_channel") as ds:
+                ds.load()
+    smk(workdir, study, "--unlock")
+    smk(workdir, study, "--rerun-incomplete")
+
+    finals, hidden, other = point_folder_files(workdir)
+    expected = sorted(workdir / f for f in plan.point_files())
+    assert finals == expected, "every point present exactly once, nothing else"
+    assert not other
+    lost = 0
+    for f in plan.point_files():
+        if check_complete(workdir / f) != "converged":
+            lost += 1
+        diffs = same_point_content(workdir / f, ref / f)
+        assert not diffs, (f, diffs)
+    with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as a, \
+            xr.open_dataset(ref / plan.sweep_file, group="plane_channel") as b:
+        for name in ("G_P", "Q_P", "status", "iterations", "code_version"):
+            assert (a[name].values == b[name].values).all(), name
+    for table in plan.table_files():
+        assert (workdir / table).read_bytes() == (ref / table).read_bytes(), table
+    report(capsys, f"kill/resume: {kills} SIGKILLs survived at {moments} s "
+                   f"({finished_early} runs ended before their kill), {lost} points lost, "
+                   f"{seen_tmp} writer temporaries seen after kills (hidden, never read)")
+    assert kills == 5 and lost == 0
+
+
+def _copy(reference, dest: Path) -> Path:
+    shutil.copytree(reference["workdir"], dest, symlinks=True)
+    return dest
+
+
+def _older(path: Path, version: str = "0.0.1") -> None:
+    """Rewrite a point file as if an older solver version had computed it."""
+    result = read_result(path)
+    with xr.open_dataset(path) as ds:
+        attrs = dict(ds.attrs)
+    provenance = {k: v for k, v in attrs.items() if k in ("config_hash", "point_id", "point_values")}
+    provenance["code_version"] = version
+    write_result(result, path, provenance)
+
+
+def test_corrupt_and_outdated_points_are_detected_and_only_they_recomputed(reference, tmp_path, capsys):
+    study, plan = reference["study"], reference["plan"]
+    workdir = _copy(reference, tmp_path / "w")
+    rng = random.Random(SEED + 1)
+    files = [workdir / f for f in plan.point_files()]
+    victims = rng.sample(files, 4)
+    corrupt, outdated = victims[:3], victims[3]
+    for i, f in enumerate(corrupt):
+        data = f.read_bytes()
+        if i == 0:
+            f.write_bytes(data[: len(data) // 2])  # truncated
+        elif i == 1:
+            f.write_bytes(rng.randbytes(len(data)))  # random bytes, same size
+        else:
+            f.write_bytes(data[:8] + rng.randbytes(len(data) - 8))  # valid magic, garbage body
+    _older(outdated)
+    before = {f: f.stat().st_mtime_ns for f in files if f not in victims}
+
+    # knudsweep status sees all four before any run
+    rows = {r.path: r for r in study_status(plan, workdir)}
+    assert {p for p, r in rows.items() if r.state == "corrupt"} == {str(f) for f in corrupt}
+    assert [p for p, r in rows.items() if r.outdated] == [str(outdated)]
+    assert main(["status", str(study), "--directory", str(workdir), "--requeue-outdated"]) == 0
+    out = capsys.readouterr().out
+    assert f"removed {outdated} (older solver version" in out
+    assert not outdated.exists() and all(f.exists() for f in corrupt)
+
+    assert not (workdir / plan.sweep_file).exists()  # removed with the requeue: it must be rebuilt
+    # run 1: recomputes only the outdated point; gather finds the corrupt files, moves them
+    # aside and fails, so the sweep is rebuilt (and they are recomputed) on the next run
+    r = smk(workdir, study, "--keep-going", check=False)
+    out = r.stdout + r.stderr
+    assert r.returncode != 0 and job_counts(out).get("solve") == 1
+    gather_log = (workdir / "logs" / plan.name / "gather.log").read_text()
+    detected = [f for f in corrupt if f"corrupt point file {f.relative_to(workdir)} (" in gather_log]
+    assert "3 corrupt point file(s) moved aside; run the workflow again" in gather_log
+    assert all(Path(f"{f}.corrupt").exists() and not f.exists() for f in corrupt)
+    # provenance: the recomputed point carries the current solver version
+    with xr.open_dataset(outdated) as ds:
+        assert ds.attrs["code_version"] == _version()
+    # run 2: recomputes exactly the corrupt ones
+    r = smk(workdir, study)
+    assert job_counts(r.stdout + r.stderr).get("solve") == len(corrupt)
+    with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
+        assert (ds["status"] == "converged").all()
+        # provenance: every gathered point names the solver version that computed it
+        assert set(ds["code_version"].values.ravel()) == {_version()}
+    for f in files:
+        assert check_complete(f) == "converged"
+        assert not same_point_content(f, reference["workdir"] / f.relative_to(workdir))
+    assert {f: f.stat().st_mtime_ns for f in before} == before  # the others were not touched
+    report(capsys, f"corruption: {len(corrupt)} corrupt files injected, {len(detected)} detected at "
+                   f"gather by path, {len(corrupt)} recomputed; 1 outdated point flagged and recomputed alone")
+    assert len(detected) == len(corrupt)
+
+
+def _version():
+    from solver import __version__
+
+    return __version__
+
+
+def _mount_tmpfs(folder: Path, size: str) -> bool:
+    folder.mkdir(parents=True, exist_ok=True)
+    try:
+        r = subprocess.run(["mount", "-t", "tmpfs", "-o", f"size={size}", "tmpfs", str(folder)],
+                           capture_output=True, text=True, timeout=30)
+    except (OSError, subprocess.TimeoutExpired):
+        return False
+    return r.returncode == 0
+
+
+def test_full_disk_fails_only_that_point_cleanly_and_it_is_retried(reference, tmp_path, capsys, monkeypatch):
+    """Two write faults in one run: a real ENOSPC on a 16 KiB tmpfs mounted on one point's
+    folder (skipped where mount is not allowed), and an injected file-size limit
+    (RLIMIT_FSIZE via KNUDSWEEP_FAULT_WRITE_LIMIT) on another point: its write fails
+    with EFBIG on the same code path."""
+    workdir = _copy(reference, tmp_path / "w")
+    ref_plan = reference["plan"]
+    kept = {f: (workdir / f).stat().st_mtime_ns for f in ref_plan.point_files()}
+    study = write_study(tmp_path / "disk.yaml", study="disk", plane_channel__delta=[1.0],
+                        plane_channel__models=["bgk", "s_model"],
+                        plane_channel__walls=[{"model": "maxwell", "alpha": 1.0},
+                                              {"model": "maxwell", "alpha": 0.5}])
+    plan = StudyPlan(load_study(study))
+    on_tmpfs = next(p for p in plan.points if "model=bgk/wall=maxwell-alpha=0.5" in p)
+    limited = next(p for p in plan.points if "model=s_model/wall=maxwell-alpha=0.5" in p)
+    # 16 KiB: a point file of this study is about 28 KB
+    mounted_dir = (workdir / plan.point_file(on_tmpfs)).parent
+    mounted = _mount_tmpfs(mounted_dir, "16k")
+    victims = [limited] + ([on_tmpfs] if mounted else [])
+    monkeypatch.setenv(FAULT_WRITE_LIMIT_ENV, f"16384@{limited}")
+    try:
+        r = smk(workdir, study, plan.sweep_file, "--keep-going", check=False)
+        assert r.returncode != 0, "a failed write must fail its job"
+        for v in victims:
+            final = workdir / plan.point_file(v)
+            assert not final.exists(), "no file under the final name"
+            assert not [f for f in final.parent.iterdir() if f.name.endswith(".tmp")], "no temporary left"
+            log = (workdir / "logs" / "points" / f"{v}.log").read_text()
+            assert f"could not write point file {plan.point_file(v)}" in log
+            assert "bytes free in" in log and "computes this point again" in log
+        for p in plan.points:  # every other point, new or old, is complete
+            if p not in victims:
+                assert check_complete(workdir / plan.point_file(p)) == "converged"
+    finally:
+        if mounted:
+            subprocess.run(["umount", str(mounted_dir)], check=True, timeout=30)
+    monkeypatch.delenv(FAULT_WRITE_LIMIT_ENV)
+    assert {f: (workdir / f).stat().st_mtime_ns for f in kept} == kept  # nothing else lost or rewritten
+    r = smk(workdir, study, plan.sweep_file)
+    # after the unmount the tmpfs point's folder is the (empty) folder underneath
+    assert job_counts(r.stdout + r.stderr).get("solve") == len(victims)
+    for p in plan.points:
+        assert check_complete(workdir / plan.point_file(p)) == "converged"
+    report(capsys, f"disk full: {len(victims)} write faults injected "
+                   f"({'ENOSPC on tmpfs + ' if mounted else 'no tmpfs (mount refused); '}EFBIG by RLIMIT_FSIZE), "
+                   f"{len(victims)} survived: failed cleanly, retried on the next run; "
+                   f"{len(kept)} earlier points untouched")
