@@ -259,43 +259,69 @@ class Relaxation(Family):
         return out
 
     def figures(self, ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
-        from knudsweep.figures import new_figure
+        import matplotlib.pyplot as plt
+
+        from knudsweep.figures import STYLE
 
         series = self._series(ds, section)
+        gases = list(section["gases"])
         figs = {}
+
+        def panels():
+            # One panel per gas, side by side, sharing the axes.
+            with plt.rc_context(STYLE):
+                fig, axes = plt.subplots(1, len(gases), figsize=(settings["width"] * (0.55 + 0.45 * len(gases)),
+                                                                   settings["height"]),
+                                         sharey=True, squeeze=False, layout="constrained")
+            return fig, dict(zip(gases, axes[0]))
+
         for st in section["initial_states"]:
-            fig, ax = new_figure(settings)
             curves = series.get(st, [])
-            for c in curves:
-                if c["method"] == "dsmc":
-                    line = ax.plot(c["time"], c["h"], lw=1.2, label=c["label"])[0]
-                    ax.fill_between(c["time"], c["h"] - c["h_std"], c["h"] + c["h_std"],
-                                    color=line.get_color(), alpha=0.25, lw=0)
-                else:
-                    ax.plot(c["time"], c["h"], lw=1.5, ls="--", label=c["label"])
-            ax.set_xlabel("time [mean collision times]")
-            ax.set_ylabel("relative H-function (binned) [1]")
-            ax.set_title(f"H-function, initial state {st}")
-            _finish(ax, curves)
-            figs[f"relaxation_h_{st}"] = fig
-            if st in ("anisotropic", "two_beams"):
-                fig, ax = new_figure(settings)
-                for c in curves:
-                    a = np.abs(c["aniso"])
-                    line = ax.semilogy(c["time"], np.where(a > 0, a, np.nan), lw=1.2, label=c["label"])[0]
+            fig, axes = panels()
+            for gas, ax in axes.items():
+                mine = [c for c in curves if c["gas"] == gas]
+                for c in mine:
                     if c["method"] == "dsmc":
-                        lo = np.clip(c["aniso"] - c["aniso_std"], 1e-12, None)
-                        ax.fill_between(c["time"], lo, c["aniso"] + c["aniso_std"], color=line.get_color(),
-                                        alpha=0.2, lw=0)
-                    tau = c["tau"]
-                    if np.isfinite(tau) and tau > 0:
-                        ax.semilogy(c["time"], abs(c["aniso"][0]) * np.exp(-c["time"] / tau), ls=":",
-                                    color=line.get_color(), lw=1.0, label=f"fit tau = {tau:.3g} tau_c")
+                        line = ax.plot(c["time"], c["h"], lw=1.2, label=f"{c['short']} (band: replica sd)")[0]
+                        ax.fill_between(c["time"], c["h"] - c["h_std"], c["h"] + c["h_std"],
+                                        color=line.get_color(), alpha=0.25, lw=0)
+                    else:
+                        ax.plot(c["time"], c["h"], lw=1.4, ls="--", label=c["short"])
+                # Linear near zero, logarithmic above: shows both the decay over
+                # decades and the late-time fluctuation inside the noise band.
+                ax.set_yscale("symlog", linthresh=1e-4)
                 ax.set_xlabel("time [mean collision times]")
-                ax.set_ylabel("|anisotropy of T_ij| / T [1]")
-                ax.set_title(f"Anisotropy decay, initial state {st}")
-                _finish(ax, curves)
-                figs[f"relaxation_anisotropy_{st}"] = fig
+                ax.set_title(f"{gas}, initial state {st}", fontsize="medium")
+                _finish(ax, mine)
+            next(iter(axes.values())).set_ylabel("relative H-function (binned) [1], symlog")
+            figs[f"relaxation_h_{st}"] = fig
+            if st not in ("anisotropic", "two_beams"):
+                continue
+            fig, axes = panels()
+            for gas, ax in axes.items():
+                mine = [c for c in curves if c["gas"] == gas]
+                a0 = max((abs(float(c["aniso"][0])) for c in mine), default=1.0)
+                floor = 1e-3 * a0  # below this the particle curves are noise
+                for c in mine:
+                    a = np.abs(c["aniso"])
+                    tau = c["tau"]
+                    fit = f", fit tau = {tau:.3g} tau_c" if np.isfinite(tau) and tau > 0 else ""
+                    style = "-" if c["method"] == "dsmc" else "--"
+                    line = ax.semilogy(c["time"], np.where(a > floor, a, np.nan), ls=style, lw=1.2,
+                                       label=c["short"] + fit)[0]
+                    if c["method"] == "dsmc":
+                        lo = np.clip(a - c["aniso_std"], floor, None)
+                        ax.fill_between(c["time"], lo, np.maximum(a + c["aniso_std"], floor),
+                                        color=line.get_color(), alpha=0.2, lw=0)
+                    if fit:
+                        ax.semilogy(c["time"], abs(c["aniso"][0]) * np.exp(-c["time"] / tau), ls=":",
+                                    color=line.get_color(), lw=1.0)
+                ax.set_ylim(floor, 2.0 * a0)
+                ax.set_xlabel("time [mean collision times]")
+                ax.set_title(f"{gas}, initial state {st} (dotted: fitted exp(-t/tau))", fontsize="medium")
+                _finish(ax, mine)
+            next(iter(axes.values())).set_ylabel("|anisotropy of T_ij| / T [1]")
+            figs[f"relaxation_anisotropy_{st}"] = fig
         return figs
 
     def _series(self, ds, section: dict[str, Any]) -> dict[str, list[dict]]:
@@ -318,7 +344,8 @@ class Relaxation(Family):
                 get = {k: np.asarray(sel[k].values, dtype=float) for k in
                        ("h_function", "h_function_std", "anisotropy", "anisotropy_std")}
                 get["time"] = np.asarray(ds["time"].values, dtype=float)
-                tau = float(sel["anisotropy_relaxation_time"].values)
+                tau = (float(sel["anisotropy_relaxation_time"].values)
+                       if "anisotropy_relaxation_time" in sel else float("nan"))
             else:
                 path = f"results/points/{pt.pid}.nc"
                 if not os.path.exists(path):
@@ -329,9 +356,11 @@ class Relaxation(Family):
                 get = {k: res.profiles[k].value for k in ("h_function", "h_function_std", "anisotropy",
                                                           "anisotropy_std")}
                 get["time"] = res.coords["time"].value
-                tau = res.coefficient("anisotropy_relaxation_time")
+                q = res.coefficients.get("anisotropy_relaxation_time")
+                tau = float(q.value) if q is not None else float("nan")
             out.setdefault(ix["initial_state"], []).append({
-                "method": pt.values["method"], "label": label, "time": get["time"], "h": get["h_function"],
+                "method": pt.values["method"], "label": label, "gas": ix["gas"],
+                "short": f"{ix['molecular_model']} {ix['solver']}", "time": get["time"], "h": get["h_function"],
                 "h_std": get["h_function_std"], "aniso": get["anisotropy"], "aniso_std": get["anisotropy_std"],
                 "tau": tau,
             })
@@ -340,7 +369,7 @@ class Relaxation(Family):
 
 def _finish(ax, curves) -> None:
     if curves:
-        ax.legend()
+        ax.legend(fontsize="x-small")
     else:
         ax.text(0.5, 0.5, "no data", transform=ax.transAxes, ha="center", va="center")
 
