@@ -119,6 +119,21 @@ class Family:
         return {}
 
 
+def check_axis_choice(section: dict[str, Any]) -> str:
+    """Exactly one of ``delta`` and ``kn`` must be given; returns the one that is."""
+    has_delta, has_kn = "delta" in section, "kn" in section
+    if has_delta == has_kn:
+        raise ValueError("delta: give exactly one of 'delta' and 'kn' (both positive axes)")
+    return "delta" if has_delta else "kn"
+
+
+def reject_repeats(key: str, labels: list[str]) -> None:
+    """ValueError naming ``key[i]`` when a label repeats an earlier one."""
+    for i, label in enumerate(labels):
+        if label in labels[:i]:
+            raise ValueError(f"{key}[{i}]: repeats {key}[{labels.index(label)}] ({label})")
+
+
 def get_family(name: str) -> Family:
     """The registered family ``name`` (ValueError lists the known ones)."""
     if name not in REGISTRY:

@@ -28,7 +28,7 @@ import math
 from typing import Any
 
 from knudsweep.config import axis_values
-from knudsweep.families import Family, Point
+from knudsweep.families import Family, Point, check_axis_choice, reject_repeats
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
 
 PROBLEMS = ("poiseuille", "thermal_creep", "couette", "heat_transfer")
@@ -123,13 +123,9 @@ class PlaneChannel(Family):
     name = "plane_channel"
 
     def check_section(self, section: dict[str, Any]) -> None:
-        has_delta, has_kn = "delta" in section, "kn" in section
-        if has_delta == has_kn:
-            raise ValueError("delta: give exactly one of 'delta' and 'kn' (both positive axes)")
-        labels = [label for label, _, _ in wall_settings(section)]
-        for i, label in enumerate(labels):
-            if label in labels[:i]:
-                raise ValueError(f"walls[{i}]: repeats walls[{labels.index(label)}] ({label})")
+        axis = check_axis_choice(section)
+        has_delta = axis == "delta"
+        reject_repeats("walls", [label for label, _, _ in wall_settings(section)])
         res = section.get("resolution", {})
         if res.get("accuracy") is not None and (res.get("n_space") is not None or res.get("n_velocity") is not None):
             raise ValueError("resolution.accuracy: give either an accuracy target or n_space/n_velocity, not both "
@@ -147,7 +143,6 @@ class PlaneChannel(Family):
                 raise ValueError(f"resolution.{key}: got {value}; allowed range is [{vmin}, {vmax}] or null")
         if res.get("tol") is not None and not 1e-14 <= res["tol"] <= 0.01:
             raise ValueError(f"resolution.tol: got {res['tol']}; allowed range is [1e-14, 0.01]")
-        axis = "delta" if has_delta else "kn"
         for d in delta_values(section):
             if not lo <= d <= hi:
                 bounds = (f"[{lo:g}, {hi:g}]" if has_delta

@@ -33,7 +33,7 @@ from typing import Any
 import numpy as np
 
 from knudsweep.config import axis_values
-from knudsweep.families import Family, Point, Table
+from knudsweep.families import Family, Point, Table, check_axis_choice, reject_repeats
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
 
 PROBLEMS = ("poiseuille", "thermal_creep")
@@ -192,18 +192,9 @@ class TubeDuct(Family):
         from solver.duct import MAX_DELTA as DUCT_MAX
         from solver.tube import MAX_DELTA as TUBE_MAX
 
-        has_delta, has_kn = "delta" in section, "kn" in section
-        if has_delta == has_kn:
-            raise ValueError("delta: give exactly one of 'delta' and 'kn' (both positive axes)")
-        geos = [label for label, _, _ in geometry_settings(section)]
-        for i, label in enumerate(geos):
-            if label in geos[:i]:
-                raise ValueError(f"geometries[{i}]: repeats geometries[{geos.index(label)}] ({label})")
-        labels = [label for label, _ in wall_settings(section)]
-        for i, label in enumerate(labels):
-            if label in labels[:i]:
-                raise ValueError(f"walls[{i}]: repeats walls[{labels.index(label)}] ({label})")
-        axis = "delta" if has_delta else "kn"
+        axis = check_axis_choice(section)
+        reject_repeats("geometries", [label for label, _, _ in geometry_settings(section)])
+        reject_repeats("walls", [label for label, _ in wall_settings(section)])
         deltas = delta_values(section)
         if len(set(deltas)) != len(deltas):
             raise ValueError(f"{axis}: values repeat after rounding to 6 significant digits")
