@@ -56,6 +56,9 @@ from scipy.sparse.linalg import splu
 from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
 from solver.tube import (
     check_common,
+    check_estimate_options,
+    nested_ladder,
+    solve_with_estimate,
     heat_coefficient,
     inplane_cl_kernel,
     source_polynomials,
@@ -71,6 +74,7 @@ __all__ = [
     "slip_flow_rate",
     "MAX_ASPECT_RATIO",
     "MAX_DELTA",
+    "resolution_ladder",
 ]
 
 MAX_ASPECT_RATIO = 50.0
@@ -530,6 +534,39 @@ def default_sizes(delta: float, aspect_ratio: float) -> tuple[int, int, int, int
     return ny, nz, 6, 12
 
 
+# Error reduction per ladder step assumed by the Richardson estimate
+# (solver.resolution).  Measured (A = 2, BGK, diffuse, delta = 1, G_P) on
+# 7 -> 13 -> 25 -> 49 -> 97 nodes: 2.7 to 3.3 per step (second-order upwind,
+# first order next to the walls; the speed error, ~6e-4 of G_P at 12 speeds,
+# falls more slowly).
+DUCT_ASSUMED_RATIO = 3.0
+# Cap of the accuracy ladder: unknowns 4 n_angle n_speed n_y n_z of one
+# distribution array (four such float arrays are kept: 1.2e7 -> ~400 MB).
+DUCT_MAX_UNKNOWNS = 12_000_000
+
+
+def _duct_sizes(n_space, n_velocity, aspect_ratio):
+    """(n_y, n_z, n_angle, n_speed) for given nodes across the half height and speeds."""
+    nz = int(round(n_space * (1.0 + 0.5 * math.log2(aspect_ratio))))
+    return n_space, nz, max(n_velocity // 2, 2), n_velocity
+
+
+def resolution_ladder(delta: float, aspect_ratio: float) -> list[tuple[int, int]]:
+    """(n_space, n_velocity) tried for an accuracy target in the duct, coarse to fine.
+
+    Through the default of :func:`default_sizes` (25 nodes: 7, 13, 25, 49, 97),
+    halving / doubling the intervals across the half height, speeds 12 (4/3)^k;
+    capped by DUCT_MAX_UNKNOWNS.
+    """
+    ny, _, _, nc = default_sizes(float(delta), float(aspect_ratio))
+
+    def fits(n, v):
+        a, b, na, nv = _duct_sizes(n, v, float(aspect_ratio))
+        return n <= 400 and 4 * na * nv * a * b <= DUCT_MAX_UNKNOWNS
+
+    return nested_ladder(ny, nc, 5, fits)
+
+
 def solve_duct(
     problem: str,
     *,
@@ -542,6 +579,8 @@ def solve_duct(
     max_iter: int | None = None,
     tol: float = 1e-8,
     accelerate: bool = True,
+    accuracy: float | None = None,
+    error_estimate: bool = True,
 ) -> SolverResult:
     """Solve Poiseuille or thermal-creep flow in a long rectangular duct; see the module docstring.
 
@@ -550,28 +589,52 @@ def solve_duct(
     n_space : nodes across the half height (the half width gets
               n_space (1 + log2(A)/2)); n_velocity : speed nodes (angles per
               quadrant = n_velocity / 2).
-    Returns a SolverResult (family "duct") with G_P, Q_P or G_T, Q_T per unit width.
+    accuracy : relative accuracy asked of G and Q, in [1e-6, 0.1]; the
+              resolution then climbs :func:`resolution_ladder` until the
+              Richardson estimate (solver.resolution) is below it (n_space,
+              n_velocity must be None; iteration tol min(tol, accuracy/100)).
+              Not reached on the finest level: status "failed" with the reason.
+    error_estimate : without accuracy, also solve at one coarser step (half
+              the intervals, 3/4 of the speeds; ~30-40 % extra work, measured) and
+              report the estimate.
+    Returns a SolverResult (family "duct") with G_P, Q_P or G_T, Q_T per unit
+    width and "<name>_error_estimate" (absolute, same units; NaN if not
+    estimated); discretization records the estimate and how it was obtained.
     """
     t_start = time.perf_counter()
     km = check_common(problem, delta, model, wall, tol, max_iter, "duct", MAX_DELTA)
-    alpha = tangential_accommodation(wall)
     a_r = float(aspect_ratio)
     if not (math.isfinite(a_r) and 1.0 <= a_r <= MAX_ASPECT_RATIO):
         raise ValueError(f"aspect_ratio: must be in [1, {MAX_ASPECT_RATIO:g}], got {aspect_ratio!r}")
+    accuracy = check_estimate_options(accuracy, error_estimate, n_space, n_velocity)
     delta = float(delta)
-    ny, nz, na, nc = default_sizes(delta, a_r)
+    ny, _, _, nc = default_sizes(delta, a_r)
     if n_space is not None:
         if isinstance(n_space, bool) or int(n_space) != n_space or not 5 <= int(n_space) <= 400:
             raise ValueError(f"n_space: must be an integer in [5, 400], got {n_space!r}")
         ny = int(n_space)
-        nz = int(round(ny * (1.0 + 0.5 * math.log2(a_r))))
     if n_velocity is not None:
         if isinstance(n_velocity, bool) or int(n_velocity) != n_velocity or not 4 <= int(n_velocity) <= 128:
             raise ValueError(f"n_velocity: must be an integer in [4, 128], got {n_velocity!r}")
         nc = int(n_velocity)
-        na = max(nc // 2, 2)
     if max_iter is None:
         max_iter = 400 if accelerate else 200000
+
+    def run(n, v, it_tol):
+        return _solve_duct_once(problem, delta, a_r, km, wall, n, v, int(max_iter), float(it_tol), accelerate)
+
+    return solve_with_estimate(
+        run, ny, nc, tol=float(tol), accuracy=accuracy, error_estimate=error_estimate,
+        ladder=resolution_ladder(delta, a_r) if accuracy is not None else None,
+        assumed_ratio=DUCT_ASSUMED_RATIO, t_start=t_start,
+    )
+
+
+def _solve_duct_once(problem, delta, a_r, km, wall, n_space, n_velocity, max_iter, tol, accelerate) -> SolverResult:
+    """One solve at a fixed resolution (inputs already checked)."""
+    t_start = time.perf_counter()
+    alpha = tangential_accommodation(wall)
+    ny, nz, na, nc = _duct_sizes(n_space, n_velocity, a_r)
 
     y = _clustered(ny, 0.5, delta)
     z = _clustered(nz, 0.5 * a_r, delta)
@@ -669,6 +732,8 @@ def solve_duct(
         "accelerate": bool(accelerate),
     }
     disc = {
+        "n_space": ny,
+        "n_velocity": int(n_velocity),
         "n_y_half": ny,
         "n_z_half": nz,
         "n_angle_quadrant": na,

@@ -73,10 +73,11 @@ from scipy.special import i0e
 
 from solver.kinetic_models import get_model
 from solver.quadrature import graded_half_range, half_range_hermite
+from solver.resolution import ResolutionChoice, check_accuracy, choose_resolution, estimate_error, relative_error
 from solver.result import FAILED, CONVERGED, ConvergenceRecord, Quantity, SolverResult
 from solver.walls import CercignaniLampisWall, MaxwellWall
 
-__all__ = ["solve_tube", "PROBLEMS", "TubeGrid"]
+__all__ = ["solve_tube", "PROBLEMS", "TubeGrid", "resolution_ladder"]
 
 PROBLEMS = ("poiseuille", "thermal_creep")
 MAX_DELTA = 1.0e3  # tube thermal creep: G_T delta 0.776 at 1e3 but 0.830 at 3e3 on the default grid; Poiseuille diverged at 1e4
@@ -84,6 +85,7 @@ MAX_DELTA = 1.0e3  # tube thermal creep: G_T delta 0.776 at 1e3 but 0.830 at 3e3
 # acceleration step (the converged answer does not depend on it): BGK value
 # 1.0162 in units of mu v0 / p (check-values section 2, from memory).
 _ACCEL_SLIP = 1.0162
+_CL_BLOCK = 2_000_000  # kernel entries evaluated per block in _TubeCLWall (bounds temporary memory)
 
 
 # --------------------------------------------------------------------------
@@ -557,8 +559,16 @@ class _TubeCLWall:
         nw = cn_in.size
 
         def kernel(cn_out, ct_out):
-            k, d = inplane_cl_kernel(cn_out, ct_out, cn_in2, ct_in2, w_in2, wall.alpha_t, wall.alpha_n)
-            return k[:, :nw] + k[:, nw:], d
+            # in row blocks: the temporaries of inplane_cl_kernel are 2 nw wide,
+            # so building all rows at once needs several times the final matrix
+            out = np.empty((cn_out.size, nw))
+            defect = 0.0
+            step = max(1, _CL_BLOCK // (2 * nw))
+            for a in range(0, cn_out.size, step):
+                k, d = inplane_cl_kernel(cn_out[a:a + step], ct_out[a:a + step], cn_in2, ct_in2, w_in2, wall.alpha_t, wall.alpha_n)
+                out[a:a + step] = k[:, :nw] + k[:, nw:]
+                defect = max(defect, d)
+            return out, defect
 
         # wall nodes: outgoing at angle theta_m to the inward normal
         k_wall, d1 = kernel(cn_in, ctan)
@@ -614,6 +624,165 @@ def _sizes(n_space, n_velocity, delta):
     return ns, na, nc
 
 
+# --------------------------------------------------------------------------
+# discretization error estimate and accuracy target (shared with the duct solver)
+# --------------------------------------------------------------------------
+# Error reduction per ladder step assumed by the Richardson estimate
+# (solver.resolution).  Measured for the tube, BGK, diffuse wall, G_P and Q_P at
+# delta = 0.1 and 10 on (21, 12) -> (41, 16) -> (81, 32): 11 to 12 per step
+# (space error dominates; long characteristics with a cubic source).  6 keeps
+# the estimate about twice the actual error, on the safe side.
+TUBE_ASSUMED_RATIO = 6.0
+# Cap of the accuracy ladder: entries of the ray tables 2 n_r n_angle (6 n_r + 13)
+# (six float/int tables of this size, ~50 bytes per entry); (81, 21) has 2.6e6,
+# (121, 21) 5.7e6, (161, 28) 1.3e7 (over 600 MB) is left out.
+TUBE_MAX_RAY_ENTRIES = 6_000_000
+
+
+def coarser_level(n_space: int, n_velocity: int) -> tuple[int, int]:
+    """One ladder step down: half the spatial intervals, 3/4 of the speed nodes (at least 5 and 4)."""
+    return max(5, (n_space - 1) // 2 + 1), max(4, int(round(0.75 * n_velocity)))
+
+
+def nested_ladder(n_default: int, v_default: int, n_min: int, fits) -> list[tuple[int, int]]:
+    """Levels (n_space, n_velocity), coarse to fine, through the default (n_default, v_default).
+
+    n_space - 1 (the number of intervals) halves per step down while it stays
+    even and n_space >= n_min, and doubles per step up while ``fits(ns, nv)``;
+    n_velocity = v_default (4/3)^k at step k from the default (at least 4).
+    """
+    spans, down = n_default - 1, 0
+    while spans % 2 == 0 and spans // 2 + 1 >= n_min:
+        spans //= 2
+        down += 1
+    levels = []
+    k = -down
+    while True:
+        ns = spans * 2 ** (k + down) + 1
+        nv = max(4, int(round(v_default * (4.0 / 3.0) ** k)))
+        if not fits(ns, nv):
+            return levels
+        levels.append((ns, nv))
+        k += 1
+
+
+def resolution_ladder(delta: float) -> list[tuple[int, int]]:
+    """(n_space, n_velocity) tried for an accuracy target in the tube, coarse to fine.
+
+    Nested radial grids through the default (41 nodes: 6, 11, 21, 41, 81;
+    61 nodes for delta > 100: 16, 31, 61, 121), speeds 16 (4/3)^k; capped by
+    TUBE_MAX_RAY_ENTRIES.
+    """
+    ns, _, nv = default_sizes(float(delta))
+
+    def fits(n, v):
+        na = _sizes(n, v, delta)[1]
+        return 2 * n * na * (6 * n + 13) <= TUBE_MAX_RAY_ENTRIES
+
+    return nested_ladder(ns, nv, 6, fits)
+
+
+class _LevelFailed(Exception):
+    def __init__(self, result: SolverResult):
+        super().__init__(result.convergence.reason)
+        self.result = result
+
+
+def _values(res: SolverResult) -> dict[str, float]:
+    return {k: float(q.value) for k, q in res.coefficients.items() if not k.endswith("_error_estimate")}
+
+
+def attach_estimate(res: SolverResult, choice: ResolutionChoice | None, how: str) -> None:
+    """Add "<name>_error_estimate" coefficients (NaN if ``choice`` is None) and the record to ``res``."""
+    for name in list(_values(res)):
+        err = choice.error_estimate[name] if choice is not None else float("nan")
+        res.coefficients[f"{name}_error_estimate"] = Quantity(
+            err, res.coefficients[name].units, f"estimated absolute discretization error of {name}"
+        )
+    if choice is not None:
+        res.discretization.update(choice.record())
+    else:
+        res.discretization["relative_error_estimate"] = float("nan")
+    res.discretization["error_estimate_source"] = how
+
+
+def solve_with_estimate(run, n_space, n_velocity, *, tol, accuracy, error_estimate, ladder, assumed_ratio, t_start):
+    """Shared driver of the tube and duct solvers: one solve plus an estimate, or an accuracy target.
+
+    run(n_space, n_velocity, tol) -> SolverResult at a fixed resolution.
+    Without accuracy: solve at (n_space, n_velocity) and, if error_estimate,
+    once more at coarser_level(...) for the Richardson estimate
+    (solver.resolution.estimate_error).  With accuracy: climb ``ladder`` with
+    the iteration tolerance min(tol, accuracy / 100) until the estimate is
+    below the target (solver.resolution.choose_resolution); not reached on the
+    finest level -> status "failed" with the reason.
+    """
+    if accuracy is None:
+        res = run(n_space, n_velocity, tol)
+        if error_estimate and res.status == CONVERGED:
+            level = coarser_level(n_space, n_velocity)
+            coarse = run(*level, tol)
+            if coarse.status == CONVERGED:
+                fine_v = _values(res)
+                errors, ratio = estimate_error(fine_v, _values(coarse), assumed_ratio=assumed_ratio)
+                choice = ResolutionChoice(
+                    n_space, n_velocity, fine_v, errors, relative_error(fine_v, errors), ratio,
+                    levels=[level, (n_space, n_velocity)],
+                )
+                attach_estimate(res, choice, "one coarser step (half the spatial intervals, 3/4 of the speed nodes)")
+                missing = [what for what, a, b in (("spatial", level[0], n_space), ("velocity", level[1], n_velocity)) if a == b]
+                if missing:
+                    res.discretization["error_estimate_note"] = f"no coarser {' or '.join(missing)} grid: its error is not included"
+            else:
+                attach_estimate(res, None, f"coarse solve failed: {coarse.convergence.reason}")
+        else:
+            attach_estimate(res, None, "not requested" if not error_estimate else "solve failed")
+        res.wall_time = time.perf_counter() - t_start
+        return res
+
+    it_tol = min(tol, 0.01 * accuracy)
+    solved: dict[tuple[int, int], SolverResult] = {}
+
+    def solve_level(ns: int, nv: int) -> dict[str, float]:
+        r = run(ns, nv, it_tol)
+        solved[(ns, nv)] = r
+        if r.status != CONVERGED:
+            raise _LevelFailed(r)
+        return _values(r)
+
+    try:
+        choice = choose_resolution(solve_level, accuracy, ladder, assumed_ratio=assumed_ratio)
+    except _LevelFailed as exc:
+        res = exc.result
+        ns, nv = list(solved)[-1]
+        res.convergence.reason = f"at n_space={ns}, n_velocity={nv}: {res.convergence.reason}"
+        attach_estimate(res, None, "a solve of the accuracy-driven refinement failed")
+        res.discretization["accuracy_target"] = accuracy
+        res.discretization["accuracy_met"] = False
+        res.discretization["resolutions_solved"] = [list(k) for k in solved]
+        res.wall_time = time.perf_counter() - t_start
+        return res
+    res = solved[(choice.n_space, choice.n_velocity)]
+    attach_estimate(res, choice, "accuracy-driven refinement along the resolution ladder")
+    if not choice.met:
+        res.convergence.status = FAILED
+        res.convergence.reason = choice.reason
+    res.wall_time = time.perf_counter() - t_start
+    return res
+
+
+def check_estimate_options(accuracy, error_estimate, n_space, n_velocity):
+    """Checked accuracy (None or float); ValueError naming the field otherwise."""
+    accuracy = check_accuracy(accuracy)
+    if not isinstance(error_estimate, bool):
+        raise ValueError(f"error_estimate: must be True or False, got {error_estimate!r}")
+    if accuracy is not None:
+        for name, value in (("n_space", n_space), ("n_velocity", n_velocity)):
+            if value is not None:
+                raise ValueError(f"{name}: must be None when accuracy is given (the accuracy target chooses it), got {value!r}")
+    return accuracy
+
+
 def solve_tube(
     problem: str,
     *,
@@ -625,6 +794,8 @@ def solve_tube(
     max_iter: int | None = None,
     tol: float = 1e-8,
     accelerate: bool = True,
+    accuracy: float | None = None,
+    error_estimate: bool = True,
 ) -> SolverResult:
     """Solve Poiseuille or thermal-creep flow in a long tube; see the module docstring.
 
@@ -632,15 +803,41 @@ def solve_tube(
             (0 = free-molecular, one sweep).
     n_space : radial nodes; n_velocity : in-plane speed nodes (angles on the
             half circle = 1.5 n_velocity, even).
-    Returns a SolverResult (family "tube") with coefficients G_P, Q_P or G_T, Q_T.
+    accuracy : relative accuracy asked of G and Q, in [1e-6, 0.1]; the
+            resolution then climbs :func:`resolution_ladder` until the
+            Richardson estimate (solver.resolution) is below it (n_space,
+            n_velocity must be None; iteration tol min(tol, accuracy/100)).
+            Not reached on the finest level: status "failed" with the reason.
+    error_estimate : without accuracy, also solve at one coarser step (half
+            the radial intervals, 3/4 of the speeds; ~30-40 % extra work, measured)
+            and report the estimate.
+    Returns a SolverResult (family "tube") with coefficients G_P, Q_P or G_T,
+    Q_T and "<name>_error_estimate" (absolute, same units; NaN if not
+    estimated); discretization records the estimate and how it was obtained.
     """
     t_start = time.perf_counter()
     km = check_common(problem, delta, model, wall, tol, max_iter, "tube", MAX_DELTA)
-    alpha = tangential_accommodation(wall)
+    accuracy = check_estimate_options(accuracy, error_estimate, n_space, n_velocity)
     delta = float(delta)
-    ns, na, nc = _sizes(n_space, n_velocity, delta)
+    ns, _, nc = _sizes(n_space, n_velocity, delta)
     if max_iter is None:
         max_iter = 300 if accelerate else 200000
+
+    def run(n, v, it_tol):
+        return _solve_tube_once(problem, delta, km, wall, n, v, int(max_iter), float(it_tol), accelerate)
+
+    return solve_with_estimate(
+        run, ns, nc, tol=float(tol), accuracy=accuracy, error_estimate=error_estimate,
+        ladder=resolution_ladder(delta) if accuracy is not None else None,
+        assumed_ratio=TUBE_ASSUMED_RATIO, t_start=t_start,
+    )
+
+
+def _solve_tube_once(problem, delta, km, wall, n_space, n_velocity, max_iter, tol, accelerate) -> SolverResult:
+    """One solve at a fixed resolution (inputs already checked)."""
+    t_start = time.perf_counter()
+    alpha = tangential_accommodation(wall)
+    ns, na, nc = _sizes(n_space, n_velocity, delta)
     grid = TubeGrid(ns, na, nc, delta)
     nc = grid.c.size  # the graded speed rule (delta < 1) has its own node count
     nu_delta = km.collision_factor * delta
@@ -731,6 +928,8 @@ def solve_tube(
         "accelerate": bool(accelerate),
     }
     disc = {
+        "n_space": ns,
+        "n_velocity": int(n_velocity),
         "n_radial": ns,
         "n_angle_half_circle": na,
         "n_speed": nc,

@@ -31,7 +31,8 @@ first: its effective viscosity is wrong by a factor ~ tau/2 in thick cells.)
 F[..., i, 0] holds cell averages a, F[..., i, 1] the slopes b.
 
 Iteration: source iteration (kinetic sweep, then moment update), optionally
-with a synthetic-acceleration correction of the moments.
+with a synthetic-acceleration correction of the moments; the accelerated
+iteration also couples the two walls exactly within each sweep.
 """
 
 from __future__ import annotations
@@ -165,6 +166,62 @@ def transport_sweep(F, S, g, A11, A12, A21, A22, R_low, R_up, Fw_low, Fw_up, bva
             F[a, 0, k, i, 0] = av
             F[a, 0, k, i, 1] = sl
             f_in = av + sl
+
+
+@njit(cache=True)
+def wall_transmission(A11, A12, A21, A22):
+    """T[k]: outflow of a ray crossing the whole gap per unit inflow, no source (product of cell factors)."""
+    m, n = A11.shape
+    T = np.ones(m)
+    for k in range(m):
+        for i in range(n):
+            T[k] *= A11[k, i] + A21[k, i] - A12[k, i] - A22[k, i]
+    return T
+
+
+@njit(cache=True)
+def _close_upper_wall(F, A11, A12, A21, A22, R_low, R_up, Fw_up, T, G, f_used, f_new, delta_up, delta_low):
+    """Make the sweep's upper-wall reflection exact instead of lagged.
+
+    The sweep started the downward rays from f_used (the reflection of the
+    previous sweep's upward values).  With the sources fixed, the ray
+    solutions are affine in their inflow, so the inflow x that satisfies
+    both walls at once obeys  (I - R_up T R_low T)(x - f_used) = f_new - f_used,
+    f_new the reflection of this sweep's upward values; G is that inverse
+    (per component).  The responses of both ray families to the change are
+    added cell by cell.  Same fixed point as the lagged sweep; it removes the
+    one-sweep lag that slows the iteration when the upper wall reflects
+    specularly (low accommodation).
+    """
+    n_comp, n_dir, m, n, two = F.shape
+    for a in range(n_comp):
+        for k in range(m):
+            acc = 0.0
+            for j in range(m):
+                acc += G[a, k, j] * (f_new[a, j] - f_used[a, j])
+            delta_up[a, k] = acc
+        for k in range(m):
+            acc = 0.0
+            for j in range(m):
+                acc += R_low[a, k, j] * T[j] * delta_up[a, j]
+            delta_low[a, k] = acc
+    for km in range(n_comp * m):
+        a = km // m
+        k = km % m
+        f = delta_up[a, k]
+        for i in range(n - 1, -1, -1):
+            av = (A11[k, i] - A12[k, i]) * f
+            sl = (A21[k, i] - A22[k, i]) * f
+            F[a, 1, k, i, 0] += av
+            F[a, 1, k, i, 1] -= sl
+            f = av + sl
+        f = delta_low[a, k]
+        for i in range(n):
+            av = (A11[k, i] - A12[k, i]) * f
+            sl = (A21[k, i] - A22[k, i]) * f
+            F[a, 0, k, i, 0] += av
+            F[a, 0, k, i, 1] += sl
+            f = av + sl
 
 
 @njit(cache=True)
@@ -306,10 +363,13 @@ def _synthetic_step(M, M_old, accel_kind, d, kappa, es_factor, robin_low, robin_
 
 @njit(cache=True)
 def source_iteration(F, g, A11, A12, A21, A22, P, Q, src, d, R_low, R_up, Fw_low, Fw_up, wy, fix_mass,
-                     primary, max_iter, tol, history, accel_kind, kappa, es_factor, robin_low, robin_up):
+                     primary, max_iter, tol, history, accel_kind, kappa, es_factor, robin_low, robin_up,
+                     close_walls, T, G):
     """Source iteration to convergence, optionally with synthetic acceleration.
 
-    One loop: moment -> gain (sources) -> kinetic sweep -> moments ->
+    One loop: moment -> gain (sources) -> kinetic sweep [-> exact
+    upper-wall coupling, ``_close_upper_wall``, if close_walls; T, G from
+    ``wall_transmission`` and the driver] -> moments ->
     [synthetic correction of the moments, ``_synthetic_step``, if
     accel_kind > 0] -> convergence test.  wy are the cell widths.
 
@@ -332,6 +392,10 @@ def source_iteration(F, g, A11, A12, A21, A22, P, Q, src, d, R_low, R_up, Fw_low
     r0 = np.zeros(n)
     r1 = np.zeros(n)
     x = np.zeros(n + 1)
+    f_used = np.zeros((n_comp, m))
+    f_new = np.zeros((n_comp, m))
+    delta_up = np.zeros((n_comp, m))
+    delta_low = np.zeros((n_comp, m))
     compute_moments(F, P, M)
     estimate = np.inf
     rho = 0.0
@@ -340,7 +404,18 @@ def source_iteration(F, g, A11, A12, A21, A22, P, Q, src, d, R_low, R_up, Fw_low
     for it in range(max_iter):
         M_old[:, :, :] = M
         compute_sources(M, Q, src, d, S)
+        if close_walls:
+            for a in range(n_comp):
+                for k in range(m):
+                    wall_in[a, k] = F[a, 0, k, n - 1, 0] + F[a, 0, k, n - 1, 1]
+            _boundary_values(wall_in, R_up, Fw_up, f_used)
         transport_sweep(F, S, g, A11, A12, A21, A22, R_low, R_up, Fw_low, Fw_up, bvals, wall_in)
+        if close_walls:
+            for a in range(n_comp):
+                for k in range(m):
+                    wall_in[a, k] = F[a, 0, k, n - 1, 0] + F[a, 0, k, n - 1, 1]
+            _boundary_values(wall_in, R_up, Fw_up, f_new)
+            _close_upper_wall(F, A11, A12, A21, A22, R_low, R_up, Fw_up, T, G, f_used, f_new, delta_up, delta_low)
         compute_moments(F, P, M)
         if fix_mass:
             _remove_mean_density(F, M, P, wy)

@@ -13,9 +13,13 @@ sigma c_r / (sigma c_r)_max, so the collision frequency per molecule is
 n <sigma c_r>.  The majorant (sigma c_r)_max starts at 1.2 times the largest
 value over N random pairs and is raised whenever a candidate exceeds it (that
 candidate is then accepted with probability 1; the number of such events is
-reported, it measures the small bias this causes).
+reported, it measures the small bias this causes).  For Maxwell molecules
+sigma c_r is a constant, which is then the exact majorant (every candidate
+collides).  Candidate pairs come from one 64-bit random output
+(:func:`solver.relaxation.rng.distinct_pair`).
 
-Scattering.  VHS: isotropic in the centre-of-mass frame.  VSS (Koura &
+Scattering.  VHS: isotropic in the centre-of-mass frame, the direction drawn
+by Marsaglia's method (Ann. Math. Stat. 43 (1972) 645).  VSS (Koura &
 Matsumoto, Phys. Fluids A 3 (1991) 2459, citation from memory; Bird 1994
 Sec. 2.6): cos(chi) = 2 U**(1/alpha) - 1
 for U uniform on (0, 1), and the relative velocity is rotated by chi about a
@@ -38,7 +42,7 @@ from numba import njit, prange
 
 from solver.relaxation.h_function import _binned_divergence_particles
 from solver.relaxation.initial_states import _sample_initial
-from solver.relaxation.rng import replica_states, uniform
+from solver.relaxation.rng import distinct_pair, replica_states, uniform
 
 # Columns of the per-output moment record.
 COL_UX, COL_UY, COL_UZ = 0, 1, 2
@@ -94,6 +98,24 @@ def _collide(v: np.ndarray, i: int, j: int, cos_chi: float, eps: float, isotropi
 
 
 @njit(cache=True)
+def _collide_direction(v: np.ndarray, i: int, j: int, g2: float, dx: float, dy: float, dz: float) -> None:
+    """Replace v[i], v[j] by v_cm +- |g| d / 2 for the unit vector d (equal masses, |g|**2 = g2)."""
+    cr = math.sqrt(g2)
+    cx = 0.5 * (v[i, 0] + v[j, 0])
+    cy = 0.5 * (v[i, 1] + v[j, 1])
+    cz = 0.5 * (v[i, 2] + v[j, 2])
+    hx = 0.5 * cr * dx
+    hy = 0.5 * cr * dy
+    hz = 0.5 * cr * dz
+    v[i, 0] = cx + hx
+    v[i, 1] = cy + hy
+    v[i, 2] = cz + hz
+    v[j, 0] = cx - hx
+    v[j, 1] = cy - hy
+    v[j, 2] = cz - hz
+
+
+@njit(cache=True)
 def _sigma_cr(g2: float, coef: float, expo: float) -> float:
     """sigma * c_r = coef * c_r**expo, written with g2 = c_r**2."""
     if expo == 0.0:
@@ -101,6 +123,34 @@ def _sigma_cr(g2: float, coef: float, expo: float) -> float:
     if expo == 1.0:
         return coef * math.sqrt(g2)  # hard spheres: sqrt is much cheaper than pow
     return coef * g2 ** (0.5 * expo)
+
+
+# Bracketing tables for sigma c_r = coef * g2**p (p = expo / 2) without pow:
+# g2 = m 2**e with m in [1, 2); 2**(e p) is tabulated per biased exponent and
+# m**p is bracketed over _MANT_BINS equal sub-intervals of [1, 2).  The bounds
+# are widened by _BRACKET_MARGIN (relative), far above the few-ulp rounding of
+# the tables, so a decision taken from them equals the one from the exact value.
+_MANT_BITS = 8
+_MANT_BINS = 1 << _MANT_BITS
+_BRACKET_MARGIN = 1e-12
+
+
+@njit(cache=True)
+def _bracket_tables(coef: float, expo: float):
+    """(scale[2048], low[bins], high[bins]): coef*2**(e p) and bounds of m**p, p = expo/2."""
+    p = 0.5 * expo
+    scale = np.empty(2048)
+    for e in range(2048):
+        scale[e] = coef * 2.0 ** ((e - 1023) * p)
+    # zero / subnormal and inf / nan g2: an infinite bracket sends them to the exact path
+    scale[0] = np.inf
+    scale[2047] = np.inf
+    low = np.empty(_MANT_BINS)
+    high = np.empty(_MANT_BINS)
+    for k in range(_MANT_BINS):
+        low[k] = (1.0 + k / _MANT_BINS) ** p * (1.0 - _BRACKET_MARGIN)
+        high[k] = (1.0 + (k + 1) / _MANT_BINS) ** p * (1.0 + _BRACKET_MARGIN)
+    return scale, low, high
 
 
 @njit(cache=True)
@@ -171,21 +221,35 @@ def _run_replica(rs: np.ndarray, kind: int, params: np.ndarray, n: int, coef: fl
 
     out[n_output, N_COLUMNS] and hist_out[n_output, n_bins] are filled; the
     return value is the number of candidates that exceeded the majorant.
+
+    The acceptance test u (sigma c_r)_max <= sigma c_r is decided without pow
+    or sqrt where possible: Maxwell molecules (expo = 0) have the exact
+    majorant coef and accept every candidate; hard spheres (expo = 1) compare
+    squares; other VHS exponents compare against the bracketing tables and
+    evaluate g2**(expo/2) only when the bracket straddles the threshold or
+    reaches the majorant.  All three give the same decision as the direct
+    comparison, so the collision statistics are those of Bird's NTC scheme.
     """
     v = np.empty((n, 3))
     _sample_initial(kind, params, v, rs)
     isotropic = inv_alpha == 1.0
     counts = np.zeros((edges.shape[0] + 1) ** 3, dtype=np.int64)
+    mode = 0 if expo == 0.0 else (1 if expo == 1.0 else 2)
+    half_expo = 0.5 * expo
+    coef2 = coef * coef
+    scale, mlow, mhigh = _bracket_tables(coef, expo)
+    bits = np.empty(1)
+    ibits = bits.view(np.int64)
 
-    majorant = 0.0
-    for _ in range(n):
-        i = int(uniform(rs) * n)
-        j = int(uniform(rs) * (n - 1))
-        if j >= i:
-            j += 1
-        g2 = (v[i, 0] - v[j, 0]) ** 2 + (v[i, 1] - v[j, 1]) ** 2 + (v[i, 2] - v[j, 2]) ** 2
-        majorant = max(majorant, _sigma_cr(g2, coef, expo))
-    majorant *= 1.2
+    if mode == 0:
+        majorant = coef  # sigma c_r is the constant coef: this majorant is exact
+    else:
+        majorant = 0.0
+        for _ in range(n):
+            i, j = distinct_pair(rs, n)
+            g2 = (v[i, 0] - v[j, 0]) ** 2 + (v[i, 1] - v[j, 1]) ** 2 + (v[i, 2] - v[j, 2]) ** 2
+            majorant = max(majorant, _sigma_cr(g2, coef, expo))
+        majorant *= 1.2
 
     exceed = 0
     ncoll = 0.0
@@ -194,7 +258,6 @@ def _run_replica(rs: np.ndarray, kind: int, params: np.ndarray, n: int, coef: fl
     _record(v, edges, counts, ncoll, majorant, out[0], hist_lo, hist_width, hist_out[0])
     bi = np.empty(_BATCH, dtype=np.int64)
     bj = np.empty(_BATCH, dtype=np.int64)
-    bu = np.empty(_BATCH)
     touch = 0.0
     for k in range(1, n_output):
         for _ in range(steps_per_output):
@@ -207,29 +270,57 @@ def _run_replica(rs: np.ndarray, kind: int, params: np.ndarray, n: int, coef: fl
                 # pass 1: draw the candidates of the batch and touch their
                 # velocities, so that the independent memory loads overlap
                 for c in range(nb):
-                    i = int(uniform(rs) * n)
-                    j = int(uniform(rs) * (n - 1))
-                    if j >= i:
-                        j += 1
+                    i, j = distinct_pair(rs, n)
                     bi[c] = i
                     bj[c] = j
-                    bu[c] = uniform(rs)
-                    touch += v[i, 0] + v[j, 0]
+                    # both ends: a 24-byte record may straddle two cache lines
+                    touch += v[i, 0] + v[j, 0] + v[i, 2] + v[j, 2]
                 # pass 2: the sequential NTC acceptance with current velocities
                 for c in range(nb):
                     i = bi[c]
                     j = bj[c]
                     g2 = (v[i, 0] - v[j, 0]) ** 2 + (v[i, 1] - v[j, 1]) ** 2 + (v[i, 2] - v[j, 2]) ** 2
-                    sc = _sigma_cr(g2, coef, expo)
-                    if sc > majorant:
-                        majorant = sc
-                        exceed += 1
-                    elif sc < bu[c] * majorant:
-                        continue
-                    u = uniform(rs)
-                    cos_chi = 2.0 * u - 1.0 if isotropic else 2.0 * u**inv_alpha - 1.0
-                    eps = 2.0 * math.pi * uniform(rs)
-                    _collide(v, i, j, cos_chi, eps, isotropic)
+                    if mode == 1:
+                        t = uniform(rs) * majorant
+                        sc2 = coef2 * g2
+                        if sc2 < t * t:
+                            continue
+                        if sc2 > majorant * majorant:
+                            sc = coef * math.sqrt(g2)
+                            if sc > majorant:
+                                majorant = sc
+                                exceed += 1
+                    elif mode == 2:
+                        t = uniform(rs) * majorant
+                        bits[0] = g2
+                        w = ibits[0]
+                        base = scale[(w >> 52) & 2047]
+                        hi = base * mhigh[(w >> (52 - _MANT_BITS)) & (_MANT_BINS - 1)]
+                        if hi < t:
+                            continue  # sigma c_r <= hi < t <= majorant
+                        lo = base * mlow[(w >> (52 - _MANT_BITS)) & (_MANT_BINS - 1)]
+                        if lo < t or hi > majorant:
+                            sc = coef * g2**half_expo
+                            if sc > majorant:
+                                majorant = sc
+                                exceed += 1
+                            elif sc < t:
+                                continue
+                    if isotropic:
+                        # uniform direction on the sphere without trigonometry
+                        # (Marsaglia, Ann. Math. Stat. 43 (1972) 645)
+                        while True:
+                            a1 = 2.0 * uniform(rs) - 1.0
+                            a2 = 2.0 * uniform(rs) - 1.0
+                            q = a1 * a1 + a2 * a2
+                            if q < 1.0:
+                                break
+                        f = 2.0 * math.sqrt(1.0 - q)
+                        _collide_direction(v, i, j, g2, 1.0 - 2.0 * q, a1 * f, a2 * f)
+                    else:
+                        cos_chi = 2.0 * uniform(rs) ** inv_alpha - 1.0
+                        eps = 2.0 * math.pi * uniform(rs)
+                        _collide(v, i, j, cos_chi, eps, False)
                     ncoll += 1.0
                 done += nb
         _record(v, edges, counts, ncoll, majorant, out[k], hist_lo, hist_width, hist_out[k])
@@ -257,6 +348,8 @@ def run_particles(seed: int, n_replicas: int, kind: int, params, n_particles: in
     Returns (moments[R, n_output, N_COLUMNS], x-marginal[R, n_output, n_hist],
     majorant exceedances[R]).
     """
+    if not 2 <= int(n_particles) < 2**32:
+        raise ValueError(f"n_particles: must lie in [2, 2**32), got {n_particles!r}")
     states = replica_states(seed, n_replicas)
     out = np.zeros((n_replicas, n_output, N_COLUMNS))
     hist = np.zeros((n_replicas, n_output, n_hist))

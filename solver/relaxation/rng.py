@@ -13,9 +13,10 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from numba import njit, uint64
+from numba import int64, njit, uint64
 
 _INV_2_53 = 1.0 / 9007199254740992.0
+_MASK32 = 0xFFFFFFFF
 
 
 @njit(uint64(uint64, uint64), cache=True, inline="always")
@@ -41,6 +42,37 @@ def next_u64(s: np.ndarray):
 def uniform(s: np.ndarray) -> float:
     """Uniform double in [0, 1)."""
     return float(next_u64(s) >> uint64(11)) * _INV_2_53
+
+
+@njit(cache=True, inline="always")
+def distinct_pair(s: np.ndarray, n: int):
+    """Indices (i, j), i != j, uniform over the ordered pairs of range(n), 2 <= n < 2**32.
+
+    One 64-bit output gives both: i from its upper 32 bits over n values and
+    j from its lower 32 bits over n - 1 values (then j += 1 if j >= i), each by
+    multiply-and-shift with the rejection step that makes it exactly uniform
+    (Lemire, "Fast random integer generation in an interval", ACM Trans. Model.
+    Comput. Simul. 29 (2019) 3, Algorithm 5).
+    """
+    ni = uint64(n)
+    nj = uint64(n - 1)
+    mask = uint64(_MASK32)
+    while True:
+        x = next_u64(s)
+        mi = (x >> uint64(32)) * ni
+        mj = (x & mask) * nj
+        li = mi & mask
+        lj = mj & mask
+        # rejection (probability < 2 n / 2**32): only if a low word is below its range
+        if li < ni and li < (mask - ni + uint64(1)) % ni:
+            continue
+        if lj < nj and lj < (mask - nj + uint64(1)) % nj:
+            continue
+        i = int64(mi >> uint64(32))
+        j = int64(mj >> uint64(32))
+        if j >= i:
+            j += int64(1)
+        return i, j
 
 
 @njit(cache=True)

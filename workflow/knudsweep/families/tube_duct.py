@@ -110,6 +110,8 @@ def grid_label(section: dict[str, Any]) -> str:
     res = section["resolution"]
     ns = "auto" if res["n_space"] is None else str(res["n_space"])
     nv = "auto" if res["n_velocity"] is None else str(res["n_velocity"])
+    if res.get("accuracy") is not None:
+        return f"acc{format_exp(res['accuracy'])}-tol{format_exp(res['tol'])}"
     return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
 
 
@@ -195,6 +197,10 @@ class TubeDuct(Family):
         axis = check_axis_choice(section)
         reject_repeats("geometries", [label for label, _, _ in geometry_settings(section)])
         reject_repeats("walls", [label for label, _ in wall_settings(section)])
+        res = section.get("resolution", {})
+        if res.get("accuracy") is not None and (res.get("n_space") is not None or res.get("n_velocity") is not None):
+            raise ValueError("resolution.accuracy: give either an accuracy target or n_space/n_velocity, not both "
+                             "(set n_space and n_velocity to null)")
         deltas = delta_values(section)
         if len(set(deltas)) != len(deltas):
             raise ValueError(f"{axis}: values repeat after rounding to 6 significant digits")
@@ -232,6 +238,7 @@ class TubeDuct(Family):
                                 "wall": wlabel, "wall_params": w,
                                 "n_space": res["n_space"], "n_velocity": res["n_velocity"],
                                 "tol": canonical(res["tol"]),
+                                "accuracy": None if res.get("accuracy") is None else canonical(res["accuracy"]),
                             }
                             index = {"geometry": glabel, "problem": problem, "model": model, "wall": wlabel, "delta": delta}
                             out.append(Point(self.name, pid, values, index))
@@ -241,6 +248,7 @@ class TubeDuct(Family):
         kw = dict(
             delta=values["delta"], model=values["model"], wall=make_wall_object(values["wall_params"]),
             n_space=values["n_space"], n_velocity=values["n_velocity"], max_iter=max_iter, tol=values["tol"],
+            accuracy=values.get("accuracy"),
             accelerate=bool(section.get("iteration", {}).get("accelerate", True)),
         )
         if values["shape"] == "tube":
@@ -375,6 +383,7 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                     sel = dict(geometry=glabel, problem="poiseuille", model=model, wall=wlabel)
                     status = ds["status"].sel(**sel).values
                     gp = ds["G_P"].sel(**sel).values.astype(float) if "G_P" in ds else np.full(delta.shape, np.nan)
+                    gp_err = (ds["G_P_error_estimate"].sel(**sel).values.astype(float) if "G_P_error_estimate" in ds else np.full(delta.shape, np.nan))
                     gslip = slip_gp(shape, aspect, delta, slip_sigma(w))
                     for gas in section["gases"]:
                         v0 = most_probable_speed(gas, t)
@@ -386,6 +395,7 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                                 "delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d), "status": status[j],
                                 "pressure [Pa]": pressure_from_delta(gas, d, t, a),
                                 "G_P [1]": gp[j],
+                                "G_P error estimate [1]": gp_err[j],
                                 "conductance [m^3 s^-1]": cond,
                                 "conductance [L s^-1]": 1e3 * cond,
                                 "free-molecular conductance, diffuse [m^3 s^-1]": factor * g_fm,
@@ -398,6 +408,8 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
             f"temperature {t:g} K, tube radius {c['radius']:g} m, duct height {c['height']:g} m, length {length:g} m.",
             "Conductance in the linear regime at the row's pressure: C = S a v0 G_P / (2 L), S = cross-section area "
             "(solver.conductance).",
+            "G_P error estimate: estimated discretisation error of G_P (absolute) from a Richardson extrapolation over "
+            "a coarser solve (solver.resolution); it does not include the model error.",
             "Free-molecular reference, diffuse walls: Knudsen's long-tube value G_P = 8/(3 sqrt(pi)) (Knudsen, Ann. Phys. 28 "
             "(1909) 75; C = (2 pi a^3 / (3 L)) v_mean); duct: closed-form quadrature solver.duct.free_molecular_flow_rate. "
             "For non-diffuse walls the factor includes the accommodation effect.",
@@ -417,6 +429,7 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                     sel = dict(geometry=glabel, problem="thermal_creep", model=model, wall=wlabel)
                     status = ds["status"].sel(**sel).values
                     gt = ds["G_T"].sel(**sel).values.astype(float) if "G_T" in ds else np.full(delta.shape, np.nan)
+                    gt_err = (ds["G_T_error_estimate"].sel(**sel).values.astype(float) if "G_T_error_estimate" in ds else np.full(delta.shape, np.nan))
                     gp = (ds["G_P"].sel(geometry=glabel, problem="poiseuille", model=model, wall=wlabel).values.astype(float)
                           if ("G_P" in ds and "poiseuille" in section["problems"]) else np.full(delta.shape, np.nan))
                     ref_t = (SIGMA_T_DIFFUSE_BGK / delta) if (model == "bgk" and _is_diffuse(w)) else np.full(delta.shape, np.nan)
@@ -427,7 +440,7 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                             rows.append({
                                 "geometry": glabel, "model": model, "wall": wlabel, "gas": gas,
                                 "delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d), "status": status[j],
-                                "pressure [Pa]": p, "G_T [1]": gt[j],
+                                "pressure [Pa]": p, "G_T [1]": gt[j], "G_T error estimate [1]": gt_err[j],
                                 # M / ((1/T) dT/dx) = S a p G_T / v0  [kg s^-1 per m^-1 ... = kg m s^-1]
                                 "mass flow per log-temperature gradient [kg m s^-1]": s_area * a * p * gt[j] / v0,
                                 "G_T / G_P (d ln p / d ln T at zero flow) [1]": gt[j] / gp[j],
