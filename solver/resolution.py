@@ -160,3 +160,138 @@ def choose_resolution(
         f"at the finest allowed resolution (n_space={choice.n_space}, n_velocity={choice.n_velocity})"
     )
     return choice
+
+
+# --------------------------------------------------------------------------
+# The driver every linear-flow solver shares: one solve plus an estimate, or
+# a climb along a ladder to an accuracy target.  It sees solver results only
+# through their coefficients, discretization record and convergence status.
+
+
+class _LevelFailed(Exception):
+    def __init__(self, result):
+        super().__init__(result.convergence.reason)
+        self.result = result
+
+
+def result_values(res) -> dict[str, float]:
+    """The reported coefficients of a SolverResult, without earlier error estimates."""
+    return {k: float(q.value) for k, q in res.coefficients.items() if not k.endswith("_error_estimate")}
+
+
+def attach_estimate(res, choice: ResolutionChoice | None, how: str) -> None:
+    """Add "<name>_error_estimate" coefficients (NaN if ``choice`` is None) and the record to ``res``."""
+    from solver.result import Quantity
+
+    for name in list(result_values(res)):
+        err = choice.error_estimate[name] if choice is not None else float("nan")
+        res.coefficients[f"{name}_error_estimate"] = Quantity(
+            err, res.coefficients[name].units, f"estimated absolute discretization error of {name}"
+        )
+    if choice is not None:
+        res.discretization.update(choice.record())
+    else:
+        res.discretization["relative_error_estimate"] = float("nan")
+    res.discretization["error_estimate_source"] = how
+
+
+def check_estimate_options(accuracy, error_estimate, n_space, n_velocity) -> float | None:
+    """Checked accuracy (None or float); ValueError naming the field otherwise."""
+    accuracy = check_accuracy(accuracy)
+    if not isinstance(error_estimate, bool):
+        raise ValueError(f"error_estimate: must be True or False, got {error_estimate!r}")
+    if accuracy is not None:
+        for name, value in (("n_space", n_space), ("n_velocity", n_velocity)):
+            if value is not None:
+                raise ValueError(
+                    f"{name}: must be None when accuracy is given (the accuracy target chooses it), got {value!r}"
+                )
+    return accuracy
+
+
+def solve_with_estimate(
+    run,
+    n_space: int,
+    n_velocity: int,
+    *,
+    tol: float,
+    accuracy: float | None,
+    error_estimate: bool,
+    ladder: Iterable[tuple[int, int]],
+    coarse_level: tuple[int, int],
+    t_start: float,
+    assumed_ratio: float = 4.0,
+    coarse_how: str = "one coarser step",
+    ladder_how: str = "accuracy-driven refinement along the resolution ladder",
+):
+    """One solve with its error estimate, or the solve that meets an accuracy target.
+
+    run(n_space, n_velocity, tol) -> SolverResult at a fixed resolution.
+    Without ``accuracy``: solve at (n_space, n_velocity) and, if
+    ``error_estimate``, once more at ``coarse_level`` for the Richardson
+    estimate (:func:`estimate_error`).  With ``accuracy``: climb ``ladder`` with
+    the iteration tolerance min(tol, accuracy / 100) until the estimate is below
+    the target (:func:`choose_resolution`); a target not met on the finest
+    level gives status "failed" with the reason.
+    """
+    import time
+
+    from solver.result import CONVERGED, FAILED
+
+    if accuracy is None:
+        res = run(n_space, n_velocity, tol)
+        if error_estimate and res.status == CONVERGED:
+            coarse = run(*coarse_level, tol)
+            if coarse.status == CONVERGED:
+                fine_v = result_values(res)
+                errors, ratio = estimate_error(fine_v, result_values(coarse), assumed_ratio=assumed_ratio)
+                choice = ResolutionChoice(
+                    n_space, n_velocity, fine_v, errors, relative_error(fine_v, errors), ratio,
+                    levels=[coarse_level, (n_space, n_velocity)],
+                )
+                attach_estimate(res, choice, coarse_how)
+                same_v = coarse_level[1] == n_velocity or (
+                    "n_velocity" in res.discretization
+                    and coarse.discretization.get("n_velocity") == res.discretization["n_velocity"]
+                )
+                missing = [w for w, same in (("spatial", coarse_level[0] == n_space), ("velocity", same_v)) if same]
+                if missing:
+                    res.discretization["error_estimate_note"] = (
+                        f"no coarser {' or '.join(missing)} grid: its error is not included"
+                    )
+            else:
+                attach_estimate(res, None, f"coarse solve failed: {coarse.convergence.reason}")
+        else:
+            attach_estimate(res, None, "not requested" if not error_estimate else "solve failed")
+        res.wall_time = time.perf_counter() - t_start
+        return res
+
+    it_tol = min(tol, 0.01 * accuracy)
+    solved: dict[tuple[int, int], object] = {}
+
+    def solve_level(ns: int, nv: int) -> dict[str, float]:
+        r = run(ns, nv, it_tol)
+        solved[(ns, nv)] = r
+        if r.status != CONVERGED:
+            raise _LevelFailed(r)
+        return result_values(r)
+
+    try:
+        choice = choose_resolution(solve_level, accuracy, ladder, assumed_ratio=assumed_ratio)
+    except _LevelFailed as exc:
+        res = exc.result
+        ns, nv = list(solved)[-1]
+        res.convergence.reason = f"at n_space={ns}, n_velocity={nv}: {res.convergence.reason}"
+        attach_estimate(res, None, "a solve of the accuracy-driven refinement failed")
+        res.discretization["accuracy_target"] = accuracy
+        res.discretization["accuracy_met"] = False
+        res.discretization["resolutions_solved"] = [list(k) for k in solved]
+        res.wall_time = time.perf_counter() - t_start
+        return res
+    res = solved[(choice.n_space, choice.n_velocity)]
+    attach_estimate(res, choice, ladder_how)
+    if not choice.met:
+        res.convergence.status = FAILED
+        res.convergence.reason = choice.reason
+    res.wall_time = time.perf_counter() - t_start
+    return res

@@ -73,7 +73,8 @@ from scipy.special import i0e
 
 from solver.kinetic_models import get_model
 from solver.quadrature import graded_half_range, half_range_hermite
-from solver.resolution import ResolutionChoice, check_accuracy, choose_resolution, estimate_error, relative_error
+from solver.resolution import attach_estimate, check_estimate_options  # noqa: F401  (re-exported for solver.duct)
+from solver.resolution import solve_with_estimate as _shared_solve_with_estimate
 from solver.result import FAILED, CONVERGED, ConvergenceRecord, Quantity, SolverResult
 from solver.walls import CercignaniLampisWall, MaxwellWall
 
@@ -682,105 +683,19 @@ def resolution_ladder(delta: float) -> list[tuple[int, int]]:
     return nested_ladder(ns, nv, 6, fits)
 
 
-class _LevelFailed(Exception):
-    def __init__(self, result: SolverResult):
-        super().__init__(result.convergence.reason)
-        self.result = result
-
-
-def _values(res: SolverResult) -> dict[str, float]:
-    return {k: float(q.value) for k, q in res.coefficients.items() if not k.endswith("_error_estimate")}
-
-
-def attach_estimate(res: SolverResult, choice: ResolutionChoice | None, how: str) -> None:
-    """Add "<name>_error_estimate" coefficients (NaN if ``choice`` is None) and the record to ``res``."""
-    for name in list(_values(res)):
-        err = choice.error_estimate[name] if choice is not None else float("nan")
-        res.coefficients[f"{name}_error_estimate"] = Quantity(
-            err, res.coefficients[name].units, f"estimated absolute discretization error of {name}"
-        )
-    if choice is not None:
-        res.discretization.update(choice.record())
-    else:
-        res.discretization["relative_error_estimate"] = float("nan")
-    res.discretization["error_estimate_source"] = how
-
-
 def solve_with_estimate(run, n_space, n_velocity, *, tol, accuracy, error_estimate, ladder, assumed_ratio, t_start):
-    """Shared driver of the tube and duct solvers: one solve plus an estimate, or an accuracy target.
+    """Tube/duct entry to the shared driver :func:`solver.resolution.solve_with_estimate`.
 
-    run(n_space, n_velocity, tol) -> SolverResult at a fixed resolution.
-    Without accuracy: solve at (n_space, n_velocity) and, if error_estimate,
-    once more at coarser_level(...) for the Richardson estimate
-    (solver.resolution.estimate_error).  With accuracy: climb ``ladder`` with
-    the iteration tolerance min(tol, accuracy / 100) until the estimate is
-    below the target (solver.resolution.choose_resolution); not reached on the
-    finest level -> status "failed" with the reason.
+    The coarse level of the estimate is :func:`coarser_level` (half the spatial
+    intervals, 3/4 of the speed nodes).
     """
-    if accuracy is None:
-        res = run(n_space, n_velocity, tol)
-        if error_estimate and res.status == CONVERGED:
-            level = coarser_level(n_space, n_velocity)
-            coarse = run(*level, tol)
-            if coarse.status == CONVERGED:
-                fine_v = _values(res)
-                errors, ratio = estimate_error(fine_v, _values(coarse), assumed_ratio=assumed_ratio)
-                choice = ResolutionChoice(
-                    n_space, n_velocity, fine_v, errors, relative_error(fine_v, errors), ratio,
-                    levels=[level, (n_space, n_velocity)],
-                )
-                attach_estimate(res, choice, "one coarser step (half the spatial intervals, 3/4 of the speed nodes)")
-                missing = [what for what, a, b in (("spatial", level[0], n_space), ("velocity", level[1], n_velocity)) if a == b]
-                if missing:
-                    res.discretization["error_estimate_note"] = f"no coarser {' or '.join(missing)} grid: its error is not included"
-            else:
-                attach_estimate(res, None, f"coarse solve failed: {coarse.convergence.reason}")
-        else:
-            attach_estimate(res, None, "not requested" if not error_estimate else "solve failed")
-        res.wall_time = time.perf_counter() - t_start
-        return res
-
-    it_tol = min(tol, 0.01 * accuracy)
-    solved: dict[tuple[int, int], SolverResult] = {}
-
-    def solve_level(ns: int, nv: int) -> dict[str, float]:
-        r = run(ns, nv, it_tol)
-        solved[(ns, nv)] = r
-        if r.status != CONVERGED:
-            raise _LevelFailed(r)
-        return _values(r)
-
-    try:
-        choice = choose_resolution(solve_level, accuracy, ladder, assumed_ratio=assumed_ratio)
-    except _LevelFailed as exc:
-        res = exc.result
-        ns, nv = list(solved)[-1]
-        res.convergence.reason = f"at n_space={ns}, n_velocity={nv}: {res.convergence.reason}"
-        attach_estimate(res, None, "a solve of the accuracy-driven refinement failed")
-        res.discretization["accuracy_target"] = accuracy
-        res.discretization["accuracy_met"] = False
-        res.discretization["resolutions_solved"] = [list(k) for k in solved]
-        res.wall_time = time.perf_counter() - t_start
-        return res
-    res = solved[(choice.n_space, choice.n_velocity)]
-    attach_estimate(res, choice, "accuracy-driven refinement along the resolution ladder")
-    if not choice.met:
-        res.convergence.status = FAILED
-        res.convergence.reason = choice.reason
-    res.wall_time = time.perf_counter() - t_start
-    return res
-
-
-def check_estimate_options(accuracy, error_estimate, n_space, n_velocity):
-    """Checked accuracy (None or float); ValueError naming the field otherwise."""
-    accuracy = check_accuracy(accuracy)
-    if not isinstance(error_estimate, bool):
-        raise ValueError(f"error_estimate: must be True or False, got {error_estimate!r}")
-    if accuracy is not None:
-        for name, value in (("n_space", n_space), ("n_velocity", n_velocity)):
-            if value is not None:
-                raise ValueError(f"{name}: must be None when accuracy is given (the accuracy target chooses it), got {value!r}")
-    return accuracy
+    return _shared_solve_with_estimate(
+        run, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate,
+        ladder=ladder, coarse_level=coarser_level(n_space, n_velocity), t_start=t_start,
+        assumed_ratio=assumed_ratio,
+        coarse_how="one coarser step (half the spatial intervals, 3/4 of the speed nodes)",
+        ladder_how="accuracy-driven refinement along the resolution ladder",
+    )
 
 
 def solve_tube(

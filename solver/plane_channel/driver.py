@@ -11,7 +11,7 @@ from solver.kinetic_models import get_model
 from solver.plane_channel import grids, kernels
 from solver.plane_channel.boundary import wall_operators
 from solver.plane_channel.problems import PROBLEMS, build_tables, coefficients_and_profiles
-from solver.resolution import ResolutionChoice, check_accuracy, choose_resolution, estimate_error, relative_error
+from solver.resolution import check_estimate_options, solve_with_estimate
 from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
 from solver.walls import CercignaniLampisWall, MaxwellWall
 
@@ -144,15 +144,9 @@ def solve_plane_channel(
     if upper_wall is None:
         upper_wall = lower_wall
     delta, kinetic, tol = check_inputs(problem, delta, model, lower_wall, upper_wall, tol)
-    accuracy = check_accuracy(accuracy)
-    if not isinstance(error_estimate, bool):
-        raise ValueError(f"error_estimate: must be True or False, got {error_estimate!r}")
+    accuracy = check_estimate_options(accuracy, error_estimate, n_space, n_velocity)
     if not isinstance(accelerate, bool):
         raise ValueError(f"accelerate: must be True or False, got {accelerate!r}")
-    if accuracy is not None:
-        for name, value in (("n_space", n_space), ("n_velocity", n_velocity)):
-            if value is not None:
-                raise ValueError(f"{name}: must be None when accuracy is given (the accuracy target chooses it), got {value!r}")
     if n_space is None:
         n_space = grids.default_n_space(delta)
     else:
@@ -166,83 +160,17 @@ def solve_plane_channel(
     else:
         max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
 
-    def run(ns: int, nv: int) -> SolverResult:
+    def run(ns: int, nv: int, it_tol: float) -> SolverResult:
         return _solve_once(problem, delta, kinetic, lower_wall, upper_wall, ns, nv, max_iter, it_tol, accelerate)
 
-    if accuracy is None:
-        it_tol = tol
-        res = run(n_space, n_velocity)
-        if error_estimate and res.status == CONVERGED:
-            coarse_level = (max(4, n_space // 2), grids.coarser_velocity(delta, n_velocity))
-            coarse = run(*coarse_level)
-            if coarse.status == CONVERGED:
-                errors, ratio = estimate_error(_values(res), _values(coarse))
-                choice = ResolutionChoice(
-                    n_space, n_velocity, _values(res), errors, relative_error(_values(res), errors), ratio,
-                    levels=[coarse_level, (n_space, n_velocity)],
-                )
-                _attach_estimate(res, choice, "one coarser ladder step (half the cells, 3/4 of the velocity nodes)")
-                if coarse.discretization["n_velocity"] == res.discretization["n_velocity"]:
-                    res.discretization["error_estimate_note"] = "no coarser velocity set: velocity error not included"
-            else:
-                _attach_estimate(res, None, f"coarse solve failed: {coarse.convergence.reason}")
-        else:
-            _attach_estimate(res, None, "not requested" if not error_estimate else "solve failed")
-        res.wall_time = time.perf_counter() - t0
-        return res
-
-    it_tol = min(tol, 0.01 * accuracy)
-    solved: dict[tuple[int, int], SolverResult] = {}
-
-    def solve_level(ns: int, nv: int) -> dict[str, float]:
-        r = run(ns, nv)
-        solved[(ns, nv)] = r
-        if r.status != CONVERGED:
-            raise _LevelFailed(r)
-        return _values(r)
-
-    try:
-        choice = choose_resolution(solve_level, accuracy, grids.resolution_ladder(delta))
-    except _LevelFailed as exc:
-        res = exc.result
-        res.convergence.reason = f"at n_space={res.discretization['n_space']}, n_velocity={res.discretization['n_velocity']}: {res.convergence.reason}"
-        _attach_estimate(res, None, "a solve of the accuracy-driven refinement failed")
-        res.discretization["accuracy_target"] = accuracy
-        res.discretization["resolutions_solved"] = [list(k) for k in solved]
-        res.wall_time = time.perf_counter() - t0
-        return res
-    res = solved[(choice.n_space, choice.n_velocity)]
-    _attach_estimate(res, choice, "accuracy-driven refinement along grids.resolution_ladder")
-    if not choice.met:
-        res.convergence.status = FAILED
-        res.convergence.reason = choice.reason
-    res.wall_time = time.perf_counter() - t0
-    return res
-
-
-class _LevelFailed(Exception):
-    def __init__(self, result: SolverResult):
-        super().__init__(result.convergence.reason)
-        self.result = result
-
-
-def _values(res: SolverResult) -> dict[str, float]:
-    return {k: float(q.value) for k, q in res.coefficients.items()}
-
-
-def _attach_estimate(res: SolverResult, choice: ResolutionChoice | None, how: str) -> None:
-    """Add "<name>_error_estimate" coefficients and the record to ``res`` (NaN if ``choice`` is None)."""
-    names = [k for k in res.coefficients if not k.endswith("_error_estimate")]
-    for name in names:
-        err = choice.error_estimate[name] if choice is not None else float("nan")
-        res.coefficients[f"{name}_error_estimate"] = Quantity(
-            err, res.coefficients[name].units, f"estimated absolute discretization error of {name}"
-        )
-    if choice is not None:
-        res.discretization.update(choice.record())
-    else:
-        res.discretization.update({"relative_error_estimate": float("nan")})
-    res.discretization["error_estimate_source"] = how
+    return solve_with_estimate(
+        run, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate,
+        ladder=grids.resolution_ladder(delta),
+        coarse_level=(max(4, n_space // 2), grids.coarser_velocity(delta, n_velocity)),
+        t_start=t0,
+        coarse_how="one coarser ladder step (half the cells, 3/4 of the velocity nodes)",
+        ladder_how="accuracy-driven refinement along grids.resolution_ladder",
+    )
 
 
 def _solve_once(problem, delta, kinetic, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol, accelerate) -> SolverResult:
