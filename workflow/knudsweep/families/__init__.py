@@ -127,6 +127,32 @@ def check_axis_choice(section: dict[str, Any]) -> str:
     return "delta" if has_delta else "kn"
 
 
+def delta_values(section: dict[str, Any]) -> list[float]:
+    """Canonical delta values of a section, ascending (a ``kn`` axis converted by delta = sqrt(pi)/(2 Kn))."""
+    import math
+
+    from knudsweep.config import axis_values
+    from knudsweep.identity import canonical
+
+    if "delta" in section:
+        raw = axis_values("delta", section["delta"])
+    else:
+        raw = [math.sqrt(math.pi) / (2.0 * kn) for kn in axis_values("kn", section["kn"])]
+    return sorted(canonical(d) for d in raw)
+
+
+def grid_label(section: dict[str, Any]) -> str:
+    """Path label of a section's resolution: ``acc<target>-tol<tol>`` or ``ns<n>-nv<n>-tol<tol>``."""
+    from knudsweep.identity import format_exp
+
+    res = section["resolution"]
+    if res.get("accuracy") is not None:
+        return f"acc{format_exp(res['accuracy'])}-tol{format_exp(res['tol'])}"
+    ns = "auto" if res["n_space"] is None else str(res["n_space"])
+    nv = "auto" if res["n_velocity"] is None else str(res["n_velocity"])
+    return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
+
+
 def reject_repeats(key: str, labels: list[str]) -> None:
     """ValueError naming ``key[i]`` when a label repeats an earlier one."""
     for i, label in enumerate(labels):

@@ -27,8 +27,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from knudsweep.config import axis_values
-from knudsweep.families import Family, Point, check_axis_choice, reject_repeats
+from knudsweep.families import Family, Point, check_axis_choice, delta_values, grid_label, reject_repeats
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
 
 PROBLEMS = ("poiseuille", "thermal_creep", "couette", "heat_transfer")
@@ -99,24 +98,6 @@ def wall_settings(section: dict[str, Any]) -> list[tuple[str, dict, dict | None]
         upper = _wall_params(spec["upper"], f"walls[{i}].upper") if "upper" in spec else None
         out.append((wall_label(lower, upper), lower, upper))
     return out
-
-
-def delta_values(section: dict[str, Any]) -> list[float]:
-    """Canonical delta values of the section, ascending (Kn converted if given)."""
-    if "delta" in section:
-        raw = axis_values("delta", section["delta"])
-    else:
-        raw = [math.sqrt(math.pi) / (2.0 * kn) for kn in axis_values("kn", section["kn"])]
-    return sorted(canonical(d) for d in raw)
-
-
-def grid_label(section: dict[str, Any]) -> str:
-    res = section["resolution"]
-    ns = "auto" if res["n_space"] is None else str(res["n_space"])
-    nv = "auto" if res["n_velocity"] is None else str(res["n_velocity"])
-    if res.get("accuracy") is not None:
-        return f"acc{format_exp(res['accuracy'])}-tol{format_exp(res['tol'])}"
-    return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
 
 
 class PlaneChannel(Family):

@@ -32,8 +32,7 @@ from typing import Any
 
 import numpy as np
 
-from knudsweep.config import axis_values
-from knudsweep.families import Family, Point, Table, check_axis_choice, reject_repeats
+from knudsweep.families import Family, Point, Table, check_axis_choice, delta_values, grid_label, reject_repeats
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
 
 PROBLEMS = ("poiseuille", "thermal_creep")
@@ -95,24 +94,6 @@ def make_wall_object(w: dict[str, Any]):
     from solver.walls import make_wall
 
     return make_wall(w["model"], **{k: w[k] for k in _WALL_KEYS[w["model"]]})
-
-
-def delta_values(section: dict[str, Any]) -> list[float]:
-    """Canonical delta values, ascending (Kn converted if given)."""
-    if "delta" in section:
-        raw = axis_values("delta", section["delta"])
-    else:
-        raw = [SQRT_PI / (2.0 * kn) for kn in axis_values("kn", section["kn"])]
-    return sorted(canonical(d) for d in raw)
-
-
-def grid_label(section: dict[str, Any]) -> str:
-    res = section["resolution"]
-    ns = "auto" if res["n_space"] is None else str(res["n_space"])
-    nv = "auto" if res["n_velocity"] is None else str(res["n_velocity"])
-    if res.get("accuracy") is not None:
-        return f"acc{format_exp(res['accuracy'])}-tol{format_exp(res['tol'])}"
-    return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
 
 
 def _tangential_alpha(w: dict[str, Any]) -> float:
