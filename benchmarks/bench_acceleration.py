@@ -7,12 +7,12 @@ Prints figures and ratios, asserts nothing.  Run from the repository root:
 
 1. Poiseuille flow (BGK, diffuse walls, default grids, tol 1e-8) at
    delta = 0.01 ... 1000 in the plane channel, the tube and a duct of aspect
-   ratio 2: iterations and wall time with and without synthetic acceleration,
+   ratio 2, and plane-channel heat transfer: iterations and wall time with and without synthetic acceleration,
    and their ratios.  The plain iteration needs ~delta^2 iterations; where it
    would take too long it runs to a cap only (to time one iteration) and its
    count is EXTRAPOLATED, marked '~': from the largest delta where it
    converged, with the growth exponent measured on the plane channel between
-   its two largest converged deltas; where a run reached its full cap, at
+   its two largest converged deltas (heat transfer: on its own runs); where a run reached its full cap, at
    least the cap plus the iterations its last-100-iteration rate still needs.
    Tables run with one numba thread (as in a sweep).
 2. Thread scaling: one accelerated point with numba.set_num_threads(1) and (2).
@@ -72,6 +72,11 @@ def plane(delta, accelerate, max_iter=None):
                                max_iter=max_iter, error_estimate=False)
 
 
+def plane_heat(delta, accelerate, max_iter=None):
+    return solve_plane_channel("heat_transfer", delta=delta, accelerate=accelerate, tol=TOL,
+                               max_iter=max_iter, error_estimate=False)
+
+
 def tube(delta, accelerate, max_iter=None):
     from solver.tube import solve_tube
 
@@ -84,15 +89,17 @@ def duct(delta, accelerate, max_iter=None):
     return solve_duct("poiseuille", delta=delta, aspect_ratio=2.0, accelerate=accelerate, tol=TOL, max_iter=max_iter)
 
 
-GEOMETRIES = {"plane channel": (plane, "G_P"), "tube": (tube, "G_P"), "duct A=2": (duct, "G_P")}
+GEOMETRIES = {"plane channel": (plane, "G_P"), "plane channel heat transfer": (plane_heat, "heat_flux"),
+              "tube": (tube, "G_P"), "duct A=2": (duct, "G_P")}
+PROBLEM_LABEL = {"plane channel heat transfer": "heat flux between walls at T0 -/+ dT/2"}
 # plain-iteration caps: the full count is measured while it stays affordable
-PLAIN_CAP = {"plane channel": 60_000, "tube": 1_000, "duct A=2": 1_000}
+PLAIN_CAP = {"plane channel": 60_000, "plane channel heat transfer": 60_000, "tube": 1_000, "duct A=2": 1_000}
 PLAIN_TIMING_CAP = 100  # iterations run only to time one plain iteration
 
 
 def bench_geometry(name, solve, coef, growth):
     """Table of plain vs accelerated; returns the measured plain counts {delta: iterations}."""
-    print(f"\n{name}: Poiseuille, BGK, diffuse wall, tol {TOL:g}")
+    print(f"\n{name}: {PROBLEM_LABEL.get(name, 'Poiseuille')}, BGK, diffuse wall, tol {TOL:g}")
     print(f"{'delta':>8} | {'plain it':>10} {'plain s':>9} | {'accel it':>8} {'accel s':>8} | "
           f"{'it ratio':>9} {'time ratio':>10} | {'rel diff':>8}")
     measured: dict[float, int] = {}
@@ -158,10 +165,10 @@ def bench_threads(cases):
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--quick", action="store_true", help="plane channel only")
+    parser.add_argument("--quick", action="store_true", help="plane channel only (Poiseuille and heat transfer)")
     args = parser.parse_args()
     print(machine_description())
-    names = ["plane channel"] if args.quick else list(GEOMETRIES)
+    names = ["plane channel", "plane channel heat transfer"] if args.quick else list(GEOMETRIES)
     # tables with one numba thread (the setting of a sweep: one process per core);
     # thread scaling is measured separately below
     numba.set_num_threads(1)
@@ -175,7 +182,9 @@ def main() -> None:
     print(f"   growth exponent of the plain count, delta {d1:g} -> {d2:g}: {growth:.2f} "
           f"(used for every '~' row beyond the last converged plain run)")
     for name in names[1:]:
-        bench_geometry(name, GEOMETRIES[name][0], GEOMETRIES[name][1], growth)
+        # the heat-transfer problem measures its own growth (its slow modes differ)
+        own = name.startswith("plane channel")
+        bench_geometry(name, GEOMETRIES[name][0], GEOMETRIES[name][1], None if own else growth)
 
     cases = [
         ("plane channel delta=0.01", lambda: plane(0.01, True)),

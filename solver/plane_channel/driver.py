@@ -28,28 +28,49 @@ DEFAULT_MAX_ITER_ACCELERATED = 2_000
 # (kernels._close_upper_wall) it is stable and cut alpha = 0.3 from 73-92 to
 # 10-14 iterations (delta 1..1000).
 _SLIP_LENGTH = 1.0162
+# Temperature-jump length (units of ell) of the heat-transfer error equation:
+# the BGK diffuse zeta_T (check-values.md Sec. 2, from memory) for every
+# model, scaled by (2 - a_E)/a_E.  Speed only, like _SLIP_LENGTH.  A scan of
+# 0.05..1.6 times this value gave 14-46 iterations (delta 1..1000, three
+# models) when the S-model heat flux is corrected too; more than ~1.2 times
+# it slowed the S-model and diverged at 1.45 times.
+_JUMP_LENGTH = 1.3027
 
 
 def acceleration_parameters(problem, kinetic, delta, lower_wall, upper_wall):
-    """(accel_kind, kappa, robin_low, robin_up) of the synthetic correction (kernels._synthetic_step)."""
+    """(accel_kind, kappa, robin_low, robin_up, lag_factor) of the synthetic correction (kernels._synthetic_step)."""
     d = kinetic.collision_factor * delta
     if problem == "heat_transfer":
-        # not accelerated: its slow modes couple density, y-momentum and
-        # energy.  An energy-only correction diverged; a coupled one (energy
-        # with Fourier closure, u_y set to zero, density from uniform p_yy)
-        # cut iterations 39/469/2869 -> 23/31/226 at delta = 1/10/30 (BGK)
-        # but diverged at delta = 100 (BGK) and 30 (ES-BGK); not kept.
-        return 0, 1.0, 1.0, 1.0
+        # Fourier conductivity in units of p v0 a / T: q_y = -kappa tau',
+        # kappa = 5 / (4 Pr delta) (lambda = (5/2)(k/m) mu / Pr)
+        kappa = 5.0 / (4.0 * kinetic.prandtl * delta)
+        robin_low = _JUMP_LENGTH * _wall_slip_factor(lower_wall, energy=True) / (delta * kappa)
+        robin_up = _JUMP_LENGTH * _wall_slip_factor(upper_wall, energy=True) / (delta * kappa)
+        # S-model: the sweep returns q = (1 - Pr) q_old + ..., so the lag of
+        # q_y in the gain adds (1 - Pr)/Pr r_q to the error flux
+        lag = (1.0 - kinetic.prandtl) / kinetic.prandtl if kinetic.heat_flux_term else 0.0
+        return 2, kappa, robin_low, robin_up, lag
     kappa = 1.0 / (d * (1.0 - kinetic.stress_coefficient))
-    robin_low = _wall_slip_length(lower_wall) / (delta * kappa)
-    robin_up = _wall_slip_length(upper_wall) / (delta * kappa)
-    return 1, kappa, robin_low, robin_up
+    robin_low = _SLIP_LENGTH * _wall_slip_factor(lower_wall) / (delta * kappa)
+    robin_up = _SLIP_LENGTH * _wall_slip_factor(upper_wall) / (delta * kappa)
+    # ES-BGK: the stress p_xy in the gain lags one sweep
+    lag = kinetic.stress_coefficient / (1.0 - kinetic.stress_coefficient)
+    return 1, kappa, robin_low, robin_up, lag
 
 
-def _wall_slip_length(wall) -> float:
-    """Slip length (units of ell) of the error equation: diffuse value times (2 - a)/a."""
-    a = wall.alpha if isinstance(wall, MaxwellWall) else wall.alpha_t
-    return _SLIP_LENGTH * (2.0 - a) / a
+def _wall_slip_factor(wall, energy: bool = False) -> float:
+    """(2 - a)/a with a the momentum (or, with energy=True, the energy) accommodation of the wall.
+
+    Cercignani-Lampis energy accommodation: (alpha_n + alpha_t (2 - alpha_t)) / 2,
+    the normal and tangential parts weighted equally (from memory; speed only).
+    """
+    if isinstance(wall, MaxwellWall):
+        a = wall.alpha
+    elif energy:
+        a = 0.5 * (wall.alpha_n + wall.alpha_t * (2.0 - wall.alpha_t))
+    else:
+        a = wall.alpha_t
+    return (2.0 - a) / a
 
 _STATUS_REASON = {
     kernels.MAX_ITER_CODE: "max_iter reached before the error estimate fell below tol",
@@ -117,9 +138,8 @@ def solve_plane_channel(
     max_iter : iteration cap per solve (default 200000 plain, 2000 accelerated).
     tol : stop when the estimated relative error of the primary moment
         (velocity, or temperature for heat transfer) is below tol.
-    accelerate : synthetic acceleration of the iteration (Poiseuille, thermal
-        creep, Couette; heat transfer runs the plain iteration and records
-        acceleration_applied = False).
+    accelerate : synthetic acceleration of the iteration (all four problems;
+        kernels._synthetic_step).
     accuracy : relative accuracy asked of every coefficient, in [1e-6, 0.1];
         the resolution is then chosen by climbing grids.resolution_ladder
         until the Richardson estimate (solver.resolution) is below it
@@ -156,7 +176,7 @@ def solve_plane_channel(
     else:
         n_velocity = _check_int("n_velocity", n_velocity, grids.MIN_VELOCITY, grids.MAX_VELOCITY)
     if max_iter is None:
-        max_iter = DEFAULT_MAX_ITER_ACCELERATED if accelerate and problem != "heat_transfer" else DEFAULT_MAX_ITER_PLAIN
+        max_iter = DEFAULT_MAX_ITER_ACCELERATED if accelerate else DEFAULT_MAX_ITER_PLAIN
     else:
         max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
 
@@ -176,8 +196,7 @@ def solve_plane_channel(
 def _solve_once(problem, delta, kinetic, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol, accelerate) -> SolverResult:
     """One solve at a fixed resolution (inputs already checked)."""
     t0 = time.perf_counter()
-    accel_kind, kappa, robin_low, robin_up = acceleration_parameters(problem, kinetic, delta, lower_wall, upper_wall)
-    es_factor = kinetic.stress_coefficient / (1.0 - kinetic.stress_coefficient)
+    accel_kind, kappa, robin_low, robin_up, lag_factor = acceleration_parameters(problem, kinetic, delta, lower_wall, upper_wall)
     if not accelerate:
         accel_kind = 0
 
@@ -202,8 +221,8 @@ def _solve_once(problem, delta, kinetic, lower_wall, upper_wall, n_space, n_velo
             G[a] = np.linalg.inv(eye - R_up[a] @ (T[:, None] * R_low[a]) * T[None, :])
     iterations, code, estimate, rho = kernels.source_iteration(
         F, *cell, tables.P, tables.Q, tables.src, d, R_low, R_up,
-        tables.Fw_low, tables.Fw_up, wy, tables.fix_mass, tables.primary, max_iter, tol, history,
-        accel_kind, kappa, es_factor, robin_low, robin_up, close_walls, T, G,
+        tables.Fw_low, tables.Fw_up, wy, tables.fix_mass, tables.primary, tables.integral_floor, max_iter, tol, history,
+        accel_kind, kappa, lag_factor, robin_low, robin_up, close_walls, T, G,
     )
     M = np.zeros((tables.P.shape[0], n_space, 2))
     kernels.compute_moments(F, tables.P, M)

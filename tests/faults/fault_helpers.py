@@ -56,10 +56,11 @@ def kill_tree(proc: subprocess.Popen) -> None:
     proc.wait()
 
 
-def start_workflow(workdir, study, log_path, *args, cores="2") -> subprocess.Popen:
+def start_workflow(workdir, study, log_path, *args, cores="2", env=None) -> subprocess.Popen:
     cmd = smk_cmd(workdir, study, "--cores", cores, *args)
     fh = open(log_path, "w")
-    return subprocess.Popen(cmd, stdout=fh, stderr=subprocess.STDOUT, start_new_session=True)
+    full_env = None if env is None else {**os.environ, **env}
+    return subprocess.Popen(cmd, stdout=fh, stderr=subprocess.STDOUT, start_new_session=True, env=full_env)
 
 
 def point_folder_files(workdir: Path) -> tuple[list[Path], list[Path], list[Path]]:

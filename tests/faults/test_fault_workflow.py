@@ -28,13 +28,13 @@ import xarray as xr
 
 from knudsweep.cli import main
 from knudsweep.config import load_study
-from knudsweep.jobs import FAULT_WRITE_LIMIT_ENV
+from knudsweep.jobs import FAULT_HOLD_ENV, FAULT_WRITE_LIMIT_ENV
 from knudsweep.plan import StudyPlan
 from knudsweep.status import study_status
 from solver.netcdf_io import read_result, write_result
 
 from fault_helpers import (check_complete, job_counts, kill_tree, point_folder_files, same_point_content,
-                           smk, start_workflow, wait_for, write_study)
+                           smk, smk_cmd, start_workflow, wait_for, write_study)
 
 DELTAS = [0.1, 0.3, 1.0, 10.0]
 SEED = 20261201
@@ -54,20 +54,37 @@ def reference(tmp_path_factory):
     other = write_study(base / "other.yaml", study="other", plane_channel__delta=[0.1, 1.0])
     workdir = base / "w"
     t0 = time.monotonic()
-    proc = start_workflow(workdir, study, base / "reference.log")
+    # the delta=10 point waits for the release file before solving, so the
+    # reference surely still runs (and holds its locks) while the intruders try
+    release = base / "release"
+    proc = start_workflow(workdir, study, base / "reference.log",
+                          env={FAULT_HOLD_ENV: f"{release}@delta=1.0e+01"})
     try:
         running = wait_for(lambda: any((workdir / "logs" / "points").rglob("*.log")), 240, proc)
         assert running and proc.poll() is None, (base / "reference.log").read_text()[-3000:]
-        same = smk(workdir, study, check=False, timeout=120)
-        # as the default workflow profile runs it (rerun-incomplete: true), so that
-        # the running points' "incomplete" marks do not stop it before the lock check
-        shared = smk(workdir, other, "--rerun-incomplete", check=False, timeout=120)
+        # "shared" runs as the default workflow profile does (rerun-incomplete:
+        # true), so that the running points' "incomplete" marks do not stop it
+        # before the lock check.
+        intruders = {
+            "same": subprocess.Popen(smk_cmd(workdir, study, "--cores", "2"), stdout=subprocess.PIPE,
+                                     stderr=subprocess.PIPE, text=True),
+            "shared": subprocess.Popen(smk_cmd(workdir, other, "--cores", "2", "--rerun-incomplete"),
+                                       stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True),
+        }
+        results = {}
+        for key, p in intruders.items():
+            out, err = p.communicate(timeout=120)
+            results[key] = subprocess.CompletedProcess(p.args, p.returncode, out, err)
+        same, shared = results["same"], results["shared"]
+        still_running = proc.poll() is None
+        release.touch()
         proc.wait(timeout=600)
     finally:
         if proc.poll() is None:
             kill_tree(proc)
     elapsed = time.monotonic() - t0
     assert proc.returncode == 0, (base / "reference.log").read_text()[-4000:]
+    assert still_running, "the reference finished before both intruders had tried to start"
     return {"study": study, "workdir": workdir, "elapsed": elapsed, "same": same, "shared": shared,
             "plan": StudyPlan(load_study(study))}
 

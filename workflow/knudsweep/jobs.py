@@ -63,6 +63,7 @@ def run_solve(pid: str, values: dict[str, Any], output: str, study: dict[str, An
 
     logger = logging.getLogger("knudsweep.solve")
     _apply_injected_write_limit(pid, logger)
+    _apply_injected_hold(pid, logger)
     study = validate_study(study)
     family = pid.split("/", 1)[0]
     with point_lock(output, logger):
@@ -157,6 +158,28 @@ def _apply_injected_write_limit(pid: str, logger: logging.Logger) -> None:
     resource.setrlimit(resource.RLIMIT_FSIZE, (limit, hard))
     logger.warning("fault injection: files written by this job are limited to %d bytes (%s)",
                    limit, FAULT_WRITE_LIMIT_ENV)
+
+
+# Fault injection for the tests: "<file>@<substring of the point id>" makes
+# this job wait, before it solves, until <file> exists (at most 300 s), so that
+# a test can act while a workflow surely still runs (a plane-channel point
+# otherwise solves in milliseconds).
+FAULT_HOLD_ENV = "KNUDSWEEP_FAULT_HOLD"
+
+
+def _apply_injected_hold(pid: str, logger: logging.Logger) -> None:
+    spec = os.environ.get(FAULT_HOLD_ENV, "")
+    if not spec:
+        return
+    release, _, pattern = spec.rpartition("@")
+    if pattern and pattern not in pid:
+        return
+    import time
+
+    logger.warning("fault injection: waiting for %s before solving (%s)", release, FAULT_HOLD_ENV)
+    deadline = time.monotonic() + 300.0
+    while not Path(release).exists() and time.monotonic() < deadline:
+        time.sleep(0.2)
 
 
 class CorruptPointsError(RuntimeError):
