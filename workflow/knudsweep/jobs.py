@@ -137,19 +137,35 @@ def _same_point_on_disk(output: str, pid: str, values: dict[str, Any]) -> bool:
             and stored == json.loads(json.dumps(dict(values), sort_keys=True)))
 
 
-# Fault injection for the tests when a small file system cannot be mounted:
-# "<bytes>@<substring of the point id>" limits the size of any file this job
-# writes (RLIMIT_FSIZE).  Python ignores SIGXFSZ, so a write past the limit
-# fails with EFBIG on the real write path, as a full disk fails it with ENOSPC.
+# Fault injection for the tests.  Each setting reads "<value>@<substring of
+# the point id>" (without "@<...>": every point) and acts only in the jobs
+# of the points whose id contains the substring.
+#
+# FAULT_WRITE_LIMIT_ENV, "<bytes>@...": when a small file system cannot be
+# mounted, limits the size of any file this job writes (RLIMIT_FSIZE).  Python
+# ignores SIGXFSZ, so a write past the limit fails with EFBIG on the real
+# write path, as a full disk fails it with ENOSPC.
 FAULT_WRITE_LIMIT_ENV = "KNUDSWEEP_FAULT_WRITE_LIMIT"
+# FAULT_HOLD_ENV, "<file>@...": the job waits, before it solves, until <file>
+# exists (at most 300 s), so that a test can act while a workflow surely still
+# runs (a plane-channel point otherwise solves in milliseconds).
+FAULT_HOLD_ENV = "KNUDSWEEP_FAULT_HOLD"
+
+
+def _injected_fault(env_name: str, pid: str) -> str | None:
+    """The value of fault-injection setting ``env_name`` if it applies to point ``pid``, else None."""
+    spec = os.environ.get(env_name, "")
+    if not spec:
+        return None
+    value, _, pattern = spec.rpartition("@") if "@" in spec else (spec, "", "")
+    if pattern and pattern not in pid:
+        return None
+    return value
 
 
 def _apply_injected_write_limit(pid: str, logger: logging.Logger) -> None:
-    spec = os.environ.get(FAULT_WRITE_LIMIT_ENV, "")
-    if not spec:
-        return
-    size, _, pattern = spec.partition("@")
-    if pattern and pattern not in pid:
+    size = _injected_fault(FAULT_WRITE_LIMIT_ENV, pid)
+    if size is None:
         return
     import resource
 
@@ -160,19 +176,9 @@ def _apply_injected_write_limit(pid: str, logger: logging.Logger) -> None:
                    limit, FAULT_WRITE_LIMIT_ENV)
 
 
-# Fault injection for the tests: "<file>@<substring of the point id>" makes
-# this job wait, before it solves, until <file> exists (at most 300 s), so that
-# a test can act while a workflow surely still runs (a plane-channel point
-# otherwise solves in milliseconds).
-FAULT_HOLD_ENV = "KNUDSWEEP_FAULT_HOLD"
-
-
 def _apply_injected_hold(pid: str, logger: logging.Logger) -> None:
-    spec = os.environ.get(FAULT_HOLD_ENV, "")
-    if not spec:
-        return
-    release, _, pattern = spec.rpartition("@")
-    if pattern and pattern not in pid:
+    release = _injected_fault(FAULT_HOLD_ENV, pid)
+    if release is None:
         return
     import time
 
