@@ -141,13 +141,16 @@ def test_acceleration_bounded_iterations_duct_models(model):
     assert res.convergence.iterations <= 50
 
 
-@pytest.mark.parametrize("delta", [0.1, 10.0, 1000.0])
-def test_acceleration_bounded_iterations_duct_low_accommodation(delta):
+@pytest.mark.parametrize(("alpha", "delta"), [(0.3, 0.1), (0.3, 10.0), (0.3, 1000.0), (0.1, 10.0), (0.1, 1000.0)])
+def test_acceleration_bounded_iterations_duct_low_accommodation(alpha, delta):
     # Walls re-emit what arrived in the previous sweep, so specular reflection
-    # lags; Anderson mixing of the moments and the wall inflow
-    # (solver.anderson) cut alpha = 0.3 from > 300 iterations (delta >= 1) to
-    # 20-38 (measured, aspect ratios 1-5, three models).
-    res = solve_duct("poiseuille", delta=delta, aspect_ratio=2.0, wall=MaxwellWall(0.3), tol=1e-8,
+    # lags.  Anderson mixing of the moments and the wall inflow
+    # (solver.anderson) and the correction of the specular inflow
+    # (duct._correct_inflow) cut alpha = 0.3 from > 300 iterations (delta >= 1)
+    # to 13-39 and alpha = 0.1 at delta = 1000 from > 300 to 15-20 (measured,
+    # three models).  Near delta = 0 alpha = 0.1 still takes 64-88: no bound
+    # is asked there (see the solver.duct docstring).
+    res = solve_duct("poiseuille", delta=delta, aspect_ratio=2.0, wall=MaxwellWall(alpha), tol=1e-8,
                      error_estimate=False, n_space=13 if delta < 1000 else None)
     assert res.status == "converged"
     assert res.convergence.iterations <= 50
