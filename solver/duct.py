@@ -99,6 +99,7 @@ MAX_DELTA = 1.0e3  # upper end of the accepted delta range (see default_sizes)
 WALL_CELL = 0.1  # first cell at the wall, in free paths (see _clustered)
 MAX_CELL = 2.0  # largest cell, in units of the uniform spacing (see _clustered)
 _MIX_DEPTH = 16  # Anderson history (solver.anderson) of the accelerated iteration
+_MIX_MEMORY = 200_000_000  # bytes for that history; fine grids get a shorter one
 _ACCEL_SLIP = 1.0162  # BGK diffuse slip (check-values 2, from memory); used only in the correction
 
 
@@ -745,7 +746,9 @@ def _solve_duct_once(problem, delta, a_r, km, wall, n_space, n_velocity, max_ite
     # not see, and the oscillation of the lagged ES-BGK stress.
     state = _IterationState((u, ty, tz, q), walls.inflow(phi1, phi3), walls.cl or walls.f[0] != 0.0)
     x = state.pack((u, ty, tz, q), walls.inflow(phi1, phi3))
-    mixer = AndersonMixer(depth=_MIX_DEPTH) if accelerate else None
+    # two stored differences per depth step: keep them under _MIX_MEMORY bytes
+    depth = int(min(_MIX_DEPTH, max(2, _MIX_MEMORY // (16 * x.size))))
+    mixer = AndersonMixer(depth=depth) if accelerate else None
     lag = km.stress_coefficient / (1.0 - km.stress_coefficient)
 
     residuals = []
@@ -826,6 +829,8 @@ def _solve_duct_once(problem, delta, a_r, km, wall, n_space, n_velocity, max_ite
         "method": "discrete ordinates, second-order upwind, quarter domain",
         "tolerance": tol,
         "max_iter": int(max_iter),
+        "anderson_depth": int(mixer.depth) if mixer is not None else 0,
+        "anderson_restarts": int(mixer.restarts) if mixer is not None else 0,
     }
     if walls.cl:
         disc["wall_kernel_defect"] = walls.defect
