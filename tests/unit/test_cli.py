@@ -1,6 +1,7 @@
 """knudsweep CLI: one-line errors with exit code 2, status listing, bench discovery."""
 
 import json
+import math
 import subprocess
 import sys
 from pathlib import Path
@@ -40,6 +41,17 @@ def run_cli(capsys, *argv):
         (["--delta", "1", "--n-space", "2"], "--n-space: got 2; allowed range is [4, inf)"),
         (["--delta", "1", "--tol", "0"], "--tol: got 0; allowed range is (0, 0.1]"),
         (["--delta", "abc"], "argument --delta: invalid float value: 'abc'"),
+        (["--delta", "2e4"], "--delta: got 20000; allowed range is [0.0001, 10000]"),
+        (["--geometry", "tube", "--delta", "2000"], "--delta: got 2000; allowed range is [0, 1000]"),
+        (["--geometry", "tube", "--delta", "1", "--problem", "couette"],
+         "--problem: unknown value 'couette'; allowed values are poiseuille, thermal_creep for --geometry tube"),
+        (["--geometry", "tube", "--delta", "1", "--aspect-ratio", "2"], "--aspect-ratio: only for --geometry duct"),
+        (["--delta", "1", "--aspect-ratio", "2"], "--aspect-ratio: only for --geometry duct"),
+        (["--geometry", "duct", "--delta", "1", "--aspect-ratio", "0.5"], "--aspect-ratio: got 0.5; allowed range is [1, 50]"),
+        (["--geometry", "duct", "--delta", "1", "--alpha-upper", "0.5"],
+         "--alpha-upper: only for --geometry plane_channel (a tube or duct has one wall)"),
+        (["--geometry", "tube", "--pressure", "100"], "--length: required with --pressure (tube radius in m"),
+        (["--geometry", "sphere", "--delta", "1"], "argument --geometry: invalid choice"),
         (["--delta", "1", "--wall-model", "specular"], "argument --wall-model: invalid choice"),
     ],
 )
@@ -110,3 +122,28 @@ def test_solve_from_pressure_uses_the_gas(capsys):
     summary = json.loads(capsys.readouterr().out)
     assert code == 0
     assert summary["delta"] == pytest.approx(delta_from_pressure("He", 2000, 300, 2e-6), rel=1e-5)
+
+
+@pytest.mark.parametrize(("geometry", "extra", "alpha", "expected"), [
+    ("tube", [], 0.8, "tube"),
+    ("duct", ["--aspect-ratio", "2"], 1.0, "duct-A=2.0"),
+])
+def test_solve_tube_and_duct_points(capsys, tmp_path, geometry, extra, alpha, expected):
+    from solver.duct import free_molecular_flow_rate
+    from solver.netcdf_io import read_result
+
+    out = tmp_path / "p.nc"
+    code = main(["solve", "--geometry", geometry, *extra, "--delta", "0", "--alpha", str(alpha),
+                 "--output", str(out), "--json"])
+    summary = json.loads(capsys.readouterr().out)
+    assert code == 0 and summary["status"] == "converged"
+    assert summary["geometry"] == expected and summary["wall"] == f"maxwell-alpha={alpha}"
+    if geometry == "tube":
+        # Knudsen's free-molecular 8/(3 sqrt(pi)) times (2 - alpha)/alpha, exact
+        # for the tube (every specular reflection repeats the chord)
+        expect = 8.0 / (3.0 * math.sqrt(math.pi)) * (2.0 - alpha) / alpha
+    else:
+        # closed-form quadrature; 0.5 %: the ray effect of 6 angles per quadrant (measured 0.35 %)
+        expect = free_molecular_flow_rate(2.0)
+    assert summary["coefficients"]["G_P"] == pytest.approx(expect, rel=5e-3)
+    assert read_result(out).coefficient("G_P") == summary["coefficients"]["G_P"]

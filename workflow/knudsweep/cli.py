@@ -1,6 +1,7 @@
 """``knudsweep`` command line: solve one point, list a study's status, run benchmarks.
 
     knudsweep solve --problem poiseuille --model bgk --delta 1.0 --alpha 0.9 --json
+    knudsweep solve --geometry duct --aspect-ratio 4 --problem thermal_creep --delta 10
     knudsweep status config/config.yaml [--requeue-failed] [--requeue-outdated]
     knudsweep bench
 
@@ -58,21 +59,42 @@ def _in_range(option: str, value, low, high, high_open=False):
     return value
 
 
-def _solve_values(args) -> dict:
-    """Point values (as the plane-channel family builds them) from the options."""
-    from knudsweep.families.plane_channel import MODELS, PROBLEMS, wall_label
-    from knudsweep.identity import canonical
+def _solve_values(args) -> tuple[str, dict]:
+    """(family, point values as that family builds them) from the options."""
+    if args.geometry == "plane_channel":
+        from knudsweep.families.plane_channel import MODELS, PROBLEMS
+    else:
+        from knudsweep.families.tube_duct import MODELS, PROBLEMS
     from solver import gas as gasmod
 
     if args.problem not in PROBLEMS:
-        raise CliError(f"--problem: unknown value {args.problem!r}; allowed values are {', '.join(PROBLEMS)}")
+        raise CliError(f"--problem: unknown value {args.problem!r}; allowed values are {', '.join(PROBLEMS)}"
+                       + ("" if args.geometry == "plane_channel" else f" for --geometry {args.geometry}"))
     if args.model not in MODELS:
         raise CliError(f"--model: unknown value {args.model!r}; allowed values are {', '.join(MODELS)}")
     if args.gas not in gasmod.known_gases():
         raise CliError(f"--gas: unknown gas {args.gas!r}; allowed values are {', '.join(gasmod.known_gases())}")
-    # Every value given is checked, used or not, against the study schema's ranges.
-    for option, value in (("--delta", args.delta), ("--kn", args.kn)):
-        _in_range(option, _positive(option, value), 0, DELTA_MAX)
+    if args.geometry == "plane_channel":
+        return "plane_channel", _plane_channel_values(args)
+    return "tube_duct", _tube_duct_values(args)
+
+
+def _delta(args, length_name: str, delta_min: float, delta_max: float) -> float:
+    """delta from exactly one of --delta, --kn, --pressure (+ --length, --temperature, --gas).
+
+    The solver accepts delta in [delta_min, delta_max] (delta_min = 0: free-molecular allowed).
+    """
+    from solver import gas as gasmod
+
+    span = f"[{delta_min:g}, {delta_max:g}]"
+    # Every value given is checked, used or not, against the allowed ranges.
+    if args.delta is not None:
+        if delta_min > 0:
+            _positive("--delta", args.delta)
+        if not (math.isfinite(args.delta) and delta_min <= args.delta <= delta_max):
+            raise CliError(f"--delta: got {args.delta:g}; allowed range is {span}")
+    if args.kn is not None:
+        _in_range("--kn", _positive("--kn", args.kn), 0, DELTA_MAX)
     _positive("--pressure", args.pressure)
     _positive("--length", args.length)
     _in_range("--temperature", _positive("--temperature", args.temperature), 0, 10000)
@@ -80,36 +102,21 @@ def _solve_values(args) -> dict:
     if len(given) != 1:
         raise CliError("--delta: give exactly one of --delta, --kn, --pressure")
     if given[0] == "delta":
-        delta = _positive("--delta", args.delta)
-    elif given[0] == "kn":
-        delta = gasmod.delta_from_kn(_positive("--kn", args.kn))
+        return float(args.delta)
+    if given[0] == "kn":
+        delta = gasmod.delta_from_kn(args.kn)
+        what = "--kn"
     else:
-        _positive("--pressure", args.pressure)
         if args.length is None:
-            raise CliError("--length: required with --pressure (plate gap in m, allowed range (0, inf))")
-        _positive("--length", args.length)
-        _positive("--temperature", args.temperature)
+            raise CliError(f"--length: required with --pressure ({length_name} in m, allowed range (0, inf))")
         delta = gasmod.delta_from_pressure(args.gas, args.pressure, args.temperature, args.length)
-        if not 0 < delta <= DELTA_MAX:
-            raise CliError(f"--pressure: gives delta = {delta:g} with this --length and --temperature; "
-                           f"allowed range of delta is (0, {DELTA_MAX:g}]")
+        what = "--pressure"
+    if not delta_min <= delta <= delta_max:
+        raise CliError(f"{what}: gives delta = {delta:g}; allowed range of delta is {span}")
+    return delta
 
-    def plate(alpha, alpha_t, alpha_n, suffix):
-        if args.wall_model == "maxwell":
-            if alpha_t is not None or alpha_n is not None:
-                raise CliError(f"--alpha-t{suffix}: only for --wall-model cercignani_lampis")
-            return {"model": "maxwell", "alpha": canonical(_in_range(f"--alpha{suffix}", 1.0 if alpha is None else alpha, 0, 1))}
-        if alpha is not None:
-            raise CliError(f"--alpha{suffix}: only for --wall-model maxwell; use --alpha-t/--alpha-n")
-        return {
-            "model": "cercignani_lampis",
-            "alpha_t": canonical(_in_range(f"--alpha-t{suffix}", 1.0 if alpha_t is None else alpha_t, 0, 2, high_open=True)),
-            "alpha_n": canonical(_in_range(f"--alpha-n{suffix}", 1.0 if alpha_n is None else alpha_n, 0, 1)),
-        }
 
-    lower = plate(args.alpha, args.alpha_t, args.alpha_n, "")
-    has_upper = any(v is not None for v in (args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper))
-    upper = plate(args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper, "-upper") if has_upper else None
+def _check_sizes(args) -> None:
     for opt, val, low, high in (("--n-space", args.n_space, 4, 100000), ("--n-velocity", args.n_velocity, 4, 10000),
                                 ("--max-iter", args.max_iter, 1, 100000000), ("--threads", args.threads, 1, 256)):
         if val is not None and val < low:
@@ -117,6 +124,68 @@ def _solve_values(args) -> dict:
         if val is not None and val > high:
             raise CliError(f"{opt}: got {val}; allowed range is [{low}, {high}]")
     _in_range("--tol", args.tol, 0, 0.1)
+
+
+def _wall_values(args, alpha, alpha_t, alpha_n, suffix) -> dict:
+    from knudsweep.identity import canonical
+
+    if args.wall_model == "maxwell":
+        if alpha_t is not None or alpha_n is not None:
+            raise CliError(f"--alpha-t{suffix}: only for --wall-model cercignani_lampis")
+        return {"model": "maxwell", "alpha": canonical(_in_range(f"--alpha{suffix}", 1.0 if alpha is None else alpha, 0, 1))}
+    if alpha is not None:
+        raise CliError(f"--alpha{suffix}: only for --wall-model maxwell; use --alpha-t/--alpha-n")
+    return {
+        "model": "cercignani_lampis",
+        "alpha_t": canonical(_in_range(f"--alpha-t{suffix}", 1.0 if alpha_t is None else alpha_t, 0, 2, high_open=True)),
+        "alpha_n": canonical(_in_range(f"--alpha-n{suffix}", 1.0 if alpha_n is None else alpha_n, 0, 1)),
+    }
+
+
+def _tube_duct_values(args) -> dict:
+    from knudsweep.families.tube_duct import wall_label
+    from knudsweep.identity import canonical, format_plain
+    from solver.duct import MAX_ASPECT_RATIO, MAX_DELTA
+
+    length_name = "tube radius" if args.geometry == "tube" else "duct height (the smaller side)"
+    delta = _delta(args, length_name, 0.0, MAX_DELTA)
+    for opt in ("alpha_upper", "alpha_t_upper", "alpha_n_upper"):
+        if getattr(args, opt) is not None:
+            raise CliError(f"--{opt.replace('_', '-')}: only for --geometry plane_channel (a tube or duct has one wall)")
+    if args.geometry == "tube":
+        if args.aspect_ratio is not None:
+            raise CliError("--aspect-ratio: only for --geometry duct")
+        label, aspect = "tube", 1.0
+    else:
+        aspect = 1.0 if args.aspect_ratio is None else args.aspect_ratio
+        if not (math.isfinite(aspect) and 1.0 <= aspect <= MAX_ASPECT_RATIO):
+            raise CliError(f"--aspect-ratio: got {aspect:g}; allowed range is [1, {MAX_ASPECT_RATIO:g}]")
+        aspect = canonical(aspect)
+        label = f"duct-A={format_plain(aspect)}"
+    _check_sizes(args)
+    wall = _wall_values(args, args.alpha, args.alpha_t, args.alpha_n, "")
+    return {
+        "geometry": label, "shape": args.geometry, "aspect_ratio": aspect,
+        "problem": args.problem, "model": args.model, "delta": canonical(delta),
+        "wall": wall_label(wall), "wall_params": wall,
+        "n_space": args.n_space, "n_velocity": args.n_velocity, "tol": canonical(args.tol), "accuracy": None,
+    }
+
+
+def _plane_channel_values(args) -> dict:
+    from knudsweep.families.plane_channel import wall_label
+    from knudsweep.identity import canonical
+
+    if args.aspect_ratio is not None:
+        raise CliError("--aspect-ratio: only for --geometry duct")
+    from solver.plane_channel.driver import DELTA_RANGE
+
+    delta = _delta(args, "plate gap", *DELTA_RANGE)
+
+    lower = _wall_values(args, args.alpha, args.alpha_t, args.alpha_n, "")
+    has_upper = any(v is not None for v in (args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper))
+    upper = _wall_values(args, args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper, "-upper") if has_upper else None
+    _check_sizes(args)
     return {
         "problem": args.problem,
         "model": args.model,
@@ -133,19 +202,20 @@ def _solve_values(args) -> dict:
 def cmd_solve(args) -> int:
     from knudsweep.point_job import configure_numba
 
-    values = _solve_values(args)
+    family, values = _solve_values(args)
     configure_numba(args.threads)
     from knudsweep.point_job import solve_point, solve_values
 
     section = {"iteration": {"max_iter": args.max_iter, "accelerate": not args.no_accelerate,
                              "retry_max_iter_factor": 1}}
     if args.output:
-        result = solve_point("plane_channel", values, args.output, section=section, pid="cli")
+        result = solve_point(family, values, args.output, section=section, pid="cli")
     else:
-        result, _, _ = solve_values("plane_channel", values, section)
+        result, _, _ = solve_values(family, values, section)
     summary = result.summary()
     summary["delta"] = values["delta"]
     summary["wall"] = values["wall"]
+    summary["geometry"] = values.get("geometry", "plane_channel")
     if args.output:
         summary["output"] = str(args.output)
     if args.json:
@@ -216,14 +286,18 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="knudsweep", description="Parametric sweeps of rarefied-gas transport.")
     sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
-    s = sub.add_parser("solve", help="solve one plane-channel point")
-    s.add_argument("--problem", default="poiseuille", help="poiseuille, thermal_creep, couette, heat_transfer")
+    s = sub.add_parser("solve", help="solve one point: plane channel, tube or duct")
+    s.add_argument("--geometry", default="plane_channel", choices=["plane_channel", "tube", "duct"],
+                   help="plane_channel (default), tube or duct")
+    s.add_argument("--aspect-ratio", type=float, help="duct width / height, [1, 50] (default 1)")
+    s.add_argument("--problem", default="poiseuille",
+                   help="poiseuille, thermal_creep; plane channel also couette, heat_transfer")
     s.add_argument("--model", default="bgk", help="bgk, s_model, es_bgk")
     s.add_argument("--gas", default="Ar", help="gas name from config/gases.yaml (used with --pressure)")
-    s.add_argument("--delta", type=float, help="rarefaction parameter, > 0")
+    s.add_argument("--delta", type=float, help="rarefaction parameter, > 0 (tube, duct: >= 0, at most 1000)")
     s.add_argument("--kn", type=float, help="Knudsen number, > 0 (delta = sqrt(pi)/(2 Kn))")
     s.add_argument("--pressure", type=float, help="pressure in Pa (needs --length, --temperature, --gas)")
-    s.add_argument("--length", type=float, help="plate gap in m (with --pressure)")
+    s.add_argument("--length", type=float, help="plate gap, tube radius or duct height in m (with --pressure)")
     s.add_argument("--temperature", type=float, default=300.0, help="temperature in K (with --pressure), default 300")
     s.add_argument("--wall-model", default="maxwell", choices=["maxwell", "cercignani_lampis"])
     s.add_argument("--alpha", type=float, help="Maxwell accommodation in (0, 1], default 1")
@@ -232,7 +306,7 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--alpha-n", type=float, help="Cercignani-Lampis normal-energy accommodation in (0, 1]")
     s.add_argument("--alpha-t-upper", type=float, help="upper plate alpha_t, (0, 2)")
     s.add_argument("--alpha-n-upper", type=float, help="upper plate alpha_n, (0, 1]")
-    s.add_argument("--n-space", type=int, help="cells across the gap (default: solver's)")
+    s.add_argument("--n-space", type=int, help="cells across the gap / radial or half-height nodes (default: solver's)")
     s.add_argument("--n-velocity", type=int, help="velocity nodes (default: solver's)")
     s.add_argument("--max-iter", type=int, help="iteration limit (default: solver's)")
     s.add_argument("--tol", type=float, default=1e-8, help="convergence tolerance, (0, 0.1]")
