@@ -62,12 +62,12 @@ def reference(tmp_path_factory):
     try:
         running = wait_for(lambda: any((workdir / "logs" / "points").rglob("*.log")), 240, proc)
         assert running and proc.poll() is None, (base / "reference.log").read_text()[-3000:]
-        # "shared" runs as the default workflow profile does (rerun-incomplete:
-        # true), so that the running points' "incomplete" marks do not stop it
-        # before the lock check.
+        # Both run as the default workflow profile does (rerun-incomplete:
+        # true), so that the running points' "incomplete" marks do not stop
+        # them before the lock check (the held point is always running here).
         intruders = {
-            "same": subprocess.Popen(smk_cmd(workdir, study, "--cores", "2"), stdout=subprocess.PIPE,
-                                     stderr=subprocess.PIPE, text=True),
+            "same": subprocess.Popen(smk_cmd(workdir, study, "--cores", "2", "--rerun-incomplete"),
+                                     stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True),
             "shared": subprocess.Popen(smk_cmd(workdir, other, "--cores", "2", "--rerun-incomplete"),
                                        stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True),
         }
