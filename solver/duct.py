@@ -744,8 +744,9 @@ def _solve_duct_once(problem, delta, a_r, km, wall, n_space, n_velocity, max_ite
     # sweep).  Anderson mixing of this state (solver.anderson) removes most of
     # the wall lag of specular reflection, which the synthetic correction does
     # not see, and the oscillation of the lagged ES-BGK stress.
-    state = _IterationState((u, ty, tz, q), walls.inflow(phi1, phi3), walls.cl or walls.f[0] != 0.0)
-    x = state.pack((u, ty, tz, q), walls.inflow(phi1, phi3))
+    inflow = walls.inflow(phi1, phi3)
+    state = _IterationState((u, ty, tz, q), inflow, walls.cl or walls.f[0] != 0.0)
+    x = state.pack((u, ty, tz, q), inflow)
     # two stored differences per depth step: keep them under _MIX_MEMORY bytes
     depth = int(min(_MIX_DEPTH, max(2, _MIX_MEMORY // (16 * x.size))))
     mixer = AndersonMixer(depth=depth) if accelerate else None
@@ -782,7 +783,7 @@ def _solve_duct_once(problem, delta, a_r, km, wall, n_space, n_velocity, max_ite
         if change < tol:
             status = CONVERGED
             break
-        inflow = walls.inflow(phi1, phi3)
+        inflow = walls.inflow(phi1, phi3) if state.with_inflow else None  # diffuse walls: no inflow
         if corr is not None and state.with_inflow:
             _correct_inflow(inflow, e, walls.f[0])
         gx = state.pack((un, tyn, tzn, qn), inflow)

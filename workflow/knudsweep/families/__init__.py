@@ -153,6 +153,45 @@ def grid_label(section: dict[str, Any]) -> str:
     return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
 
 
+# accommodation keys of each wall law (solver.walls)
+WALL_KEYS = {"maxwell": ("alpha",), "cercignani_lampis": ("alpha_t", "alpha_n")}
+
+
+def wall_params(spec: dict[str, Any], where: str) -> dict[str, Any]:
+    """Canonical ``{model, <its accommodation keys>}`` of one wall spec; checks keys and ranges.
+
+    ``where`` prefixes the key path in the error (``walls[0]``, ``walls[0].upper``).
+    """
+    from knudsweep.identity import canonical
+    from solver.walls import make_wall
+
+    model = spec.get("model", "maxwell")
+    allowed = WALL_KEYS[model]
+    for key in ("alpha", "alpha_t", "alpha_n"):
+        if key in spec and key not in allowed:
+            raise ValueError(f"{where}.{key}: not a parameter of wall model {model!r}; its parameters are {', '.join(allowed)}")
+    params = {key: canonical(spec.get(key, 1.0)) for key in allowed}
+    try:
+        make_wall(model, **params)
+    except ValueError as exc:
+        raise ValueError(f"{where}.{exc}") from None
+    return {"model": model, **params}
+
+
+def one_wall_label(w: dict[str, Any]) -> str:
+    """Readable, path-safe label: ``maxwell-alpha=0.9`` or ``cercignani_lampis-alpha_t=1.0-alpha_n=0.5``."""
+    from knudsweep.identity import format_plain
+
+    return "-".join([w["model"]] + [f"{k}={format_plain(w[k])}" for k in WALL_KEYS[w["model"]]])
+
+
+def make_wall_object(w: dict[str, Any] | None):
+    """The solver wall object of canonical wall params (None stays None)."""
+    from solver.walls import make_wall
+
+    return None if w is None else make_wall(w["model"], **{k: w[k] for k in WALL_KEYS[w["model"]]})
+
+
 def reject_repeats(key: str, labels: list[str]) -> None:
     """ValueError naming ``key[i]`` when a label repeats an earlier one."""
     for i, label in enumerate(labels):

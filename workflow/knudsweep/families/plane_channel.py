@@ -27,8 +27,9 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from knudsweep.families import Family, Point, check_axis_choice, delta_values, grid_label, reject_repeats
-from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
+from knudsweep.families import (Family, Point, check_axis_choice, delta_values, grid_label, make_wall_object,
+                                 one_wall_label, reject_repeats, wall_params)
+from knudsweep.identity import canonical, format_exp, point_id, segment
 
 PROBLEMS = ("poiseuille", "thermal_creep", "couette", "heat_transfer")
 MODELS = ("bgk", "s_model", "es_bgk")
@@ -48,54 +49,22 @@ MAIN_COEFFICIENT = {
     "heat_transfer": "heat_flux",
 }
 
-_WALL_KEYS = {"maxwell": ("alpha",), "cercignani_lampis": ("alpha_t", "alpha_n")}
-
-
-def _wall_params(spec: dict[str, Any], where: str) -> dict[str, Any]:
-    """Canonical ``{model, <its accommodation keys>}`` of one plate; checks keys and ranges."""
-    from solver.walls import make_wall
-
-    model = spec.get("model", "maxwell")
-    allowed = _WALL_KEYS[model]
-    for key in ("alpha", "alpha_t", "alpha_n"):
-        if key in spec and key not in allowed:
-            raise ValueError(
-                f"{where}.{key}: not a parameter of wall model {model!r}; "
-                f"its parameters are {', '.join(allowed)}"
-            )
-    params = {key: canonical(spec.get(key, 1.0)) for key in allowed}
-    try:
-        make_wall(model, **params)
-    except ValueError as exc:
-        raise ValueError(f"{where}.{exc}") from None
-    return {"model": model, **params}
-
-
 def wall_label(lower: dict[str, Any], upper: dict[str, Any] | None) -> str:
-    """Readable, path-safe label: ``maxwell-alpha=0.9`` or ``cercignani_lampis-alpha_t=1.0-alpha_n=0.5``."""
-
-    def one(w):
-        return "-".join([w["model"]] + [f"{k}={format_plain(w[k])}" for k in _WALL_KEYS[w["model"]]])
-
-    return one(lower) if upper is None else f"{one(lower)}_upper={one(upper)}"
+    """``<lower>`` or ``<lower>_upper=<upper>``, each as :func:`knudsweep.families.one_wall_label`."""
+    return one_wall_label(lower) if upper is None else f"{one_wall_label(lower)}_upper={one_wall_label(upper)}"
 
 
 def make_wall_objects(values: dict[str, Any]):
     """Solver wall objects (lower, upper-or-None) from a point's values."""
-    from solver.walls import make_wall
-
-    def build(w):
-        return None if w is None else make_wall(w["model"], **{k: w[k] for k in _WALL_KEYS[w["model"]]})
-
-    return build(values["lower_wall"]), build(values["upper_wall"])
+    return make_wall_object(values["lower_wall"]), make_wall_object(values["upper_wall"])
 
 
 def wall_settings(section: dict[str, Any]) -> list[tuple[str, dict, dict | None]]:
     """``[(label, lower, upper-or-None), ...]`` of the section's walls."""
     out = []
     for i, spec in enumerate(section["walls"]):
-        lower = _wall_params(spec, f"walls[{i}]")
-        upper = _wall_params(spec["upper"], f"walls[{i}].upper") if "upper" in spec else None
+        lower = wall_params(spec, f"walls[{i}]")
+        upper = wall_params(spec["upper"], f"walls[{i}].upper") if "upper" in spec else None
         out.append((wall_label(lower, upper), lower, upper))
     return out
 

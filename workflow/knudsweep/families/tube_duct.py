@@ -32,13 +32,13 @@ from typing import Any
 
 import numpy as np
 
-from knudsweep.families import Family, Point, Table, check_axis_choice, delta_values, grid_label, reject_repeats
+from knudsweep.families import (Family, Point, Table, check_axis_choice, delta_values, grid_label, make_wall_object,
+                                 one_wall_label, reject_repeats, wall_params)
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
 
 PROBLEMS = ("poiseuille", "thermal_creep")
 MODELS = ("bgk", "s_model", "es_bgk")
 MAIN_COEFFICIENT = {"poiseuille": "G_P", "thermal_creep": "G_T"}
-_WALL_KEYS = {"maxwell": ("alpha",), "cercignani_lampis": ("alpha_t", "alpha_n")}
 
 SQRT_PI = math.sqrt(math.pi)
 G_FM_TUBE = 8.0 / (3.0 * SQRT_PI)  # Knudsen 1909; check-values 0.3 [derived]
@@ -61,39 +61,15 @@ def geometry_settings(section: dict[str, Any]) -> list[tuple[str, str, float]]:
     return out
 
 
-def _wall_params(spec: dict[str, Any], where: str) -> dict[str, Any]:
-    from solver.walls import make_wall
-
-    model = spec.get("model", "maxwell")
-    allowed = _WALL_KEYS[model]
-    for key in ("alpha", "alpha_t", "alpha_n"):
-        if key in spec and key not in allowed:
-            raise ValueError(f"{where}.{key}: not a parameter of wall model {model!r}; its parameters are {', '.join(allowed)}")
-    params = {key: canonical(spec.get(key, 1.0)) for key in allowed}
-    try:
-        make_wall(model, **params)
-    except ValueError as exc:
-        raise ValueError(f"{where}.{exc}") from None
-    return {"model": model, **params}
-
-
-def wall_label(w: dict[str, Any]) -> str:
-    """``maxwell-alpha=0.9`` or ``cercignani_lampis-alpha_t=0.8-alpha_n=0.5``."""
-    return "-".join([w["model"]] + [f"{k}={format_plain(w[k])}" for k in _WALL_KEYS[w["model"]]])
+wall_label = one_wall_label  # one wall per tube or duct
 
 
 def wall_settings(section: dict[str, Any]) -> list[tuple[str, dict]]:
     out = []
     for i, spec in enumerate(section["walls"]):
-        w = _wall_params(spec, f"walls[{i}]")
+        w = wall_params(spec, f"walls[{i}]")
         out.append((wall_label(w), w))
     return out
-
-
-def make_wall_object(w: dict[str, Any]):
-    from solver.walls import make_wall
-
-    return make_wall(w["model"], **{k: w[k] for k in _WALL_KEYS[w["model"]]})
 
 
 def _tangential_alpha(w: dict[str, Any]) -> float:

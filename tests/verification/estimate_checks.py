@@ -1,0 +1,20 @@
+"""Shared check of the discretization error estimates (solver.resolution).
+
+An estimate is honest when the actual error against a much finer reference
+solve of the same equations is at most HONEST times the estimate.  The factor 3
+is the brief's acceptance bound for an a-posteriori estimate (common practice,
+no source).  It is also informative when it stays below ``max_relative`` of the
+value: the bound each caller sets from the measured error of its default grid.
+"""
+
+HONEST = 3.0  # actual error <= HONEST * estimate
+
+
+def assert_estimate_honest(res, ref, names, max_relative, label=""):
+    """Each coefficient in ``names`` of ``res``: honest against ``ref`` and below ``max_relative``."""
+    for name in names:
+        actual = abs(res.coefficient(name) - ref.coefficient(name))
+        est = res.coefficient(f"{name}_error_estimate")
+        print(f"\n{label} {name}: actual {actual:.2e}, estimate {est:.2e}")
+        assert actual <= HONEST * est
+        assert est <= max_relative * abs(ref.coefficient(name))
