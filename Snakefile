@@ -1,10 +1,11 @@
 # knudsweep: parametric sweeps of rarefied-gas transport.
 #
-#   snakemake --cores 2                        demo study (config/config.yaml)
-#   snakemake --cores 2 --configfile my.yaml   any other study (replaces the demo)
-#   snakemake --cores 2 figures                redraw figures from results/<study>/sweep.nc
-#   recommended local settings: add  --workflow-profile config/profiles/default
-#   cluster: see config/profiles/slurm/profile.yaml
+#   knudsweep run --cores 2                        demo study (config/config.yaml), safe settings
+#   knudsweep run --cores 2 --configfile my.yaml   any other study (replaces the demo)
+#   knudsweep run --cores 2 figures                redraw figures from results/<study>/sweep.nc
+# `knudsweep run` is snakemake with --workflow-profile config/profiles/default
+# (keep-going, rerun-incomplete, retries); plain `snakemake` works too.
+# Cluster: see config/profiles/slurm/profile.yaml
 from snakemake.utils import min_version
 
 min_version("9.0")
@@ -31,7 +32,7 @@ include: "workflow/rules/plot.smk"
 ##### target #####
 rule all:
     input:
-        PLAN.point_files(),
+        PLAN.sweep_file,
         PLAN.table_files(),
         PLAN.figure_files(),
     default_target: True

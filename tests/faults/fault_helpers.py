@@ -13,7 +13,7 @@ import numpy as np
 import xarray as xr
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "workflow"))
-from wf_helpers import DATA, REPO, job_counts, smk, smk_cmd, write_study  # noqa: E402,F401
+from wf_helpers import DATA, REPO, batch_lines, job_counts, smk, smk_cmd, solved_in, write_study  # noqa: E402,F401
 
 # Hidden files a point folder may hold besides complete point files: the writer's
 # temporary (.<name>.<pid>.tmp), the per-point lock and the status sidecar.

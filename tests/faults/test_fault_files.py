@@ -98,9 +98,9 @@ STUDY = {
 
 SOLVE_JOB = textwrap.dedent('''
     import json, sys
-    from knudsweep.jobs import run_solve
-    pid, values, output, study, log = json.loads(sys.argv[1])
-    run_solve(pid, values, output, study, log=log)
+    from knudsweep.batch_job import run_batch
+    pid, values, root, study, log = json.loads(sys.argv[1])
+    run_batch("plane_channel/b0", {pid: values}, root + "/batch.nc", study, log_path=log, root=root)
 ''')
 
 HOLDER = textwrap.dedent('''
@@ -117,7 +117,7 @@ def _solve_job(tmp_path, name):
     (point,) = StudyPlan(study).points.values()
     out = tmp_path / "results" / "points" / f"{point.pid}.nc"
     log = tmp_path / f"{name}.log"
-    args = json.dumps([point.pid, point.values, str(out), study, str(log)])
+    args = json.dumps([point.pid, point.values, str(tmp_path), study, str(log)])
     return point, out, log, subprocess.Popen([sys.executable, "-c", SOLVE_JOB, args],
                                              stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
 
@@ -141,7 +141,7 @@ def test_killed_lock_holder_releases_the_point_and_a_waiting_job_computes_it(tmp
         holder.wait()
     assert job.wait(timeout=300) == 0
     assert check_complete(out) == "converged"
-    assert "wrote" in log.read_text()
+    assert "1 point, 1 solved, 0 reused" in log.read_text()
     assert sidecar_path(out).exists()
 
 

@@ -32,7 +32,7 @@ BASE = {
         "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1.0e-6},
         "iteration": {"max_iter": 100, "accelerate": True, "retry_max_iter_factor": 2},
     },
-    "execution": {"threads_per_point": 1, "gather_workers": 1},
+    "execution": {"threads_per_batch": 1, "gather_workers": 1},
     "figures": {"formats": ["png"], "width": 5.0, "height": 3.5, "dpi": 60},
 }
 

@@ -33,8 +33,8 @@ from knudsweep.plan import StudyPlan
 from knudsweep.status import study_status
 from solver.netcdf_io import read_result, write_result
 
-from fault_helpers import (check_complete, job_counts, kill_tree, point_folder_files, same_point_content,
-                           smk, smk_cmd, start_workflow, wait_for, write_study)
+from fault_helpers import (batch_lines, check_complete, job_counts, kill_tree, point_folder_files, same_point_content,
+                           smk, smk_cmd, solved_in, start_workflow, wait_for, write_study)
 
 DELTAS = [0.1, 0.3, 1.0, 10.0]
 SEED = 20261201
@@ -47,7 +47,7 @@ def report(capsys, text):
 
 @pytest.fixture(scope="module")
 def reference(tmp_path_factory):
-    """One uninterrupted run; while it runs, two more workflows try to start in its directory."""
+    """One uninterrupted run; while it runs, the same study and a study sharing two points start in its directory."""
     base = tmp_path_factory.mktemp("reference")
     study = write_study(base / "faults.yaml", study="faults", plane_channel__delta=DELTAS)
     # A second study that shares two of the points (same grid, delta subset).
@@ -60,7 +60,7 @@ def reference(tmp_path_factory):
     proc = start_workflow(workdir, study, base / "reference.log",
                           env={FAULT_HOLD_ENV: f"{release}@delta=1.0e+01"})
     try:
-        running = wait_for(lambda: any((workdir / "logs" / "points").rglob("*.log")), 240, proc)
+        running = wait_for(lambda: any((workdir / "logs" / "faults" / "batches").rglob("*.log")), 240, proc)
         assert running and proc.poll() is None, (base / "reference.log").read_text()[-3000:]
         # Both run as the default workflow profile does (rerun-incomplete:
         # true), so that the running points' "incomplete" marks do not stop
@@ -91,12 +91,20 @@ def reference(tmp_path_factory):
 
 def test_second_workflow_on_the_same_directory_refuses_and_damages_nothing(reference):
     plan, workdir = reference["plan"], reference["workdir"]
-    for key in ("same", "shared"):
-        r = reference[key]
-        out = r.stdout + r.stderr
-        assert r.returncode != 0, f"{key}: a second workflow was allowed to run:\n{out[-3000:]}"
-        assert "LockException" in out or "cannot be locked" in out, out[-3000:]
-        assert "rule solve" not in out  # refused before scheduling any job
+    # the same study again: Snakemake's lock on its outputs refuses it before any job
+    r = reference["same"]
+    out = r.stdout + r.stderr
+    assert r.returncode != 0, f"a second workflow of the same study was allowed to run:\n{out[-3000:]}"
+    assert "LockException" in out or "cannot be locked" in out, out[-3000:]
+    assert "rule solve_batch" not in out
+    # another study that shares two points has other outputs, so it may run beside it: the point
+    # files are a shared cache under per-point locks, so each shared point is solved by exactly
+    # one of the two workflows (usually the reference, which started first) and reused by the other
+    r = reference["shared"]
+    out = r.stdout + r.stderr
+    assert r.returncode == 0, out[-3000:]
+    lines = batch_lines(out)
+    assert len(lines) == 1 and lines[0]["solved"] + lines[0]["reused"] == 2, lines
     for f in plan.point_files():
         assert check_complete(workdir / f) == "converged"
     assert (workdir / plan.sweep_file).is_file()
@@ -207,21 +215,22 @@ def test_corrupt_and_outdated_points_are_detected_and_only_they_recomputed(refer
     assert not outdated.exists() and all(f.exists() for f in corrupt)
 
     assert not (workdir / plan.sweep_file).exists()  # removed with the requeue: it must be rebuilt
-    # run 1: recomputes only the outdated point; gather finds the corrupt files, moves them
-    # aside and fails, so the sweep is rebuilt (and they are recomputed) on the next run
-    r = smk(workdir, study, "--keep-going", check=False)
+    assert not any((workdir / f).exists() for f in plan.batch_files())  # the batch holding the point too
+    # one run: the batch job checks every point file of its batch, moves the corrupt ones aside
+    # (one log line each, by path) and solves them with the outdated one; the others are reused
+    r = smk(workdir, study)
     out = r.stdout + r.stderr
-    assert r.returncode != 0 and job_counts(out).get("solve") == 1
-    gather_log = (workdir / "logs" / plan.name / "gather.log").read_text()
-    detected = [f for f in corrupt if f"corrupt point file {f.relative_to(workdir)} (" in gather_log]
-    assert "3 corrupt point file(s) moved aside; run the workflow again" in gather_log
-    assert all(Path(f"{f}.corrupt").exists() and not f.exists() for f in corrupt)
+    assert job_counts(out).get("solve_batch") == 1
+    assert solved_in(out) == len(victims), batch_lines(out)
+    batch_log = "".join(p.read_text() for p in (workdir / "logs" / plan.name / "batches").rglob("*.log"))
+    detected = [f for f in corrupt if f"invalid point file {f.relative_to(workdir)} (unreadable" in batch_log]
+    assert all(Path(f"{f}.corrupt").exists() for f in corrupt)
     # provenance: the recomputed point carries the current solver version
     with xr.open_dataset(outdated) as ds:
         assert ds.attrs["code_version"] == _version()
-    # run 2: recomputes exactly the corrupt ones
+    # nothing left to do
     r = smk(workdir, study)
-    assert job_counts(r.stdout + r.stderr).get("solve") == len(corrupt)
+    assert not batch_lines(r.stdout + r.stderr)
     with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
         assert (ds["status"] == "converged").all()
         # provenance: every gathered point names the solver version that computed it
@@ -230,8 +239,8 @@ def test_corrupt_and_outdated_points_are_detected_and_only_they_recomputed(refer
         assert check_complete(f) == "converged"
         assert not same_point_content(f, reference["workdir"] / f.relative_to(workdir))
     assert {f: f.stat().st_mtime_ns for f in before} == before  # the others were not touched
-    report(capsys, f"corruption: {len(corrupt)} corrupt files injected, {len(detected)} detected at "
-                   f"gather by path, {len(corrupt)} recomputed; 1 outdated point flagged and recomputed alone")
+    report(capsys, f"corruption: {len(corrupt)} corrupt files injected, {len(detected)} detected "
+                   f"by the batch job by path, {len(corrupt)} recomputed with the 1 outdated point in one run")
     assert len(detected) == len(corrupt)
 
 
@@ -273,14 +282,21 @@ def test_full_disk_fails_only_that_point_cleanly_and_it_is_retried(reference, tm
     monkeypatch.setenv(FAULT_WRITE_LIMIT_ENV, f"16384@{limited}")
     try:
         r = smk(workdir, study, plan.sweep_file, "--keep-going", check=False)
-        assert r.returncode != 0, "a failed write must fail its job"
+        out = r.stdout + r.stderr
+        # attempt 1 fails its batch job after writing the other points, the retry cannot write
+        # either: the batch is then written with the victims recorded as crashed, and the run ends
+        assert r.returncode == 0, out[-3000:]
+        assert [b["crashed"] for b in batch_lines(out)] == [len(victims), len(victims)], batch_lines(out)
+        batch_log = "".join(p.read_text() for p in (workdir / "logs" / "disk" / "batches").rglob("*.log"))
+        with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
+            reasons = [str(x) for x in ds["reason"].values.ravel()]
         for v in victims:
             final = workdir / plan.point_file(v)
             assert not final.exists(), "no file under the final name"
             assert not [f for f in final.parent.iterdir() if f.name.endswith(".tmp")], "no temporary left"
-            log = (workdir / "logs" / "points" / f"{v}.log").read_text()
-            assert f"could not write point file {plan.point_file(v)}" in log
-            assert "bytes free in" in log and "computes this point again" in log
+            assert f"could not write point file {plan.point_file(v)}" in batch_log
+            assert "bytes free in" in batch_log and "--requeue-failed" in batch_log
+        assert sum(x.startswith("crashed: PointWriteError: could not write point file") for x in reasons) == len(victims)
         for p in plan.points:  # every other point, new or old, is complete
             if p not in victims:
                 assert check_complete(workdir / plan.point_file(p)) == "converged"
@@ -289,12 +305,13 @@ def test_full_disk_fails_only_that_point_cleanly_and_it_is_retried(reference, tm
             subprocess.run(["umount", str(mounted_dir)], check=True, timeout=30)
     monkeypatch.delenv(FAULT_WRITE_LIMIT_ENV)
     assert {f: (workdir / f).stat().st_mtime_ns for f in kept} == kept  # nothing else lost or rewritten
+    assert main(["status", str(study), "--directory", str(workdir), "--requeue-failed"]) == 0
     r = smk(workdir, study, plan.sweep_file)
     # after the unmount the tmpfs point's folder is the (empty) folder underneath
-    assert job_counts(r.stdout + r.stderr).get("solve") == len(victims)
+    assert solved_in(r.stdout + r.stderr) == len(victims), batch_lines(r.stdout + r.stderr)
     for p in plan.points:
         assert check_complete(workdir / plan.point_file(p)) == "converged"
     report(capsys, f"disk full: {len(victims)} write faults injected "
                    f"({'ENOSPC on tmpfs + ' if mounted else 'no tmpfs (mount refused); '}EFBIG by RLIMIT_FSIZE), "
-                   f"{len(victims)} survived: failed cleanly, retried on the next run; "
+                   f"{len(victims)} survived: recorded as crashed, solved again after --requeue-failed; "
                    f"{len(kept)} earlier points untouched")

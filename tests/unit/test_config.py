@@ -42,7 +42,9 @@ def test_demo_config_is_valid_and_defaults_are_filled():
     assert small["figures"] == {"formats": ["png", "pdf"], "width": 6.0, "height": 4.2, "dpi": 150}
     assert small["plane_channel"]["resolution"] == {"accuracy": None, "n_space": None, "n_velocity": None, "tol": 1e-8}
     assert small["plane_channel"]["gases"] == ["Ar"]
-    assert small["execution"]["threads_per_point"] == 1
+    assert small["execution"]["threads_per_batch"] == 2
+    assert small["execution"]["batch_minutes"] == {"local": 1.0, "cluster": 20.0}
+    assert small["execution"]["points_per_batch"] is None
 
 
 def test_validation_does_not_mutate_its_input():

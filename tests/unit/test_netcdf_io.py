@@ -55,12 +55,12 @@ def test_failed_status_and_reason_survive(tmp_path):
 def test_interrupted_write_leaves_no_file_and_no_temporary(tmp_path, monkeypatch):
     target = tmp_path / "p.nc"
 
-    def broken(self, path, *args, **kwargs):
+    def broken(ds, path):
         with open(path, "wb") as fh:  # a half-written temporary, then the crash
             fh.write(b"CDF\x01 truncated")
         raise KeyboardInterrupt  # what a kill during the write looks like to Python
 
-    monkeypatch.setattr(xr.Dataset, "to_netcdf", broken)
+    monkeypatch.setattr(netcdf_io, "write_netcdf4", broken)
     with pytest.raises(KeyboardInterrupt):
         write_result(sample_result(), target)
     assert os.listdir(tmp_path) == []
@@ -71,10 +71,10 @@ def test_failed_rewrite_keeps_the_old_complete_file(tmp_path, monkeypatch):
     write_result(sample_result(), target)
     before = target.read_bytes()
 
-    def broken(self, path, *args, **kwargs):
+    def broken(ds, path):
         raise OSError("disk full")
 
-    monkeypatch.setattr(xr.Dataset, "to_netcdf", broken)
+    monkeypatch.setattr(netcdf_io, "write_netcdf4", broken)
     with pytest.raises(OSError):
         write_result(sample_result(), target)
     assert target.read_bytes() == before
@@ -83,13 +83,13 @@ def test_failed_rewrite_keeps_the_old_complete_file(tmp_path, monkeypatch):
 
 def test_temporary_lives_in_the_target_directory(tmp_path, monkeypatch):
     seen = []
-    real = xr.Dataset.to_netcdf
+    real = netcdf_io.write_netcdf4
 
-    def spy(self, path, *args, **kwargs):
+    def spy(ds, path):
         seen.append(os.path.dirname(os.fspath(path)))
-        return real(self, path, *args, **kwargs)
+        return real(ds, path)
 
-    monkeypatch.setattr(xr.Dataset, "to_netcdf", spy)
+    monkeypatch.setattr(netcdf_io, "write_netcdf4", spy)
     netcdf_io.write_result(sample_result(), tmp_path / "sub" / "p.nc")
     # same directory => os.replace is an atomic rename on the same filesystem
     assert seen == [str(tmp_path / "sub")]

@@ -2,7 +2,8 @@
 
 The point files are written with solver.netcdf_io from SolverResults whose G_P
 follows the first-order slip formula delta/6 + sigma_P, so the expected table
-ratios are known exactly.
+ratios are known exactly.  The batch files are made from them by the batch
+job's verification step (no point left to solve is solved here).
 """
 
 import hashlib
@@ -37,7 +38,19 @@ STUDY = {
         "conditions": {"temperature": 300.0, "gap": 2e-6},
     },
     "figures": {"formats": ["png", "pdf"], "width": 4.0, "height": 3.0, "dpi": 60},
+    "execution": {"points_per_batch": 2},
 }
+
+
+def write_batches_from_point_files(plan, root):
+    """What each batch job records before it solves anything: the valid point files."""
+    from knudsweep.batch_files import write_batch_file
+    from knudsweep.batch_job import verify_points
+
+    for key, batch in plan.batches.items():
+        records, _ = verify_points({pid: plan.points[pid].values for pid in batch.pids}, root=root)
+        write_batch_file([records[pid] for pid in batch.pids if pid in records],
+                         root / plan.batch_file(key), {"batch": key})
 
 
 def synthetic(point, status=CONVERGED):
@@ -68,7 +81,9 @@ def sweep(tmp_path):
             path.parent.mkdir(parents=True, exist_ok=True)
             path.write_bytes(b"CDF\x01 this is not a complete file")
             continue
-        write_result(synthetic(p, FAILED if p is failed else CONVERGED), path, {"point_id": p.pid})
+        write_result(synthetic(p, FAILED if p is failed else CONVERGED), path,
+                     {"point_id": p.pid, "point_values": p.values})
+    write_batches_from_point_files(plan, tmp_path)
     out = tmp_path / plan.sweep_file
     gather_study(plan, out, workers=1, root=tmp_path)
     return plan, out, (failed, missing, corrupt), tmp_path
@@ -88,7 +103,7 @@ def test_gather_grid_status_and_nan(sweep):
     assert at(failed, "status") == "failed" and at(failed, "reason") == "max_iter reached"
     assert math.isnan(at(failed, "G_P"))
     assert at(missing, "status") == "missing" and math.isnan(at(missing, "G_P"))
-    assert at(corrupt, "status") == "corrupt" and str(root / plan.point_file(corrupt.pid)) in at(corrupt, "reason")
+    assert at(corrupt, "status") == "missing" and math.isnan(at(corrupt, "G_P"))
     good = [p for p in plan.points.values() if p not in (failed, missing, corrupt)]
     for p in good:
         assert at(p, "status") == "converged"
@@ -122,13 +137,38 @@ def test_status_and_requeue_failed(sweep):
 
 def test_parallel_read_in_processes_equals_serial(sweep, monkeypatch):
     plan, _, _, root = sweep
-    paths = [str(root / plan.point_file(pid)) for pid in plan.points if (root / plan.point_file(pid)).exists()]
-    serial = gather_mod.read_points(paths, workers=1)
+    paths = [str(root / f) for f in plan.batch_files()]
+    assert len(paths) == 6  # 12 points, 2 per batch
+    serial = gather_mod.read_batches(paths, workers=1)
     monkeypatch.setattr(gather_mod, "_MIN_FILES_PER_WORKER", 2)
-    parallel = gather_mod.read_points(paths, workers=2)
-    assert [r["path"] for r in parallel] == [r["path"] for r in serial]
-    for a, b in zip(serial, parallel):
+    parallel = gather_mod.read_batches(paths, workers=2)
+    assert list(parallel) == list(serial) and len(serial) == len(plan.points) - 2  # missing, corrupt
+    for pid, a in serial.items():
+        b = parallel[pid]
         assert a["coefficients"] == b["coefficients"] and a["status"] == b["status"]
+        np.testing.assert_array_equal(a["residual"], b["residual"])
+
+
+def test_point_file_of_another_point_is_not_recorded(sweep):
+    # issue: a file copied over another point's name must never be gathered under that name
+    plan, _, _, root = sweep
+    from knudsweep.batch_job import verify_points
+
+    good = [p for p in plan.points.values() if (root / plan.point_file(p.pid)).exists()]
+    src, dst = good[0], good[1]
+    (root / plan.point_file(dst.pid)).write_bytes((root / plan.point_file(src.pid)).read_bytes())
+    records, todo = verify_points({dst.pid: dst.values}, root=root)
+    assert records == {} and todo == [dst.pid]
+    assert (root / (plan.point_file(dst.pid) + ".corrupt")).exists()
+
+
+def test_unreadable_batch_file_is_removed_with_one_line(sweep):
+    plan, out, _, root = sweep
+    victim = root / plan.batch_files()[0]
+    victim.write_bytes(b"not netcdf")
+    with pytest.raises(gather_mod.BatchFileError, match="unreadable batch file"):
+        gather_study(plan, out, workers=1, root=root)
+    assert not victim.exists()
 
 
 def test_tables_have_units_references_and_gas_pressures(sweep):

@@ -48,24 +48,24 @@ def test_slurm_is_ready_when_required():
     assert not _NOT_READY, f"KNUDSWEEP_REQUIRE_SLURM=1 but SLURM is not usable: {_NOT_READY}"
 
 
-def test_tiny_study_through_slurm_with_grouped_points(tmp_path):
+def test_tiny_study_through_slurm_as_one_batch_job(tmp_path):
     study = DATA / "tiny_study.yaml"
     r = smk(
         tmp_path, study,
         "--slurm-no-account", "--slurm-status-command", "squeue",
         "--slurm-init-seconds-before-status-checks", "1",
         "--latency-wait", "5",
-        # 3 points in one group job, 2 at a time on this 2-CPU node
-        "--group-components", "solve_batch=3",
         cores="2",
         profiles=("--profile", str(REPO / "config/profiles/slurm"), "--workflow-profile", "none"),
         timeout=900,
     )
     out = r.stdout + r.stderr
-    # warm_up and one group of 3 solve jobs were submitted through sbatch
-    assert out.count("has been submitted with SLURM jobid") >= 2
-    assert "group_solve_batch" in out
-    assert job_counts(out)["solve"] == 3
+    assert r.returncode == 0, out[-3000:]
+    # the 3 points fit one batch at the cluster target: one solve_batch job and the
+    # gather job went through sbatch; tables and figures ran on the submit host
+    assert out.count("has been submitted with SLURM jobid") == 2, out[-3000:]
+    counts = job_counts(out)
+    assert counts["solve_batch"] == 1 and counts["gather"] == 1
     plan = StudyPlan(load_study(study))
     with xr.open_dataset(tmp_path / plan.sweep_file, group="plane_channel") as ds:
         assert list(ds["status"].values.ravel()) == ["converged"] * 3

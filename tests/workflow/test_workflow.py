@@ -8,6 +8,7 @@ touches the repository's results/.  Profiles are switched off (--profile none
 import os
 import signal
 import subprocess
+import sys
 import time
 from pathlib import Path
 
@@ -19,7 +20,9 @@ from knudsweep.plan import StudyPlan
 from knudsweep.status import study_status
 from solver.netcdf_io import read_result
 
-from wf_helpers import DATA, REPO, job_counts, smk, smk_cmd, write_study
+from knudsweep.jobs import FAULT_HOLD_ENV, FAULT_RAISE_ENV
+
+from wf_helpers import DATA, REPO, batch_lines, job_counts, smk, smk_cmd, solved_in, write_study
 
 TINY = DATA / "tiny_study.yaml"
 
@@ -36,8 +39,10 @@ def test_tiny_study_end_to_end(tiny_run):
     workdir, r = tiny_run
     plan = StudyPlan(load_study(TINY))
     counts = job_counts(r.stdout + r.stderr)
-    assert counts["solve"] == 3 and counts["warm_up"] == 1 and counts["gather"] == 1
-    for f in plan.point_files() + plan.table_files() + plan.figure_files() + [plan.sweep_file]:
+    assert counts["solve_batch"] == 1 and counts["gather"] == 1 and "warm_up" not in counts
+    assert batch_lines(r.stderr) == [{"key": next(iter(plan.batches)), "points": 3, "solved": 3, "reused": 0,
+                                      "failed": 0, "crashed": 0}]
+    for f in plan.point_files() + plan.batch_files() + plan.table_files() + plan.figure_files() + [plan.sweep_file]:
         assert (workdir / f).is_file(), f
     with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
         assert list(ds["status"].values.ravel()) == ["converged"] * 3
@@ -62,13 +67,13 @@ def test_figure_only_change_redraws_without_solver(tiny_run, tmp_path):
     r = smk(workdir, study)
     counts = job_counts(r.stdout + r.stderr)
     assert counts.get("plot") == 1
-    assert not {"solve", "warm_up", "gather", "tables"} & set(counts), counts
+    assert not {"solve_batch", "gather", "tables"} & set(counts), counts
     assert fig.read_bytes() != fig_before
     assert {f: (workdir / f).stat().st_mtime_ns for f in before} == before
     # the `figures` target redraws from sweep.nc alone
     r = smk(workdir, study, "figures", "--forcerun", "plot")
     counts = job_counts(r.stdout + r.stderr)
-    assert counts.get("plot") == 1 and "solve" not in counts and "gather" not in counts
+    assert counts.get("plot") == 1 and "solve_batch" not in counts and "gather" not in counts
 
 
 def test_status_command_lists_done_points(tiny_run):
@@ -103,45 +108,97 @@ def test_failing_point_is_recorded_and_others_finish(tmp_path):
     assert (workdir / plan.figure_files()[0]).is_file()
 
 
-def test_kill_mid_study_then_resume_runs_only_missing_points(tmp_path):
-    study = write_study(tmp_path / "five.yaml", plane_channel__delta=[0.1, 0.3, 1.0, 3.0, 10.0])
+def test_kill_mid_batch_then_resume_solves_only_unfinished_points(tmp_path):
+    """SIGKILL in the middle of a batch; the rerun solves only what was not finished, and every
+    value is identical to an uninterrupted run (issue: sweeps at solver speed, tests)."""
+    sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "faults"))
+    from fault_helpers import same_point_content
+
+    deltas = [0.1, 0.3, 1.0, 3.0, 10.0]
+    study = write_study(tmp_path / "five.yaml", plane_channel__delta=deltas)
     plan = StudyPlan(load_study(study))
+    assert len(plan.batches) == 1  # all five points in one batch job
+    ref = tmp_path / "ref"
+    smk(ref, study)
     files = [tmp_path / "w" / f for f in plan.point_files()]
+    release = tmp_path / "release"  # never created: the delta = 3 point holds until killed
     cmd = smk_cmd(tmp_path / "w", study, "--cores", "1")
     log = tmp_path / "killed_run.log"
     with open(log, "w") as fh:
-        proc = subprocess.Popen(cmd, stdout=fh, stderr=subprocess.STDOUT, start_new_session=True)
+        proc = subprocess.Popen(cmd, stdout=fh, stderr=subprocess.STDOUT, start_new_session=True,
+                                env={**os.environ, FAULT_HOLD_ENV: f"{release}@delta=3.0e+00"})
         try:
             deadline = time.monotonic() + 300
-            while sum(f.exists() for f in files) < 2 and time.monotonic() < deadline and proc.poll() is None:
+            while sum(f.exists() for f in files) < 3 and time.monotonic() < deadline and proc.poll() is None:
                 time.sleep(0.05)
+            time.sleep(0.5)
             assert proc.poll() is None, f"workflow ended before the kill:\n{log.read_text()[-4000:]}"
         finally:
-            try:
-                os.killpg(proc.pid, signal.SIGKILL)  # the workflow and its running job, mid-study
-            except ProcessLookupError:
-                pass
+            os.killpg(proc.pid, signal.SIGKILL)  # the workflow and its batch job, mid-batch
             proc.wait()
-    time.sleep(1.0)  # let any orphaned job of the killed run finish its (atomic) write
     done = [f for f in files if f.exists()]
-    assert 2 <= len(done) < len(files), "the kill did not land mid-study"
-    for f in done:  # every file under its final name is complete
-        assert read_result(f).status == "converged"
-    mtimes = {f: f.stat().st_mtime_ns for f in done}
+    assert len(done) == 3, "the kill did not land mid-batch"
+    inodes = {f: (f.stat().st_ino, f.stat().st_mtime_ns) for f in done}
 
     smk(tmp_path / "w", study, "--unlock")
     r = smk(tmp_path / "w", study, "--rerun-incomplete")
-    out = r.stdout + r.stderr
-    counts = job_counts(out)
-    redone = [f for f in done if f.stat().st_mtime_ns != mtimes[f]]
-    # Only missing points run, plus at most the one point (--cores 1) whose file was
-    # renamed into place in the instant before the kill, while Snakemake still had
-    # it marked incomplete: it cannot know that our atomic write had finished.
-    assert len(redone) <= 1
-    if redone:
-        assert "ncomplete" in out
-    assert counts["solve"] == len(files) - len(done) + len(redone)
-    assert all(f.exists() for f in files)
+    (line,) = batch_lines(r.stderr)
+    assert (line["solved"], line["reused"]) == (2, 3)
+    assert {f: (f.stat().st_ino, f.stat().st_mtime_ns) for f in done} == inodes  # never rewritten
+    for f in files:
+        assert not same_point_content(f, ref / f.relative_to(tmp_path / "w")), f
+    with xr.open_dataset(tmp_path / "w" / plan.sweep_file, group="plane_channel") as a, \
+            xr.open_dataset(ref / plan.sweep_file, group="plane_channel") as b:
+        for name in ("G_P", "Q_P", "G_P_error_estimate", "residual", "iterations", "status"):
+            assert a[name].identical(b[name]), name
+
+
+def test_adding_one_delta_solves_exactly_one_point(tiny_run, tmp_path):
+    workdir, _ = tiny_run
+    study = write_study(tmp_path / "plus_one.yaml", plane_channel__delta=[0.1, 0.5, 1.0, 10.0])
+    r = smk(workdir, study)
+    lines = batch_lines(r.stderr)
+    assert solved_in(r.stderr) == 1 and sum(b["reused"] for b in lines) == 3, lines
+
+
+def test_two_studies_sharing_points_compute_each_shared_point_once(tmp_path):
+    a = write_study(tmp_path / "a.yaml", study="a", plane_channel__delta=[0.1, 1.0, 10.0])
+    b = write_study(tmp_path / "b.yaml", study="b", plane_channel__delta=[1.0, 10.0, 30.0])
+    workdir = tmp_path / "w"
+    assert solved_in(smk(workdir, a).stderr) == 3
+    r = smk(workdir, b)
+    assert solved_in(r.stderr) == 1 and sum(x["reused"] for x in batch_lines(r.stderr)) == 2
+
+
+def test_a_crashing_and_a_failing_point_are_recorded_and_the_batch_is_written(tmp_path):
+    # delta = 1 raises in the solver call (a crash, on both attempts); delta = 10 cannot
+    # converge in 8 unaccelerated iterations (a failed convergence: a result)
+    study = write_study(tmp_path / "mixed.yaml", plane_channel__delta=[0.1, 1.0, 10.0],
+                        plane_channel__iteration={"max_iter": 8, "accelerate": False,
+                                                  "retry_max_iter_factor": 1})
+    workdir = tmp_path / "w"
+    cmd = smk_cmd(workdir, study, "--cores", "2")
+    r = subprocess.run(cmd, capture_output=True, text=True, timeout=600,
+                       env={**os.environ, FAULT_RAISE_ENV: "@delta=1.0e+00"})
+    assert r.returncode == 0, r.stderr[-3000:]
+    lines = batch_lines(r.stderr)
+    # attempt 1 fails the job after writing the other points. Attempt 2 reuses the converged
+    # point and solves again only the points that did not succeed: the crashed one and the
+    # failed one, whose limits a higher attempt raises (here by a factor of 1, so it fails again)
+    assert [(x["solved"], x["reused"], x["crashed"]) for x in lines] == [(2, 0, 1), (1, 1, 1)], lines
+    plan = StudyPlan(load_study(study))
+    with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
+        s = {float(d): (str(ds["status"].sel(delta=d).item()), str(ds["reason"].sel(delta=d).item()))
+             for d in ds["delta"].values}
+        assert bool(ds["G_P"].sel(delta=0.1).notnull().all())
+        assert bool(ds["G_P"].sel(delta=[1.0, 10.0]).isnull().all())
+    assert s[0.1] == ("converged", "")
+    assert s[1.0][0] == "failed" and "crashed: RuntimeError: fault injection" in s[1.0][1]
+    assert s[10.0][0] == "failed" and not s[10.0][1].startswith("crashed")
+    files = {float(p.values["delta"]): workdir / plan.point_file(p.pid) for p in plan.points.values()}
+    assert files[0.1].exists() and files[10.0].exists() and not files[1.0].exists()
+    # the console got one line per batch, not the per-point log lines
+    assert "knudsweep.solve" not in r.stderr and "Shell command" not in r.stdout + r.stderr
 
 
 @pytest.mark.parametrize(
@@ -166,4 +223,15 @@ def test_bad_config_fails_before_any_job(tmp_path, change, message):
 def test_default_profile_is_accepted(tmp_path):
     r = smk(tmp_path / "w", TINY, "--dry-run",
             profiles=("--profile", "none", "--workflow-profile", str(REPO / "config/profiles/default")))
-    assert job_counts(r.stdout + r.stderr)["solve"] == 3
+    assert job_counts(r.stdout + r.stderr)["solve_batch"] == 1
+
+
+def test_knudsweep_run_applies_the_safe_profile(tmp_path):
+    exe = Path(os.sys.executable).with_name("knudsweep")
+    r = subprocess.run([str(exe), "run", "--dry-run", "--directory", str(tmp_path / "w"), "--configfile", str(TINY)],
+                       capture_output=True, text=True, cwd=REPO, timeout=300)
+    assert r.returncode == 0, r.stderr[-3000:]
+    out = r.stdout + r.stderr
+    assert "config/profiles/default" in out and job_counts(out)["solve_batch"] == 1
+    r = subprocess.run([str(exe), "run", "--dry-run"], capture_output=True, text=True, cwd=tmp_path)
+    assert r.returncode == 2 and r.stderr.startswith("knudsweep: error: run: no Snakefile in")

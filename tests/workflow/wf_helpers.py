@@ -48,3 +48,18 @@ def write_study(path, base="tiny_study.yaml", **changes):
         node[keys[-1]] = value
     path.write_text(yaml.safe_dump(study, sort_keys=False))
     return path
+
+
+_BATCH_LINE = re.compile(r"knudsweep: batch (\S+): (\d+) points?, (\d+) solved, (\d+) reused, (\d+) failed to converge, "
+                         r"(\d+) crashed")
+
+
+def batch_lines(output: str) -> list[dict]:
+    """The one-line summaries batch jobs print: key, points, solved, reused, failed, crashed."""
+    return [{"key": m[1], "points": int(m[2]), "solved": int(m[3]), "reused": int(m[4]), "failed": int(m[5]),
+             "crashed": int(m[6])} for m in _BATCH_LINE.finditer(output)]
+
+
+def solved_in(output: str) -> int:
+    """Points solved by the batch jobs of a run whose console output is ``output``."""
+    return sum(b["solved"] for b in batch_lines(output))

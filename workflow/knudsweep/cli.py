@@ -1,5 +1,6 @@
-"""``knudsweep`` command line: solve one point, list a study's status, run benchmarks.
+"""``knudsweep`` command line: run a sweep, solve one point, list a study's status, run benchmarks.
 
+    knudsweep run --cores 2 [--configfile my-study.yaml] [any snakemake option or target]
     knudsweep solve --problem poiseuille --model bgk --delta 1.0 --alpha 0.9 --json
     knudsweep solve --geometry duct --aspect-ratio 4 --problem thermal_creep --delta 10
     knudsweep status config/config.yaml [--requeue-failed] [--requeue-outdated]
@@ -246,11 +247,13 @@ def cmd_status(args) -> int:
             print(f"removed {path} (older solver version; will be recomputed on the next run)")
     if args.requeue_failed or args.requeue_outdated:
         rows = study_status(plan, args.directory)
-        if any(r.state == "missing" for r in rows):
-            products = invalidate_products(plan, args.directory)
+        missing = [r.pid for r in rows if r.state == "missing"]
+        if missing:
+            products = invalidate_products(plan, args.directory, pids=missing)
             if products:
-                print(f"removed the study's sweep, tables and figures ({len(products)} files); "
-                      "the next run recomputes the missing points and rebuilds them")
+                print(f"removed the batch files of the missing points and the study's sweep, tables and "
+                      f"figures ({len(products)} files); the next run recomputes the missing points and "
+                      "rebuilds them")
     if args.json:
         print(json.dumps([r.__dict__ for r in rows], sort_keys=True))
         return 0
@@ -267,6 +270,45 @@ def cmd_status(args) -> int:
     print(f"study {plan.name}: {len(rows)} points: {summary}; {outdated} outdated "
           f"(older solver version{', remove with --requeue-outdated' if outdated else ''})")
     return 0
+
+
+# Options after which `knudsweep run` leaves the core count to the user or the profile.
+_CORE_OPTIONS = ("--cores", "-c", "--jobs", "-j", "--profile", "--executor", "-e")
+
+
+def cmd_run(argv: list[str]) -> int:
+    """``snakemake`` with the repository's workflow profile (keep-going, rerun-incomplete) and quiet rules.
+
+    Runs in the current folder, which must hold the Snakefile (or pass
+    ``--snakefile``).  Without a core count it uses every core this process
+    may run on.  Snakemake's exit code is returned.
+    """
+    import os
+
+    argv = list(argv)
+    given = {a.split("=", 1)[0] for a in argv}
+    cmd = [sys.executable, "-m", "snakemake"]
+    if "--snakefile" not in given and "-s" not in given:
+        snakefile = Path.cwd() / "Snakefile"
+        if not snakefile.is_file():
+            raise CliError(f"run: no Snakefile in {Path.cwd()}; run it from the knudsweep repository root "
+                           "or pass --snakefile")
+        cmd += ["--snakefile", str(snakefile)]
+        root = snakefile.parent
+    else:
+        flag = "--snakefile" if "--snakefile" in given else "-s"
+        root = Path(argv[argv.index(flag) + 1]).resolve().parent
+    if "--workflow-profile" not in given:
+        cmd += ["--workflow-profile", str(root / "config" / "profiles" / "default")]
+    if not given & set(_CORE_OPTIONS):
+        cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
+        cmd += ["--cores", str(cores or 1)]
+    if not given & {"--quiet", "-q", "--verbose", "--dry-run", "-n"}:
+        cmd += ["--quiet", "rules"]  # per-job blocks off: progress and one line per batch remain
+    try:
+        return subprocess.run(cmd + argv).returncode
+    except KeyboardInterrupt:
+        return 130
 
 
 def cmd_bench(args) -> int:
@@ -316,6 +358,9 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--json", action="store_true", help="print coefficients, iterations and status as JSON")
     s.set_defaults(func=cmd_solve)
 
+    sub.add_parser("run", help="run a sweep: snakemake with the safe local profile "
+                   "(all further arguments go to snakemake)", add_help=False)
+
     st = sub.add_parser("status", help="list done / failed / missing points of a study")
     st.add_argument("study", help="study YAML file")
     st.add_argument("--directory", default=".", help="working directory holding results/ (default .)")
@@ -352,6 +397,13 @@ def _all_actions(parser, args):
 
 
 def main(argv: list[str] | None = None) -> int:
+    argv = sys.argv[1:] if argv is None else list(argv)
+    if argv[:1] == ["run"]:
+        try:
+            return cmd_run(argv[1:])
+        except CliError as exc:
+            _fail(str(exc))
+        return EXIT_USAGE
     parser = build_parser()
     args = parser.parse_args(argv)
     try:

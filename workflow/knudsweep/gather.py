@@ -1,25 +1,25 @@
-"""Gather point files into ``results/<study>/sweep.nc`` (one netCDF group per family).
+"""Gather batch files into ``results/<study>/sweep.nc`` (one netCDF group per family).
 
-Reading: every point file is opened, loaded and closed (``xr.open_dataset`` ->
-``.load()``), in dask worker *processes* (``dask.bag`` with the multiprocessing
-scheduler) when there are many files.  Processes, not threads: netCDF4/HDF5
-crashes with "NetCDF: HDF error" when several threads open files at once
-(pydata/xarray#7079), and xarray's HDF5 lock would serialise threads anyway.
+Reading: the study's batch files (:mod:`knudsweep.batch_files`, one per batch
+job, each holding the records of up to thousands of points) are read with
+netCDF4, in dask worker *processes* (``dask.bag`` with the multiprocessing
+scheduler) when there are many.  Processes, not threads: netCDF4/HDF5 crashes
+with "NetCDF: HDF error" when several threads open files at once
+(pydata/xarray#7079).  Point files are not opened here: the batch job has
+verified each one against its point before recording it.
 
 Combining: the grid is known from the study (``Family.gather_dims``), so each
-file's scalars are put at their grid position; points without a file stay NaN
-with status "missing".  Failed points keep NaN coefficients (the solver wrote
-none) and status "failed" with their reason.  Convergence histories are
+record's scalars are put at their grid position; points without a record stay
+NaN with status "missing".  Failed points keep NaN coefficients (the solver
+wrote none) and status "failed" with their reason.  Convergence histories are
 sampled at common, log-spaced iteration numbers (at most ``HISTORY_SAMPLES``).
 
-A file that cannot be read is *corrupt*: it is logged by path, moved aside to
-``<file>.corrupt`` (so Snakemake sees the point as missing and recomputes it on
-the next run) and marked "corrupt" in the sweep, never dropped silently.
+A batch file that cannot be read is removed with one error line naming it, and
+the gather fails: the next run redoes that batch (reusing its valid point
+files) and gathers again.
 
 Provenance: the variable ``code_version`` records, per point, the solver version
-that computed it (``knudsweep status`` flags points of an older version).
-Temporaries of killed writers (``.<name>.<pid>.tmp``) are never read and are
-removed once abandoned (:func:`knudsweep.status.clean_stray_temporaries`).
+that computed it.
 """
 
 from __future__ import annotations
@@ -38,65 +38,53 @@ from solver import __version__
 log = logging.getLogger("knudsweep.gather")
 
 HISTORY_SAMPLES = 200
-# Below this many files per worker, starting worker processes costs more than it saves
-# (a spawned worker imports xarray/netCDF4 in ~1 s; one small file loads in ~5 ms).
-_MIN_FILES_PER_WORKER = 100
-_SCALAR_SKIP = {"iterations", "wall_time"}
+# Below this many batch files per worker, starting worker processes costs more than it
+# saves (a spawned worker imports netCDF4 in ~1 s; a batch file of 100 points reads in ~10 ms).
+_MIN_FILES_PER_WORKER = 50
 
 
-def read_point(path: str) -> dict[str, Any]:
-    """Scalars, status and residual history of one point file; ``{'error': ...}`` if unreadable."""
-    try:
-        with xr.open_dataset(path, engine="netcdf4") as ds:
-            ds = ds.load()
-        attrs = ds.attrs
-        if "status" not in attrs or "residual" not in ds:
-            raise ValueError("not a knudsweep point file (no status attribute or residual)")
-        coefficients = {
-            name: (float(var.values), dict(var.attrs))
-            for name, var in ds.data_vars.items()
-            if var.ndim == 0 and name not in _SCALAR_SKIP
-        }
-        return {
-            "path": path,
-            "status": str(attrs["status"]),
-            "code_version": str(attrs.get("code_version", "")),
-            "reason": str(attrs.get("status_reason", "")),
-            "iterations": int(ds["iterations"].values),
-            "wall_time": float(ds["wall_time"].values),
-            "residual": np.asarray(ds["residual"].values, dtype=float),
-            "coefficients": coefficients,
-        }
-    except Exception as exc:  # any failure to read makes the file corrupt
-        return {"path": path, "error": f"{type(exc).__name__}: {exc}"}
+class BatchFileError(RuntimeError):
+    """A batch file could not be read; it was removed so that the next run redoes its batch."""
 
 
-def _read_batch(paths: list[str]) -> list[dict[str, Any]]:
-    return [read_point(p) for p in paths]
+def _read_batches(paths: list[str]) -> list[tuple[str, list[dict[str, Any]] | str]]:
+    from knudsweep.batch_files import read_batch_file
+
+    out = []
+    for p in paths:
+        try:
+            out.append((p, read_batch_file(p)[0]))
+        except Exception as exc:  # unreadable: reported by the caller
+            out.append((p, f"{type(exc).__name__}: {exc}"))
+    return out
 
 
-def read_points(paths: list[str], workers: int = 1) -> list[dict[str, Any]]:
-    """Read many point files; in ``workers`` processes when there are enough files."""
+def read_batches(paths: list[str], workers: int = 1) -> dict[str, dict[str, Any]]:
+    """Records of all points in the batch files ``paths`` keyed by point id.
+
+    Raises :class:`BatchFileError` (after removing them) if some cannot be read.
+    """
     paths = list(paths)
     if workers <= 1 or len(paths) < 2 * _MIN_FILES_PER_WORKER:
-        return _read_batch(paths)
-    import dask
-    import dask.bag as db
+        results = _read_batches(paths)
+    else:
+        import dask
+        import dask.bag as db
 
-    n_parts = min(len(paths) // _MIN_FILES_PER_WORKER, workers * 4)
-    size = math.ceil(len(paths) / n_parts)
-    batches = [paths[i : i + size] for i in range(0, len(paths), size)]
-    bag = db.from_sequence(batches, npartitions=len(batches)).map(_read_batch)
-    with dask.config.set({"multiprocessing.context": "spawn"}):
-        results = bag.compute(scheduler="processes", num_workers=workers)
-    return [r for batch in results for r in batch]
-
-
-def move_aside(path: str) -> str:
-    """Rename a corrupt file to ``<path>.corrupt`` (replacing an older one)."""
-    aside = f"{path}.corrupt"
-    os.replace(path, aside)
-    return aside
+        n_parts = min(len(paths) // _MIN_FILES_PER_WORKER, workers * 4)
+        size = math.ceil(len(paths) / n_parts)
+        groups = [paths[i : i + size] for i in range(0, len(paths), size)]
+        bag = db.from_sequence(groups, npartitions=len(groups)).map(_read_batches)
+        with dask.config.set({"multiprocessing.context": "spawn"}):
+            results = [r for part in bag.compute(scheduler="processes", num_workers=workers) for r in part]
+    bad = [(p, r) for p, r in results if isinstance(r, str)]
+    if bad:
+        for p, why in bad:
+            Path(p).unlink(missing_ok=True)
+            log.error("unreadable batch file %s (%s); removed, the next run redoes its batch", p, why)
+        raise BatchFileError(f"{len(bad)} unreadable batch file(s) removed; run the workflow again to redo "
+                             "them (their valid point files are reused): " + "; ".join(p for p, _ in bad))
+    return {rec["pid"]: rec for _, recs in results for rec in recs}
 
 
 def history_coordinate(max_len: int) -> np.ndarray:
@@ -106,21 +94,16 @@ def history_coordinate(max_len: int) -> np.ndarray:
     return np.unique(np.round(np.geomspace(1, max_len, HISTORY_SAMPLES)).astype(int))
 
 
-def gather_family(
-    family, section: dict[str, Any], points, files: dict[str, str], workers: int = 1
-) -> xr.Dataset:
+def gather_family(family, section: dict[str, Any], points, records: dict[str, dict[str, Any]]) -> xr.Dataset:
     """Dataset of one family on its grid.
 
-    ``points``: the family's :class:`knudsweep.families.Point` list; ``files``:
-    point id -> path for every point (existing or not).
+    ``points``: the family's :class:`knudsweep.families.Point` list; ``records``:
+    point id -> record (:mod:`knudsweep.point_files`) of the points that have one.
     """
     dims = family.gather_dims(section)
     names = list(dims)
     shape = tuple(len(v) for v in dims.values())
     lookup = {d: {label: i for i, label in enumerate(v)} for d, v in dims.items()}
-
-    records = read_points([files[p.pid] for p in points if os.path.exists(files[p.pid])], workers)
-    by_path = {r["path"]: r for r in records}
 
     status = np.full(shape, "missing", dtype=object)
     reason = np.full(shape, "no point file", dtype=object)
@@ -133,18 +116,8 @@ def gather_family(
 
     for p in points:
         idx = tuple(lookup[d][p.index[d]] for d in names)
-        if files[p.pid] not in by_path:
-            aside = Path(f"{files[p.pid]}.corrupt")
-            if aside.exists():
-                reason[idx] = f"earlier file was corrupt, kept as {aside}"
-            continue
-        rec = by_path[files[p.pid]]
-        if "error" in rec:
-            aside = move_aside(rec["path"])
-            log.error("corrupt point file %s (%s); moved to %s, it will be recomputed on the next run",
-                      rec["path"], rec["error"], aside)
-            status[idx] = "corrupt"
-            reason[idx] = f"unreadable ({rec['error']}); moved to {aside}; rerun to recompute"
+        rec = records.get(p.pid)
+        if rec is None:
             continue
         status[idx] = rec["status"]
         reason[idx] = rec["reason"]
@@ -157,7 +130,8 @@ def gather_family(
                 coef_attrs[name] = {k: attrs[k] for k in ("units", "long_name") if k in attrs}
             # A failed point's numbers are never reported as results.
             coef[name][idx] = value if rec["status"] == "converged" else np.nan
-        histories[idx] = rec["residual"]
+        if len(rec["residual"]):
+            histories[idx] = rec["residual"]
 
     max_len = max((len(h) for h in histories.values()), default=0)
     iteration = history_coordinate(max_len)
@@ -179,7 +153,7 @@ def gather_family(
     data_vars: dict[str, Any] = {
         name: (names, arr, coef_attrs[name]) for name, arr in sorted(coef.items())
     }
-    data_vars["status"] = (names, status.astype(str), {"long_name": "point status: converged, failed, missing or corrupt"})
+    data_vars["status"] = (names, status.astype(str), {"long_name": "point status: converged, failed or missing"})
     data_vars["reason"] = (names, reason.astype(str), {"long_name": "why a point failed or is missing"})
     data_vars["code_version"] = (names, code_version.astype(str), {
         "long_name": "solver version that computed the point (empty: no readable file)"})
@@ -197,12 +171,12 @@ def gather_study(plan, output: str | os.PathLike, workers: int = 1, root: str = 
 
     root_path = Path(root)
     clean_stray_temporaries(plan, root_path)  # never read (not point-file names); removed once abandoned
+    records = read_batches([str(root_path / f) for f in plan.batch_files()], workers)
     datasets = {}
     for fam_name in plan.families:
         fam = get_family(fam_name)
         points = [p for p in plan.points.values() if p.family == fam_name]
-        files = {p.pid: str(root_path / plan.point_file(p.pid)) for p in points}
-        datasets[fam_name] = gather_family(fam, plan.study[fam_name], points, files, workers)
+        datasets[fam_name] = gather_family(fam, plan.study[fam_name], points, records)
     write_sweep(datasets, output, {
         "Conventions": "CF-1.11",
         "title": f"knudsweep study {plan.name}",
@@ -217,18 +191,14 @@ def gather_study(plan, output: str | os.PathLike, workers: int = 1, root: str = 
 
 def write_sweep(datasets: dict[str, xr.Dataset], output: str | os.PathLike, attrs: dict[str, Any]) -> Path:
     """Write the root attributes and one group per family, atomically."""
+    from solver.netcdf_io import atomic_output
+
     output = Path(output)
-    output.parent.mkdir(parents=True, exist_ok=True)
-    tmp = output.with_name(f".{output.name}.{os.getpid()}.tmp")
-    try:
+    with atomic_output(output) as tmp:
         xr.Dataset(attrs=attrs).to_netcdf(tmp, mode="w", format="NETCDF4", engine="netcdf4")
         for name, ds in datasets.items():
             enc = {v: {"zlib": True, "complevel": 4} for v in ds.data_vars if ds[v].dtype.kind == "f"}
             ds.to_netcdf(tmp, mode="a", group=name, format="NETCDF4", engine="netcdf4", encoding=enc)
-        os.replace(tmp, output)
-    except BaseException:
-        tmp.unlink(missing_ok=True)
-        raise
     return output
 
 

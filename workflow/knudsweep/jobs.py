@@ -13,72 +13,47 @@ from pathlib import Path
 from typing import Any
 
 
-def setup_logging(log_path: str | None) -> None:
-    """Send the knudsweep loggers to the job's log file (and stderr)."""
+def setup_logging(log_path: str | None, console: bool = True, mode: str = "w") -> None:
+    """Send the knudsweep loggers to the job's log file (and, with ``console``, to stderr).
+
+    Batch jobs log to their file only: the console gets one summary line per
+    batch. The file holds the batch's record (compile, invalid files, crashes
+    with their traceback, the summary); one line per solve try and per written
+    file is added with ``KNUDSWEEP_LOG_LEVEL=DEBUG`` (each point file keeps
+    its own tries, iterations and times in its attributes anyway).
+    """
+    import os
+
     logger = logging.getLogger("knudsweep")
-    logger.setLevel(logging.INFO)
-    fmt = logging.Formatter("%(asctime)s %(name)s %(levelname)s: %(message)s")
-    handlers: list[logging.Handler] = [logging.StreamHandler()]
+    level = os.environ.get("KNUDSWEEP_LOG_LEVEL", "INFO").upper()
+    logger.setLevel(level if level in ("DEBUG", "INFO", "WARNING", "ERROR") else "INFO")
+    logger.handlers.clear()
+    fmt = logging.Formatter("%(asctime)s %(name)s %(process)d %(levelname)s: %(message)s")
+    handlers: list[logging.Handler] = [logging.StreamHandler()] if console or not log_path else []
     if log_path:
         Path(log_path).parent.mkdir(parents=True, exist_ok=True)
-        handlers.append(logging.FileHandler(log_path, mode="w", encoding="utf-8"))
+        handlers.append(logging.FileHandler(log_path, mode=mode, encoding="utf-8"))
     for h in handlers:
         h.setFormatter(fmt)
         logger.addHandler(h)
 
 
-def run_warm_up(family: str, output: str, threads: int = 1, log: str | None = None) -> None:
-    """Compile the family's numba kernels into the cache, then touch ``output``."""
-    setup_logging(log)
-    from knudsweep.point_job import configure_numba
+def run_batch_job(key: str, points: dict[str, dict[str, Any]], output: str, study: dict[str, Any],
+                  threads: int = 1, attempt: int = 1, max_attempt: int = 1, log: str | None = None) -> None:
+    """Rule ``solve_batch``: see :mod:`knudsweep.batch_job`; bad news is one line and exit code 1."""
+    import sys
 
-    configure_numba(threads)
-    from knudsweep.families import get_family
+    from knudsweep.batch_job import BatchIncomplete, run_batch
+    from knudsweep.point_job import PointWriteError
 
-    get_family(family).warm_up()
-    Path(output).parent.mkdir(parents=True, exist_ok=True)
-    Path(output).write_text(f"numba cache warmed for {family} in {os.environ['NUMBA_CACHE_DIR']}\n")
-
-
-def run_solve(pid: str, values: dict[str, Any], output: str, study: dict[str, Any],
-              threads: int = 1, attempt: int = 1, log: str | None = None):
-    """Solve point ``pid`` of ``study`` and write ``output``.
-
-    The point is computed under an exclusive lock on ``.<name>.nc.lock`` beside
-    the output (``fcntl.flock``: released by the kernel when the process dies,
-    so a killed job never leaves a stale lock).  Two workflows that share
-    ``results/points`` (other working directories, other studies) therefore never
-    compute one point at the same time: the second waits, then finds the file
-    the first wrote for the same point values and keeps it instead of solving
-    again.  A failure to write the file is logged as one clear line and fails
-    the job (Snakemake retries it on the next run).
-    """
-    setup_logging(log)
-    from knudsweep.point_job import configure_numba
-
-    configure_numba(threads)
-    from knudsweep.config import config_hash, validate_study
-    from knudsweep.point_job import PointWriteError, solve_point
-    from knudsweep.status import write_sidecar
-
-    logger = logging.getLogger("knudsweep.solve")
-    _apply_injected_write_limit(pid, logger)
-    _apply_injected_hold(pid, logger)
-    study = validate_study(study)
-    family = pid.split("/", 1)[0]
-    with point_lock(output, logger):
-        if _same_point_on_disk(output, pid, values):
-            logger.info("point %s was completed by another workflow while this job waited; kept %s",
-                        pid, output)
-            return None
-        try:
-            result = solve_point(family, dict(values), output, section=study[family], pid=pid,
-                                 config_hash=config_hash(study), attempt=int(attempt))
-        except PointWriteError as exc:
-            logger.error("%s", exc)
-            raise
-        write_sidecar(output)
-        return result
+    try:
+        run_batch(key, points, output, study, threads=threads, attempt=attempt, max_attempt=max_attempt,
+                  log_path=log)
+    except BatchIncomplete:
+        sys.exit(1)
+    except (PointWriteError, OSError) as exc:
+        print(f"knudsweep: batch {key}: {exc}", file=sys.stderr)
+        sys.exit(1)
 
 
 class point_lock:
@@ -116,27 +91,6 @@ class point_lock:
         return False
 
 
-def _same_point_on_disk(output: str, pid: str, values: dict[str, Any]) -> bool:
-    """True if ``output`` exists, is readable and holds point ``pid`` with these values."""
-    if not os.path.exists(output):
-        return False
-    import json
-
-    import netCDF4
-
-    from solver import __version__
-
-    try:
-        with netCDF4.Dataset(output, "r") as nc:
-            attrs = {k: nc.getncattr(k) for k in nc.ncattrs()}
-        stored = json.loads(attrs["point_values"])
-    except Exception:  # unreadable or foreign: compute the point
-        return False
-    return (attrs.get("point_id") == pid and "status" in attrs
-            and attrs.get("code_version") == __version__
-            and stored == json.loads(json.dumps(dict(values), sort_keys=True)))
-
-
 # Fault injection for the tests.  Each setting reads "<value>@<substring of
 # the point id>" (without "@<...>": every point) and acts only in the jobs
 # of the points whose id contains the substring.
@@ -150,6 +104,9 @@ FAULT_WRITE_LIMIT_ENV = "KNUDSWEEP_FAULT_WRITE_LIMIT"
 # exists (at most 300 s), so that a test can act while a workflow surely still
 # runs (a plane-channel point otherwise solves in milliseconds).
 FAULT_HOLD_ENV = "KNUDSWEEP_FAULT_HOLD"
+# FAULT_RAISE_ENV, "@...": solving the point raises RuntimeError (a crash, not
+# a failed convergence).
+FAULT_RAISE_ENV = "KNUDSWEEP_FAULT_RAISE"
 
 
 def _injected_fault(env_name: str, pid: str) -> str | None:
@@ -163,17 +120,30 @@ def _injected_fault(env_name: str, pid: str) -> str | None:
     return value
 
 
-def _apply_injected_write_limit(pid: str, logger: logging.Logger) -> None:
-    size = _injected_fault(FAULT_WRITE_LIMIT_ENV, pid)
-    if size is None:
-        return
-    import resource
+class with_injected_faults:
+    """Apply the write-limit and hold settings that name point ``pid`` while it is solved; undo after."""
 
-    limit = int(size)
-    _, hard = resource.getrlimit(resource.RLIMIT_FSIZE)
-    resource.setrlimit(resource.RLIMIT_FSIZE, (limit, hard))
-    logger.warning("fault injection: files written by this job are limited to %d bytes (%s)",
-                   limit, FAULT_WRITE_LIMIT_ENV)
+    def __init__(self, pid: str, logger: logging.Logger):
+        self.pid, self.logger, self.saved = pid, logger, None
+
+    def __enter__(self):
+        size = _injected_fault(FAULT_WRITE_LIMIT_ENV, self.pid)
+        if size is not None:
+            import resource
+
+            self.saved = resource.getrlimit(resource.RLIMIT_FSIZE)
+            resource.setrlimit(resource.RLIMIT_FSIZE, (int(size), self.saved[1]))
+            self.logger.warning("fault injection: files written for point %s are limited to %s bytes (%s)",
+                                self.pid, size, FAULT_WRITE_LIMIT_ENV)
+        _apply_injected_hold(self.pid, self.logger)
+        return self
+
+    def __exit__(self, *exc):
+        if self.saved is not None:
+            import resource
+
+            resource.setrlimit(resource.RLIMIT_FSIZE, self.saved)
+        return False
 
 
 def _apply_injected_hold(pid: str, logger: logging.Logger) -> None:
@@ -188,38 +158,21 @@ def _apply_injected_hold(pid: str, logger: logging.Logger) -> None:
         time.sleep(0.2)
 
 
-class CorruptPointsError(RuntimeError):
-    """Gather found unreadable point files (moved aside); the job fails so the next run recomputes them."""
-
-
 def run_gather(study: dict[str, Any], output: str, workers: int = 1, log: str | None = None):
-    """Gather all point files of ``study`` into ``output`` (sweep.nc).
+    """Gather the batch files of ``study`` into ``output`` (sweep.nc); an unreadable batch file is one line, exit 1."""
+    import sys
 
-    If point files were corrupt, they are moved aside (``<file>.corrupt``), the
-    sweep is written with them marked "corrupt", and then this job fails with
-    one line listing them, after removing the study's tables and figures.
-    Snakemake removes the sweep of the failed job, so the next run must rebuild
-    all three and therefore recomputes exactly the moved points (Snakemake skips
-    a missing input of an output that exists and is up to date).
-    """
-    setup_logging(log)
+    setup_logging(log, console=False)
     from knudsweep.config import validate_study
-    from knudsweep.gather import gather_study
+    from knudsweep.gather import BatchFileError, gather_study
     from knudsweep.plan import StudyPlan
 
     plan = StudyPlan(validate_study(study))
-    datasets = gather_study(plan, output, workers=workers)
-    corrupt = [str(r) for ds in datasets.values()
-               for r in ds["reason"].values[ds["status"].values == "corrupt"].ravel()]
-    if corrupt:
-        message = (f"{len(corrupt)} corrupt point file(s) moved aside; run the workflow again to "
-                   f"recompute them: " + "; ".join(corrupt))
-        logging.getLogger("knudsweep.gather").error("%s", message)
-        from knudsweep.status import invalidate_products
-
-        invalidate_products(plan, sweep=False)
-        raise CorruptPointsError(message)
-    return datasets
+    try:
+        return gather_study(plan, output, workers=workers)
+    except BatchFileError as exc:
+        print(f"knudsweep: gather: {exc}", file=sys.stderr)
+        sys.exit(1)
 
 
 def run_tables(study: dict[str, Any], sweep: str, outdir: str, log: str | None = None):

@@ -87,7 +87,7 @@ def solve_values(family: str, values: dict[str, Any], section: dict[str, Any], a
             result = _failed_result(family, values, f"solver error: {type(exc).__name__}: {exc}",
                                     time.perf_counter() - t0)
         result = _guard_finite(result)
-        log.info("try %d (max_iter=%s): %s %s", tries, max_iter, result.status, result.convergence.reason)
+        log.debug("try %d (max_iter=%s): %s %s", tries, max_iter, result.status, result.convergence.reason)
         if result.status != FAILED or factor == 1 or max_iter is None or tries >= 2:
             return result, tries, max_iter
         max_iter *= factor
@@ -132,7 +132,7 @@ def solve_point(
         write_result(result, output, provenance)
     except Exception as exc:
         raise PointWriteError(write_failure_message(output, exc)) from exc
-    log.info("wrote %s (%s)", output, result.status)
+    log.debug("wrote %s (%s)", output, result.status)
     return result
 
 
@@ -154,4 +154,5 @@ def write_failure_message(output: str | os.PathLike, exc: BaseException) -> str:
     except OSError:
         free = f"free space of {folder} unknown"
     return (f"could not write point file {output}: {type(exc).__name__}: {exc} ({free}); "
-            "no file was written under that name, so the next run computes this point again")
+            "no file was written under that name; the point is recorded as crashed and "
+            "`knudsweep status <study> --requeue-failed` queues it for the next run")

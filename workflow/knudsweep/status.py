@@ -148,8 +148,8 @@ def requeue(statuses: list[PointStatus], states=("failed", "corrupt"), outdated:
     """Delete the files of points in ``states`` (or, with ``outdated``, only outdated ones).
 
     The next run of the workflow recomputes exactly the removed points, provided
-    the study's sweep file is rebuilt: Snakemake does not recompute a deleted
-    input of an up-to-date output, so :func:`invalidate_products` must follow.
+    the batches that hold them run again: call :func:`invalidate_products` with
+    the removed points (Snakemake does not redo a batch whose output exists).
     """
     removed = []
     for st in statuses:
@@ -161,14 +161,14 @@ def requeue(statuses: list[PointStatus], states=("failed", "corrupt"), outdated:
     return removed
 
 
-def invalidate_products(plan, root: str | os.PathLike = ".", sweep: bool = True) -> list[str]:
-    """Delete the study's sweep file, tables and figures (all derived, rebuilt on the next run).
+def invalidate_products(plan, root: str | os.PathLike = ".", pids=None) -> list[str]:
+    """Delete the batch files holding ``pids`` (all with None) and the study's sweep, tables and figures.
 
-    Needed after point files were removed: Snakemake skips a deleted input of an
-    output that exists and is up to date, so as long as the tables and figures
-    exist the removed points would never be recomputed.
+    The next run then redoes those batches (solving only their points without
+    a valid file) and rebuilds the products from them.
     """
-    files = ([plan.sweep_file] if sweep else []) + plan.table_files() + plan.figure_files()
+    keys = set(plan.batches) if pids is None else {plan.batch_of[p] for p in pids if p in plan.batch_of}
+    files = [plan.batch_file(k) for k in sorted(keys)] + [plan.sweep_file] + plan.table_files() + plan.figure_files()
     removed = []
     for f in files:
         path = Path(root) / f

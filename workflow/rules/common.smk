@@ -5,29 +5,36 @@
 # values (exit code 1).
 import sys
 
+from knudsweep.batches import BATCH_BASE_MEM_MB, runtime_minutes
 from knudsweep.config import StudyConfigError, validate_study
-from knudsweep.plan import StudyPlan, warm_up_flag
+from knudsweep.plan import StudyPlan
+from solver import __version__ as CODE_VERSION
 
 try:
     STUDY = validate_study(config)
 except StudyConfigError as exc:
     sys.exit(f"knudsweep: invalid study config: {exc}")
 
-PLAN = StudyPlan(STUDY)
+# Batches are sized to the cluster target under a remote executor (and inside
+# its jobs, which parse this file again and must find the same batches).
+PLAN = StudyPlan(STUDY, cluster=workflow.non_local_exec or workflow.remote_exec)
+EXEC = STUDY["execution"]
+# A batch job whose points crashed fails while it has attempts left, so that
+# Snakemake runs it again (solving only those points); no flag needed.
+BATCH_RETRIES = 1
 
 
 wildcard_constraints:
     family="|".join(PLAN.families),
+    batch=r"b\d+-[0-9a-f]{8}",
 
 
-def point_values(wildcards):
-    """Canonical values of the requested point (tracked as params: a change reruns it)."""
-    return PLAN.point_values(f"{wildcards.family}/{wildcards.point}")
+def batch_points(wildcards):
+    """Point id -> canonical values of the batch's points (KeyError names a batch not in the plan)."""
+    batch = PLAN.batch(wildcards.family, wildcards.batch)
+    return {pid: PLAN.points[pid].values for pid in batch.pids}
 
 
 def tracked(*sections):
     """The parts of the study a product depends on (its params, so edits rerun it)."""
     return {k: v for k, v in STUDY.items() if k in ("study", *sections, *PLAN.families)}
-
-
-EXEC = STUDY["execution"]

@@ -1,9 +1,9 @@
-# Stage 2: all point files of the study -> results/<study>/sweep.nc.
+# Stage 2: all batch files of the study -> results/<study>/sweep.nc.
 
 
 rule gather:
     input:
-        PLAN.point_files(),
+        PLAN.batch_files(),
     output:
         PLAN.sweep_file,
     log:

@@ -1,37 +1,25 @@
-# Stage 1: one job per point.  results/points/ is shared by all studies: a point
-# requested by two studies is computed once.
+# Stage 1: one job per batch of points (knudsweep.batch_job).  Point files in
+# results/points/ are the cache, shared by all studies; they are not declared
+# outputs, so Snakemake never deletes one.  The batch file is the job's output
+# and the input of gather.
 
 
-rule warm_up:
-    # Compile the numba kernels once into <workdir>/.numba_cache before the
-    # point jobs start, so hundreds of jobs do not compile at the same time.
+rule solve_batch:
     output:
-        warm_up_flag("{family}"),
+        f"{PLAN.study_dir}/batches/{{family}}/{{batch}}.nc",
     log:
-        "logs/warm_up/{family}.log",
-    threads: 1
-    resources:
-        mem_mb=2000,
-        runtime=30,
-    script:
-        "../scripts/warm_up.py"
-
-
-rule solve:
-    input:
-        # ancient(): a re-made flag must not make every point look outdated.
-        ancient(warm_up_flag("{family}")),
-    output:
-        "results/points/{family}/{point}.nc",
-    log:
-        "logs/points/{family}/{point}.log",
+        f"logs/{PLAN.name}/batches/{{family}}/{{batch}}.log",
     params:
-        point=point_values,
-    threads: EXEC["threads_per_point"]
+        # tracked: a batch whose points or solver version change runs again
+        points=batch_points,
+        code_version=CODE_VERSION,
+        max_attempt=BATCH_RETRIES + 1,
+    threads: PLAN.batch_threads
+    retries: BATCH_RETRIES
     resources:
-        # grow with each Snakemake retry; solve_attempt also raises max_iter
-        mem_mb=lambda wc, attempt: EXEC["mem_mb_per_point"] * attempt,
-        runtime=lambda wc, attempt: EXEC["runtime_per_point"] * attempt,
+        # grow with each retry; the job also raises max_iter for the failed points
+        mem_mb=lambda wc, threads, attempt: (BATCH_BASE_MEM_MB + threads * EXEC["mem_mb_per_point"]) * attempt,
+        runtime=lambda wc, threads, attempt: runtime_minutes(PLAN.batch(wc.family, wc.batch), threads, attempt),
         solve_attempt=lambda wc, attempt: attempt,
     script:
-        "../scripts/solve.py"
+        "../scripts/solve_batch.py"

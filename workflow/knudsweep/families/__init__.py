@@ -32,8 +32,14 @@ section with defaults filled in, ``study`` the whole validated study):
     Solve one point by calling the solver package.  Must not write files.
     ``max_iter`` may be None (solver default).  Raise only for programming
     errors; numerical trouble comes back as a result with status "failed".
+``point_cost(values) -> float``
+    Estimated seconds to solve and write one point on one core, from its
+    parameters, with figures measured on this code (``benchmarks/``).  The
+    batch planner (:mod:`knudsweep.batches`) fills batches up to a target
+    duration with it; it only needs to be right within a factor of ~2.
 ``warm_up()``
-    Compile the numba kernels once on a tiny problem (the ``warm_up`` rule).
+    Compile the numba kernels once on a tiny problem (each batch job calls it,
+    under a lock, before its first point).
 ``gather_dims(section) -> dict[str, list]``
     Ordered gather dimensions and their coordinate labels (the sweep grid).
 ``dim_attrs(section) -> dict[str, dict]`` (optional)
@@ -96,6 +102,9 @@ class Family:
 
     def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
         raise NotImplementedError
+
+    def point_cost(self, values: dict[str, Any]) -> float:
+        return 1.0
 
     def warm_up(self) -> None:
         return None

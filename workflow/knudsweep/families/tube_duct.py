@@ -216,6 +216,20 @@ class TubeDuct(Family):
 
         return solve_duct(values["problem"], aspect_ratio=values["aspect_ratio"], **kw)
 
+    def point_cost(self, values: dict[str, Any]) -> float:
+        """Seconds per point, measured on the demo grids (n_velocity 8, solver-default space grid):
+        tube 0.08-0.2 s with Maxwell walls, up to 0.8 s with Cercignani-Lampis walls at small
+        delta; duct 0.03-0.4 s, growing with the aspect ratio and with delta above 10."""
+        nv = (values.get("n_velocity") or 8) / 8.0
+        cl = 3.0 if values["wall_params"]["model"] == "cercignani_lampis" else 1.0
+        if values["shape"] == "tube":
+            cost = 0.2 * cl * nv**2
+        else:
+            cost = 0.06 * cl * math.sqrt(values["aspect_ratio"]) * (1.0 + values["delta"] / 50.0) * nv**2
+        if values.get("accuracy") is not None:
+            cost *= 4.0
+        return cost
+
     def warm_up(self) -> None:
         from solver.duct import solve_duct
         from solver.tube import solve_tube

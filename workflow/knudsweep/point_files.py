@@ -1,0 +1,101 @@
+"""Point files: check one against the point it is filed under, and turn it into a record.
+
+A *record* is what the batch file and the gathered sweep keep of a point::
+
+    {"pid", "status", "reason", "code_version", "iterations", "wall_time",
+     "residual": 1-D array, "coefficients": {name: (value, {"units", "long_name"})}}
+
+A point file is *valid* for point ``pid`` with canonical ``values`` when it
+opens, has a ``status``, its ``point_id`` attribute is ``pid``, its
+``point_values`` attribute equals ``values`` and its ``code_version`` is this
+solver's version.  Anything else (unreadable, another point's file copied over
+it, an older version) is invalid: the batch job moves it aside and solves the
+point again.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from typing import Any
+
+import numpy as np
+
+from solver import __version__
+
+_NOT_COEFFICIENTS = {"iterations", "wall_time"}
+
+
+def canonical_json(values: dict[str, Any]) -> Any:
+    """``values`` as they come back from the JSON of a file's ``point_values`` attribute."""
+    return json.loads(json.dumps(dict(values), sort_keys=True))
+
+
+def record_from_result(result, pid: str) -> dict[str, Any]:
+    """The record of a freshly solved point (a failed point has no coefficients)."""
+    conv = result.convergence
+    return {
+        "pid": pid,
+        "status": conv.status,
+        "reason": conv.reason,
+        "code_version": __version__,
+        "iterations": int(conv.iterations),
+        "wall_time": float(result.wall_time),
+        "residual": np.asarray(conv.residuals, dtype=float),
+        "coefficients": {name: (float(q.value), {"units": q.units, "long_name": q.long_name})
+                         for name, q in result.coefficients.items()},
+    }
+
+
+def read_point_record(path: str | os.PathLike, pid: str, values: dict[str, Any]
+                      ) -> tuple[dict[str, Any] | None, str]:
+    """``(record, "")`` if ``path`` is a valid file of point ``pid``; else ``(None, why)``.
+
+    ``why`` is "missing" when there is no file, otherwise a one-line reason.
+    """
+    if not os.path.exists(path):
+        return None, "missing"
+    import netCDF4
+
+    try:
+        with netCDF4.Dataset(str(path), "r") as nc:
+            attrs = {k: nc.getncattr(k) for k in nc.ncattrs()}
+            if "status" not in attrs or "residual" not in nc.variables:
+                return None, "not a knudsweep point file (no status attribute or residual)"
+            if attrs.get("point_id") != pid:
+                return None, f"file holds point {attrs.get('point_id')!r}, not {pid!r}"
+            try:
+                stored = json.loads(attrs.get("point_values", "null"))
+            except ValueError:
+                stored = None
+            if stored != canonical_json(values):
+                return None, "its point_values differ from the point's values"
+            version = str(attrs.get("code_version", ""))
+            if version != __version__:
+                return None, f"computed by solver version {version or '?'}, this is {__version__}"
+            nc.set_auto_mask(False)
+            coefficients = {}
+            for name, var in nc.variables.items():
+                if var.ndim == 0 and name not in _NOT_COEFFICIENTS:
+                    coefficients[name] = (float(var.getValue()), {k: str(var.getncattr(k)) for k in
+                                                                  ("units", "long_name") if k in var.ncattrs()})
+            record = {
+                "pid": pid,
+                "status": str(attrs["status"]),
+                "reason": str(attrs.get("status_reason", "")),
+                "code_version": version,
+                "iterations": int(nc.variables["iterations"].getValue()),
+                "wall_time": float(nc.variables["wall_time"].getValue()),
+                "residual": np.asarray(nc.variables["residual"][:], dtype=float),
+                "coefficients": coefficients,
+            }
+    except Exception as exc:  # any failure to read makes the file invalid
+        return None, f"unreadable ({type(exc).__name__}: {exc})"
+    return record, ""
+
+
+def move_aside(path: str | os.PathLike) -> str:
+    """Rename an invalid point file to ``<path>.corrupt`` (replacing an older one); returns the new path."""
+    aside = f"{path}.corrupt"
+    os.replace(path, aside)
+    return aside
