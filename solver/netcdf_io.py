@@ -122,27 +122,39 @@ def _nc_attr(value: Any) -> Any:
     return value.item() if isinstance(value, np.generic) else value
 
 
-def write_netcdf4(ds: xr.Dataset, path: str | os.PathLike) -> None:
-    """Write ``ds`` with netCDF4 directly (about 4x faster than ``Dataset.to_netcdf`` for a point file).
+# Point files are netCDF classic (64-bit offset): CF's original format, written in
+# 2.6 ms against 5.3 ms for netCDF-4/HDF5 and opened in 0.2 ms against 1.3 ms
+# (measured on a plane-channel point file, 10 variables), and a third of the size.
+# A point file needs no groups, strings or 64-bit integers. The gathered sweep,
+# with one group per family, is netCDF-4.
+POINT_FORMAT = "NETCDF3_64BIT_OFFSET"
 
-    Same content as xarray would write for these datasets: dimension
-    coordinates, variables with their attributes, global attributes; arrays of
-    floats are zlib-compressed with no fill value, float scalars get a NaN fill
-    value (xarray's default), integers none.
+
+def _classic_values(name: str, values: np.ndarray) -> np.ndarray:
+    """Values in a type netCDF classic stores: 64-bit integers and booleans become 32-bit integers."""
+    if values.dtype == np.bool_:
+        return values.astype(np.int8)
+    if np.issubdtype(values.dtype, np.integer) and values.dtype.itemsize > 4:
+        if values.size and (values.max() > np.iinfo(np.int32).max or values.min() < np.iinfo(np.int32).min):
+            raise ValueError(f"{name}: integer values beyond 32 bits cannot be stored in a point file")
+        return values.astype(np.int32)
+    return values
+
+
+def write_point_netcdf(ds: xr.Dataset, path: str | os.PathLike) -> None:
+    """Write ``ds`` as a netCDF classic file with netCDF4 directly (not through xarray, 3x faster).
+
+    Dimension coordinates, variables with their attributes, global attributes;
+    float variables get a NaN fill value (xarray's default), integers none.
     """
     import netCDF4
 
-    with netCDF4.Dataset(str(path), "w", format="NETCDF4") as nc:
+    with netCDF4.Dataset(str(path), "w", format=POINT_FORMAT) as nc:
         for dim, size in ds.sizes.items():
             nc.createDimension(dim, size)
         for name, var in list(ds.coords.items()) + list(ds.data_vars.items()):
-            values = np.asarray(var.values)
-            floating = np.issubdtype(values.dtype, np.floating)
-            kw: dict[str, Any] = {}
-            if floating and var.ndim > 0:
-                kw = {"zlib": True, "complevel": 4}
-            elif floating:
-                kw = {"fill_value": np.nan}
+            values = _classic_values(name, np.asarray(var.values))
+            kw = {"fill_value": np.nan} if np.issubdtype(values.dtype, np.floating) else {}
             v = nc.createVariable(name, values.dtype, var.dims, **kw)
             v.setncatts({k: _nc_attr(a) for k, a in var.attrs.items()})
             if var.ndim:
@@ -155,7 +167,7 @@ def write_netcdf4(ds: xr.Dataset, path: str | os.PathLike) -> None:
 def write_dataset(ds: xr.Dataset, path: str | os.PathLike) -> Path:
     """Write ``ds`` atomically to ``path`` (temporary name, fsync, rename)."""
     with atomic_output(path) as tmp:
-        write_netcdf4(ds, tmp)
+        write_point_netcdf(ds, tmp)
     return Path(path)
 
 

@@ -261,7 +261,7 @@ def _mount_tmpfs(folder: Path, size: str) -> bool:
 
 
 def test_full_disk_fails_only_that_point_cleanly_and_it_is_retried(reference, tmp_path, capsys, monkeypatch):
-    """Two write faults in one run: a real ENOSPC on a 16 KiB tmpfs mounted on one point's
+    """Two write faults in one run: a real ENOSPC on a 4 KiB tmpfs mounted on one point's
     folder (skipped where mount is not allowed), and an injected file-size limit
     (RLIMIT_FSIZE via KNUDSWEEP_FAULT_WRITE_LIMIT) on another point: its write fails
     with EFBIG on the same code path."""
@@ -275,11 +275,11 @@ def test_full_disk_fails_only_that_point_cleanly_and_it_is_retried(reference, tm
     plan = StudyPlan(load_study(study))
     on_tmpfs = next(p for p in plan.points if "model=bgk/wall=maxwell-alpha=0.5" in p)
     limited = next(p for p in plan.points if "model=s_model/wall=maxwell-alpha=0.5" in p)
-    # 16 KiB: a point file of this study is about 28 KB
+    # 4 KiB (one page): a point file of this study is about 5 KB
     mounted_dir = (workdir / plan.point_file(on_tmpfs)).parent
-    mounted = _mount_tmpfs(mounted_dir, "16k")
+    mounted = _mount_tmpfs(mounted_dir, "4k")
     victims = [limited] + ([on_tmpfs] if mounted else [])
-    monkeypatch.setenv(FAULT_WRITE_LIMIT_ENV, f"16384@{limited}")
+    monkeypatch.setenv(FAULT_WRITE_LIMIT_ENV, f"4096@{limited}")
     try:
         r = smk(workdir, study, plan.sweep_file, "--keep-going", check=False)
         out = r.stdout + r.stderr

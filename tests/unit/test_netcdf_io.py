@@ -60,7 +60,7 @@ def test_interrupted_write_leaves_no_file_and_no_temporary(tmp_path, monkeypatch
             fh.write(b"CDF\x01 truncated")
         raise KeyboardInterrupt  # what a kill during the write looks like to Python
 
-    monkeypatch.setattr(netcdf_io, "write_netcdf4", broken)
+    monkeypatch.setattr(netcdf_io, "write_point_netcdf", broken)
     with pytest.raises(KeyboardInterrupt):
         write_result(sample_result(), target)
     assert os.listdir(tmp_path) == []
@@ -74,7 +74,7 @@ def test_failed_rewrite_keeps_the_old_complete_file(tmp_path, monkeypatch):
     def broken(ds, path):
         raise OSError("disk full")
 
-    monkeypatch.setattr(netcdf_io, "write_netcdf4", broken)
+    monkeypatch.setattr(netcdf_io, "write_point_netcdf", broken)
     with pytest.raises(OSError):
         write_result(sample_result(), target)
     assert target.read_bytes() == before
@@ -83,13 +83,13 @@ def test_failed_rewrite_keeps_the_old_complete_file(tmp_path, monkeypatch):
 
 def test_temporary_lives_in_the_target_directory(tmp_path, monkeypatch):
     seen = []
-    real = netcdf_io.write_netcdf4
+    real = netcdf_io.write_point_netcdf
 
     def spy(ds, path):
         seen.append(os.path.dirname(os.fspath(path)))
         return real(ds, path)
 
-    monkeypatch.setattr(netcdf_io, "write_netcdf4", spy)
+    monkeypatch.setattr(netcdf_io, "write_point_netcdf", spy)
     netcdf_io.write_result(sample_result(), tmp_path / "sub" / "p.nc")
     # same directory => os.replace is an atomic rename on the same filesystem
     assert seen == [str(tmp_path / "sub")]

@@ -33,6 +33,10 @@ from dataclasses import dataclass
 # (start-up of the workers, uneven last points); measured 0.8-0.9 on 2 cores
 # with benchmarks/bench_sweep_throughput.py.
 POOL_EFFICIENCY = 0.85
+# Below this many estimated single-core seconds a batch solves its points in its own
+# process: starting worker processes (about 1.2 s, measured with
+# benchmarks/bench_sweep_throughput.py) would cost more than it saves.
+POOL_MIN_COST_S = 4.0
 # Memory the batch process itself needs besides its workers (Python, numpy,
 # netCDF4, the batch records), MB; common practice, no source.
 BATCH_BASE_MEM_MB = 500
@@ -49,9 +53,13 @@ class Batch:
     def key(self) -> str:
         return f"{self.family}/{self.name}"
 
+    def workers(self, threads: int) -> int:
+        """Cores the batch job uses of ``threads``: 1 for a cheap batch, else one per point at most."""
+        return 1 if self.cost_s < POOL_MIN_COST_S else max(1, min(int(threads), len(self.pids)))
+
     def wall_minutes(self, threads: int) -> float:
         """Estimated wall time of the whole batch on ``threads`` cores, minutes."""
-        workers = max(1, min(int(threads), len(self.pids)))
+        workers = self.workers(threads)
         return self.cost_s / (60.0 * workers * (POOL_EFFICIENCY if workers > 1 else 1.0))
 
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import logging
 import os
+import sys
 from pathlib import Path
 from typing import Any
 
@@ -189,18 +190,37 @@ def run_tables(study: dict[str, Any], sweep: str, outdir: str, log: str | None =
         write_tables(get_family(fam).tables(open_sweep(sweep, fam), plan.study[fam]), outdir)
 
 
-def run_figures(study: dict[str, Any], sweep: str, outdir: str, log: str | None = None):
-    """Draw every family's figures from the sweep file."""
-    setup_logging(log)
-    from knudsweep.config import validate_study
+def _draw_family(args) -> None:
     from knudsweep.families import get_family
     from knudsweep.figures import save_figure
     from knudsweep.gather import open_sweep
+
+    study, fam, sweep, outdir = args
+    settings = study["figures"]
+    figs = get_family(fam).figures(open_sweep(sweep, fam), study[fam], settings)
+    for name, fig in figs.items():
+        save_figure(fig, Path(outdir) / name, settings["formats"], settings["dpi"])
+
+
+def run_figures(study: dict[str, Any], sweep: str, outdir: str, log: str | None = None, threads: int = 1):
+    """Draw every family's figures from the sweep file, families side by side on ``threads`` cores.
+
+    (The demo's three families: 14 s one after another on 2 cores.)
+    """
+    setup_logging(log)
+    from knudsweep.config import validate_study
     from knudsweep.plan import StudyPlan
 
     plan = StudyPlan(validate_study(study))
-    settings = plan.study["figures"]
-    for fam in plan.families:
-        figs = get_family(fam).figures(open_sweep(sweep, fam), plan.study[fam], settings)
-        for name, fig in figs.items():
-            save_figure(fig, Path(outdir) / name, settings["formats"], settings["dpi"])
+    tasks = [(plan.study, fam, sweep, outdir) for fam in plan.families]
+    workers = max(1, min(int(threads), len(tasks)))
+    if workers == 1 or sys.platform != "linux":
+        for t in tasks:
+            _draw_family(t)
+        return
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor
+
+    # fork: this process has drawn nothing yet (matplotlib's Agg backend, no threads)
+    with ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork")) as pool:
+        list(pool.map(_draw_family, tasks))

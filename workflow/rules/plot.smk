@@ -13,6 +13,7 @@ rule plot:
     params:
         study=tracked("figures"),
         outdir=f"{PLAN.study_dir}/figures",
+    threads: max(1, min(len(PLAN.families), workflow.cores or 1))  # one core per family's figures
     localrule: True
     script:
         "../scripts/plot.py"

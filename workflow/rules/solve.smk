@@ -14,7 +14,7 @@ rule solve_batch:
         points=batch_points,
         code_version=CODE_VERSION,
         max_attempt=BATCH_RETRIES + 1,
-    threads: PLAN.batch_threads
+    threads: lambda wc: PLAN.batch(wc.family, wc.batch).workers(PLAN.batch_threads)  # 1 for a cheap batch
     retries: BATCH_RETRIES
     resources:
         # grow with each retry; the job also raises max_iter for the failed points
