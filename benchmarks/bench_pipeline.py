@@ -5,13 +5,12 @@ Prints figures and ratios, asserts nothing.  Run from the repository root:
     python benchmarks/bench_pipeline.py            # everything (several minutes)
     python benchmarks/bench_pipeline.py --quick    # gather of 1,000 files only, no 10,000
 
-1. Per-point workflow overhead: a 6-point study is solved through Snakemake
-   (--cores 1, warm numba cache); wall time per point job vs the solver's own
-   time (``solver_wall_time_s`` in each file).
-2. Dry-run time of a 10,000-point grid (DAG building only) and the time to
-   expand the grid in the package.
-3. Gather time for 1,000 and 10,000 synthetic point files (written with
-   solver.netcdf_io), serial and with 2 worker processes.
+1. Dry-run time of a 10,000-point grid (DAG building only) and the time to
+   expand the grid and cut it into batches in the package.
+2. Gather time for 1,000 and 10,000 synthetic points (point files written with
+   solver.netcdf_io, then checked and collected into batch files of 200 points
+   as batch jobs do), serial and with 2 worker processes.
+(The workflow against its solver, with real solves: bench_sweep_throughput.py.)
 """
 
 from __future__ import annotations
@@ -59,30 +58,6 @@ def study_dict(name: str, deltas, walls=1, problems=("poiseuille",), models=("bg
     }
 
 
-def bench_overhead(tmp: Path) -> None:
-    import xarray as xr
-
-    study = tmp / "six.yaml"
-    study.write_text(yaml.safe_dump(study_dict("six", [0.1, 0.3, 1.0, 3.0, 10.0, 30.0])))
-    plan = StudyPlan(validate_study(yaml.safe_load(study.read_text())))
-    work = tmp / "overhead"
-    t_warm = smk(work, study, "--cores", "1", *plan.warm_up_flags())
-    t_points = smk(work, study, "--cores", "1", *plan.point_files())
-    solver = []
-    for f in plan.point_files():
-        with xr.open_dataset(work / f) as ds:
-            solver.append(float(ds.attrs["solver_wall_time_s"]))
-    n = len(solver)
-    per_point = t_points / n
-    mean_solver = float(np.mean(solver))
-    print("1. per-point workflow overhead (6 points, --cores 1, coarse grid)")
-    print(f"   warm-up rule (compile/load numba cache): {t_warm:8.2f} s")
-    print(f"   wall time per point job:                 {per_point:8.3f} s")
-    print(f"   solver time per point (from files):      {mean_solver:8.3f} s")
-    print(f"   overhead per point:                      {per_point - mean_solver:8.3f} s"
-          f"  (overhead / solver = {(per_point - mean_solver) / mean_solver:.1f})")
-
-
 def bench_dry_run(tmp: Path) -> None:
     deltas = {"start": 1e-3, "stop": 1e3, "num": 1250}
     raw = study_dict("big", deltas, walls=2, problems=("poiseuille", "thermal_creep"), models=("bgk", "s_model"))
@@ -93,7 +68,7 @@ def bench_dry_run(tmp: Path) -> None:
     n = len(plan.points)
     t_plan = time.perf_counter() - t0
     t_dry = smk(tmp / "dry", study, "--cores", "2", "--dry-run", "--quiet")
-    print(f"2. dry run of a {n:,}-point grid")
+    print(f"1. dry run of a {n:,}-point grid ({len(plan.batches)} batch jobs)")
     print(f"   grid expansion in the package:  {t_plan:8.2f} s")
     print(f"   snakemake --dry-run --quiet:    {t_dry:8.2f} s  ({1e3 * t_dry / n:.2f} ms per point)")
 
@@ -108,23 +83,38 @@ def synthetic_result(delta: float, rng) -> SolverResult:
     )
 
 
+def write_batches(plan, root: Path) -> None:
+    """The batch files of ``plan`` from its point files under ``root``, as batch jobs write them."""
+    from knudsweep.batch_files import write_batch_file
+    from knudsweep.batch_job import verify_points
+
+    for key, batch in plan.batches.items():
+        records, todo = verify_points({pid: plan.points[pid].values for pid in batch.pids}, root=root)
+        assert not todo, f"{len(todo)} invalid synthetic point files"
+        write_batch_file([records[pid] for pid in batch.pids], root / plan.batch_file(key), {"batch": key})
+
+
 def bench_gather(tmp: Path, n_points: int) -> None:
     raw = study_dict(f"g{n_points}", {"start": 1e-3, "stop": 1e3, "num": n_points // 10}, walls=10)
+    raw["execution"]["points_per_batch"] = 200
     plan = StudyPlan(validate_study(raw))
     root = tmp / f"gather{n_points}"
     rng = np.random.default_rng(1)
     t0 = time.perf_counter()
     for p in plan.points.values():
-        write_result(synthetic_result(p.values["delta"], rng), root / plan.point_file(p.pid))
+        write_result(synthetic_result(p.values["delta"], rng), root / plan.point_file(p.pid),
+                     {"point_id": p.pid, "point_values": p.values})
+    write_batches(plan, root)
     t_write = time.perf_counter() - t0
     times = {}
     for workers in (1, 2):
         t0 = time.perf_counter()
         gather_study(plan, root / f"sweep{workers}.nc", workers=workers, root=root)
         times[workers] = time.perf_counter() - t0
-    print(f"3. gather of {len(plan.points):,} synthetic point files (writing them took {t_write:.1f} s)")
+    print(f"2. gather of {len(plan.points):,} synthetic points in {len(plan.batches)} batch files "
+          f"(writing them took {t_write:.1f} s)")
     for w, t in times.items():
-        print(f"   {w} worker process(es): {t:8.2f} s  ({1e3 * t / len(plan.points):.2f} ms per file)")
+        print(f"   {w} worker process(es): {t:8.2f} s  ({1e3 * t / len(plan.points):.3f} ms per point)")
     print(f"   speed-up with 2 processes: {times[1] / times[2]:.2f}")
 
 
@@ -134,7 +124,6 @@ def main() -> None:
     args = parser.parse_args()
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
-        bench_overhead(tmp)
         bench_dry_run(tmp)
         for n in (1000,) if args.quick else (1000, 10000):
             bench_gather(tmp, n)

@@ -1,6 +1,6 @@
 """Scale of the study layer: a 10,000-point plane-channel study without solving it.
 
-Prints: plan expansion time, Snakemake dry-run time (DAG of 10,000 solve jobs),
+Prints: plan expansion time, Snakemake dry-run time (DAG of the batch jobs),
 time to write the synthetic point files (solver.netcdf_io from hand-built
 SolverResults, no solve), `knudsweep status` time (first call: reads every
 file's attributes and writes the status sidecars; later calls: sidecars only),
@@ -68,9 +68,9 @@ def _write_batch(args):
     root, items = args
     from solver.netcdf_io import write_result
 
-    for pid, problem, delta, path, failed in items:
+    for pid, problem, delta, path, failed, values in items:
         write_result(synthetic_result(problem, delta, failed), Path(root) / path,
-                     {"point_id": pid, "config_hash": "bench"})
+                     {"point_id": pid, "point_values": values, "config_hash": "bench"})
     return len(items)
 
 
@@ -99,9 +99,9 @@ def main() -> None:
         r = subprocess.run(cmd, capture_output=True, text=True)
         t_dry = time.perf_counter() - t0
         assert r.returncode == 0, r.stderr[-2000:]
-        print(f"snakemake --dry-run (DAG of {n} solve jobs + gather/tables/plot): {t_dry:.1f} s")
+        print(f"snakemake --dry-run (DAG of {len(plan.batches)} batch jobs for {n} points + gather/tables/plot): {t_dry:.1f} s")
 
-        items = [(pid, p.values["problem"], p.values["delta"], plan.point_file(pid), i % 97 == 0)
+        items = [(pid, p.values["problem"], p.values["delta"], plan.point_file(pid), i % 97 == 0, p.values)
                  for i, (pid, p) in enumerate(plan.points.items())]
         batches = [(str(root), items[i::WORKERS * 8]) for i in range(WORKERS * 8)]
         t0 = time.perf_counter()
@@ -127,6 +127,13 @@ def main() -> None:
         print(f"study_status() in-process from sidecars: {time.perf_counter() - t0:.2f} s "
               f"({sum(r.state == 'converged' for r in rows)} converged)")
 
+        sys.path.insert(0, str(Path(__file__).resolve().parent))
+        from bench_pipeline import write_batches
+
+        t0 = time.perf_counter()
+        write_batches(plan, root)
+        print(f"checked every point file and wrote {len(plan.batches)} batch files (as batch jobs do): "
+              f"{time.perf_counter() - t0:.1f} s")
         tracemalloc.start()
         t0 = time.perf_counter()
         datasets = gather_study(plan, root / plan.sweep_file, workers=WORKERS, root=root)
