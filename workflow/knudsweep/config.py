@@ -67,7 +67,73 @@ def _fill_defaults(validator_class):
     return jsonschema.validators.extend(validator_class, {"properties": set_defaults})
 
 
-_DefaultFillingValidator = _fill_defaults(jsonschema.Draft202012Validator)
+def _strict_integers(validator_class):
+    """JSON Schema counts 3.0 as an integer; a study may not (16.0 grid cells would fail late)."""
+    checker = validator_class.TYPE_CHECKER.redefine(
+        "integer", lambda _checker, x: isinstance(x, int) and not isinstance(x, bool))
+    return jsonschema.validators.extend(validator_class, type_checker=checker)
+
+
+_DefaultFillingValidator = _fill_defaults(_strict_integers(jsonschema.Draft202012Validator))
+
+# Largest study tree, counted with YAML aliases expanded (a 10^4-element axis is
+# about 10^4 nodes); an alias "bomb" of a few hundred bytes expands past it at once.
+MAX_STUDY_NODES = 1_000_000
+
+
+def _expanded_size(node, memo: dict[int, int]) -> int:
+    """Nodes of ``node`` with shared (aliased) subtrees counted every time they appear."""
+    key = id(node)
+    if key in memo:
+        return memo[key]
+    memo[key] = 1  # a cycle (recursive alias) counts once; the schema rejects it anyway
+    if isinstance(node, dict):
+        total = 1 + sum(_expanded_size(v, memo) for v in node.values()) + len(node)
+    elif isinstance(node, list):
+        total = 1 + sum(_expanded_size(v, memo) for v in node)
+    else:
+        total = 1
+    memo[key] = min(total, 10 * MAX_STUDY_NODES)
+    return memo[key]
+
+
+class _StrictLoader(yaml.SafeLoader):
+    """SafeLoader that refuses a key given twice in one mapping (YAML lets the last one win)."""
+
+    def construct_mapping(self, node, deep=False):
+        seen = {}
+        for key_node, _ in node.value:
+            key = self.construct_object(key_node, deep=deep)
+            if key in seen:
+                raise StudyConfigError(f"key {key!r} appears twice in one mapping (lines "
+                                       f"{seen[key] + 1} and {key_node.start_mark.line + 1}); keep one")
+            seen[key] = key_node.start_mark.line
+        return super().construct_mapping(node, deep=deep)
+
+
+_StrictLoader.add_constructor(yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG, _StrictLoader.construct_mapping)
+
+
+def read_study_yaml(path: str | Path) -> Any:
+    """Parse a study file strictly (duplicate keys are errors); StudyConfigError (one line) on failure."""
+    path = Path(path)
+    try:
+        with open(path, encoding="utf-8") as fh:
+            return yaml.load(fh, Loader=_StrictLoader)  # noqa: S506 (a SafeLoader subclass)
+    except FileNotFoundError:
+        raise StudyConfigError(f"study file {str(path)!r} does not exist") from None
+    except IsADirectoryError:
+        raise StudyConfigError(f"study file {str(path)!r} is a directory") from None
+    except UnicodeDecodeError as exc:
+        raise StudyConfigError(f"study file {str(path)!r} is not UTF-8 text (byte {exc.start})") from None
+    except RecursionError:
+        raise StudyConfigError(f"study file {str(path)!r} is nested too deeply") from None
+    except StudyConfigError as exc:
+        raise StudyConfigError(f"study file {str(path)!r}: {exc}") from None
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f" at line {mark.line + 1}" if mark is not None else ""
+        raise StudyConfigError(f"study file {str(path)!r} is not valid YAML{where}") from None
 
 
 def key_path(parts) -> str:
@@ -132,6 +198,10 @@ def _error_message(error: jsonschema.ValidationError) -> str:
         if isinstance(error.instance, str) and _EXPONENT_WITHOUT_DOT.match(error.instance):
             hint = (f" (YAML reads {error.instance} as text; write it with a dot, "
                     f"e.g. {error.instance.replace('e', '.0e', 1).replace('E', '.0E', 1)})")
+        wanted = error.validator_value if isinstance(error.validator_value, list) else [error.validator_value]
+        if isinstance(error.instance, float) and "integer" in wanted and error.instance.is_integer():
+            return (f"{key_path(path)}: got {error.instance!r}; expected a whole number "
+                    f"(write {int(error.instance)})")
         return f"{key_path(path)}: got {error.instance!r}; expected type {error.validator_value}{hint}"
     return f"{key_path(path)}: {error.message}"
 
@@ -164,6 +234,10 @@ def validate_study(raw: dict[str, Any]) -> dict[str, Any]:
     """
     if not isinstance(raw, dict) or not raw:
         raise StudyConfigError("<top level>: the study file is empty or not a mapping")
+    size = _expanded_size(raw, {})
+    if size > MAX_STUDY_NODES:
+        raise StudyConfigError(f"<top level>: the study expands to more than {MAX_STUDY_NODES:,} values "
+                               "(YAML aliases repeated inside each other?); write it out plainly")
     study = copy.deepcopy(dict(raw))
     _reject_non_finite(study, [])
     validator = _DefaultFillingValidator(load_schema())
@@ -188,24 +262,8 @@ def validate_study(raw: dict[str, Any]) -> dict[str, Any]:
 
 
 def load_study(path: str | Path) -> dict[str, Any]:
-    """Read and validate the study file at ``path``."""
-    path = Path(path)
-    try:
-        with open(path, encoding="utf-8") as fh:
-            raw = yaml.safe_load(fh)
-    except FileNotFoundError:
-        raise StudyConfigError(f"study file {str(path)!r} does not exist") from None
-    except IsADirectoryError:
-        raise StudyConfigError(f"study file {str(path)!r} is a directory") from None
-    except UnicodeDecodeError as exc:
-        raise StudyConfigError(f"study file {str(path)!r} is not UTF-8 text (byte {exc.start})") from None
-    except RecursionError:
-        raise StudyConfigError(f"study file {str(path)!r} is nested too deeply") from None
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        where = f" at line {mark.line + 1}" if mark is not None else ""
-        raise StudyConfigError(f"study file {str(path)!r} is not valid YAML{where}") from None
-    return validate_study(raw)
+    """Read (strictly, see :func:`read_study_yaml`) and validate the study file at ``path``."""
+    return validate_study(read_study_yaml(path))
 
 
 def config_hash(study: dict[str, Any]) -> str:

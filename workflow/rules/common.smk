@@ -6,11 +6,16 @@
 import sys
 
 from knudsweep.batches import BATCH_BASE_MEM_MB, runtime_minutes
-from knudsweep.config import StudyConfigError, validate_study
+from knudsweep.config import StudyConfigError, read_study_yaml, validate_study
 from knudsweep.plan import StudyPlan
 from solver import __version__ as CODE_VERSION
 
 try:
+    # Snakemake's YAML reader lets a repeated key win silently: read each study
+    # file once more with the strict reader, which refuses it.
+    for _path in workflow.configfiles:
+        if str(_path).endswith((".yaml", ".yml")):
+            read_study_yaml(_path)
     STUDY = validate_study(config)
 except StudyConfigError as exc:
     sys.exit(f"knudsweep: invalid study config: {exc}")

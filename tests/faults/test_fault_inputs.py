@@ -1,0 +1,71 @@
+"""Study files that used to be accepted and then fail late, or be read wrongly (issue: nothing silently wrong).
+
+Each case must end in one line naming the cause, before any job starts.
+"""
+
+from __future__ import annotations
+
+import subprocess
+import sys
+
+import pytest
+
+from knudsweep.config import StudyConfigError, load_study
+from fault_helpers import REPO
+
+TINY = (REPO / "tests" / "workflow" / "data" / "tiny_study.yaml").read_text()
+
+
+def _message(tmp_path, text: str) -> str:
+    path = tmp_path / "study.yaml"
+    path.write_text(text)
+    with pytest.raises(StudyConfigError) as info:
+        load_study(path)
+    message = str(info.value)
+    assert "\n" not in message
+    return message
+
+
+def test_a_key_given_twice_is_refused_not_silently_overwritten(tmp_path):
+    text = TINY.replace("plane_channel:\n", "plane_channel:\n  problems: [thermal_creep]\n", 1)
+    assert text != TINY
+    message = _message(tmp_path, text)
+    assert "key 'problems' appears twice in one mapping" in message
+
+
+def test_a_key_given_twice_is_refused_by_the_workflow_too(tmp_path):
+    path = tmp_path / "study.yaml"
+    path.write_text(TINY.replace("plane_channel:\n", "plane_channel:\n  problems: [thermal_creep]\n", 1))
+    r = subprocess.run([sys.executable, "-m", "snakemake", "--snakefile", str(REPO / "Snakefile"),
+                        "--directory", str(tmp_path / "w"), "--configfile", str(path), "-n"],
+                       capture_output=True, text=True, timeout=300)
+    assert r.returncode != 0
+    lines = [x for x in r.stderr.splitlines() if x.startswith("knudsweep: invalid study config:")]
+    assert len(lines) == 1 and "appears twice" in lines[0], r.stderr[-2000:]
+    assert "Traceback" not in r.stderr
+
+
+def test_an_alias_bomb_is_refused_before_it_is_expanded(tmp_path):
+    # 7 levels of 10 aliases each: 10^7 values from a few hundred bytes, under an unknown key
+    levels = ["a0: &a0 [x, x, x, x, x, x, x, x, x, x]"]
+    for k in range(1, 7):
+        levels.append(f"a{k}: &a{k} [" + ", ".join([f"*a{k - 1}"] * 10) + "]")
+    text = TINY + "bomb:\n" + "\n".join("  " + line for line in levels) + "\n"
+    assert len(text) - len(TINY) < 700
+    message = _message(tmp_path, text)
+    assert message.startswith("<top level>: the study expands to more than 1,000,000 values")
+
+
+def test_a_study_name_with_a_trailing_newline_is_refused(tmp_path):
+    text = TINY.replace("study: tiny", 'study: "tiny\\n"', 1)
+    assert text != TINY
+    assert _message(tmp_path, text).startswith("study: 'tiny\\n' does not match")
+
+
+@pytest.mark.parametrize("old,new,where", [
+    ("n_space: 16", "n_space: 16.0", "plane_channel.resolution.n_space: got 16.0; expected a whole number (write 16)"),
+    ("delta: [0.1, 1.0, 10.0]", "delta: {start: 0.1, stop: 10.0, num: 3.0}", "plane_channel.delta.num: got 3.0"),
+])
+def test_integers_written_as_floats_are_refused_with_the_fix(tmp_path, old, new, where):
+    assert old in TINY, old
+    assert where in _message(tmp_path, TINY.replace(old, new, 1))
