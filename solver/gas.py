@@ -96,6 +96,13 @@ def get_gas(name: str) -> GasData:
     return table[name]
 
 
+def gas_record(name: str) -> dict[str, float]:
+    """The numbers of gas ``name`` that results depend on (SI), for identities and provenance."""
+    g = get_gas(name)
+    return {"mass": g.mass, "mu_ref": g.mu_ref, "omega": g.omega, "d_vhs": g.d_vhs, "d_vss": g.d_vss,
+            "alpha_vss": g.alpha_vss, "t_ref": g.t_ref}
+
+
 def _as_gas(gas: GasData | str) -> GasData:
     return gas if isinstance(gas, GasData) else get_gas(gas)
 

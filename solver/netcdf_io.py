@@ -130,6 +130,49 @@ def _nc_attr(value: Any) -> Any:
 POINT_FORMAT = "NETCDF3_64BIT_OFFSET"
 
 
+# Global attributes that a file's numbers depend on for their meaning; they enter its checksum.
+CHECKED_ATTRS = ("family", "problem", "parameters", "status", "status_reason", "code_version",
+                 "point_id", "point_values", "batch")
+CHECKSUM_ATTR = "content_sha256"
+
+
+def content_digest(variables: dict[str, Any], attrs: dict[str, Any]) -> str:
+    """SHA-256 of every variable (name, type, shape, little-endian bytes) and of :data:`CHECKED_ATTRS`.
+
+    Stored as the ``content_sha256`` attribute and recomputed on read, so one
+    flipped bit in a stored value or a status makes the file invalid.
+    """
+    import hashlib
+
+    h = hashlib.sha256()
+    for name in sorted(variables):
+        a = np.asarray(variables[name])
+        if a.dtype.kind in "OUS":
+            kind, payload = "str", "\x1f".join(str(x) for x in a.ravel()).encode("utf-8")
+        else:
+            a = np.ascontiguousarray(a, dtype=a.dtype.newbyteorder("<"))
+            kind, payload = f"{a.dtype.kind}{a.dtype.itemsize}", a.tobytes()
+        h.update(f"{name}|{kind}|{a.shape}|".encode("utf-8"))
+        h.update(payload)
+    for key in CHECKED_ATTRS:
+        if key in attrs:
+            h.update(f"{key}={attrs[key]};".encode("utf-8"))
+    return h.hexdigest()
+
+
+def verify_digest(nc) -> str:
+    """Empty string if the open netCDF4 dataset ``nc`` matches its stored checksum, else why not."""
+    names = nc.ncattrs()
+    if CHECKSUM_ATTR not in names:
+        return "no content checksum (written before checksums, or not by knudsweep)"
+    nc.set_auto_mask(False)
+    variables = {name: v[...] for name, v in nc.variables.items()}
+    attrs = {k: nc.getncattr(k) for k in CHECKED_ATTRS if k in names}
+    if content_digest(variables, attrs) != nc.getncattr(CHECKSUM_ATTR):
+        return "content checksum mismatch (the stored numbers or status were changed after writing)"
+    return ""
+
+
 def _classic_values(name: str, values: np.ndarray) -> np.ndarray:
     """Values in a type netCDF classic stores: 64-bit integers and booleans become 32-bit integers."""
     if values.dtype == np.bool_:
@@ -152,6 +195,7 @@ def write_point_netcdf(ds: xr.Dataset, path: str | os.PathLike) -> None:
     with netCDF4.Dataset(str(path), "w", format=POINT_FORMAT) as nc:
         for dim, size in ds.sizes.items():
             nc.createDimension(dim, size)
+        written = {}
         for name, var in list(ds.coords.items()) + list(ds.data_vars.items()):
             values = _classic_values(name, np.asarray(var.values))
             kw = {"fill_value": np.nan} if np.issubdtype(values.dtype, np.floating) else {}
@@ -161,7 +205,10 @@ def write_point_netcdf(ds: xr.Dataset, path: str | os.PathLike) -> None:
                 v[:] = values
             else:
                 v.assignValue(values)
-        nc.setncatts({k: _nc_attr(a) for k, a in ds.attrs.items()})
+            written[name] = values
+        attrs = {k: _nc_attr(a) for k, a in ds.attrs.items()}
+        attrs[CHECKSUM_ATTR] = content_digest(written, attrs)
+        nc.setncatts(attrs)
 
 
 def write_dataset(ds: xr.Dataset, path: str | os.PathLike) -> Path:

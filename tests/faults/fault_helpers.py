@@ -21,7 +21,9 @@ HIDDEN_SUFFIXES = (".tmp", ".lock", ".status.json")
 
 # Attributes that record *when* and *how long*, not *what*: they differ between two
 # runs of the same point by construction (timestamps and wall-clock times).
-VOLATILE_ATTRS = {"history", "job_wall_time_s", "solver_wall_time_s"}
+# The content checksum covers the wall_time variable too, so it differs with it; the
+# variables it covers are compared one by one instead.
+VOLATILE_ATTRS = {"history", "job_wall_time_s", "solver_wall_time_s", "content_sha256"}
 # Variables that hold wall-clock time (same reason).
 VOLATILE_VARS = {"wall_time"}
 

@@ -8,7 +8,8 @@ What "identical to an uninterrupted run" means here (``same_point_content``):
 every variable of a point file (profiles, coefficients, residual history,
 iteration count) is bit-identical, and every attribute is equal, except the
 attributes ``history``, ``job_wall_time_s``, ``solver_wall_time_s`` and the
-variable ``wall_time``, which record when and how long the computation ran.
+variable ``wall_time``, which record when and how long the computation ran, and
+the checksum ``content_sha256``, which covers ``wall_time``.
 HDF5 files are not byte-reproducible (they embed those values and allocation
 order), so byte equality is not the right test; equality of everything that
 is not a clock reading is.

@@ -157,6 +157,11 @@ def test_point_file_of_another_point_is_not_recorded(sweep):
     good = [p for p in plan.points.values() if (root / plan.point_file(p.pid)).exists()]
     src, dst = good[0], good[1]
     (root / plan.point_file(dst.pid)).write_bytes((root / plan.point_file(src.pid)).read_bytes())
+    # knudsweep status sees it too
+    from knudsweep.status import study_status
+
+    row = next(r for r in study_status(plan, root) if r.pid == dst.pid)
+    assert row.state == "corrupt" and src.pid in row.reason
     records, todo = verify_points({dst.pid: dst.values}, root=root)
     assert records == {} and todo == [dst.pid]
     assert (root / (plan.point_file(dst.pid) + ".corrupt")).exists()

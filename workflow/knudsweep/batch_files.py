@@ -28,7 +28,7 @@ from typing import Any
 
 import numpy as np
 
-from solver.netcdf_io import CF_VERSION, atomic_output
+from solver.netcdf_io import CF_VERSION, CHECKSUM_ATTR, atomic_output, content_digest, verify_digest
 
 _STRINGS = ("point_id", "status", "reason", "source", "code_version")
 _LONG_NAMES = {
@@ -76,8 +76,11 @@ def write_batch_file(records: list[dict[str, Any]], path: str | os.PathLike, att
                 v = nc.createVariable(name, "f8", ("point",), fill_value=np.nan)
                 v.setncatts(a)
                 v[:] = vals
-            nc.setncatts({"Conventions": CF_VERSION, **{k: (str(x) if not isinstance(x, (int, float)) else x)
-                                                         for k, x in attrs.items()}})
+            gattrs = {"Conventions": CF_VERSION, **{k: (str(x) if not isinstance(x, (int, float)) else x)
+                                                     for k, x in attrs.items()}}
+            nc.set_auto_mask(False)
+            gattrs[CHECKSUM_ATTR] = content_digest({k: v[...] for k, v in nc.variables.items()}, gattrs)
+            nc.setncatts(gattrs)
 
 
 def read_batch_file(path: str | os.PathLike) -> tuple[list[dict[str, Any]], dict[str, Any]]:
@@ -85,6 +88,9 @@ def read_batch_file(path: str | os.PathLike) -> tuple[list[dict[str, Any]], dict
     import netCDF4
 
     with netCDF4.Dataset(str(path), "r") as nc:
+        broken = verify_digest(nc)
+        if broken:
+            raise ValueError(broken)
         nc.set_auto_mask(False)
         attrs = {k: nc.getncattr(k) for k in nc.ncattrs()}
         cols = {k: list(nc.variables[k][:]) for k in _STRINGS}

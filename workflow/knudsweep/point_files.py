@@ -22,6 +22,7 @@ from typing import Any
 import numpy as np
 
 from solver import __version__
+from solver.netcdf_io import verify_digest
 
 _NOT_COEFFICIENTS = {"iterations", "wall_time"}
 
@@ -73,7 +74,9 @@ def read_point_record(path: str | os.PathLike, pid: str, values: dict[str, Any]
             version = str(attrs.get("code_version", ""))
             if version != __version__:
                 return None, f"computed by solver version {version or '?'}, this is {__version__}"
-            nc.set_auto_mask(False)
+            broken = verify_digest(nc)
+            if broken:
+                return None, broken
             coefficients = {}
             for name, var in nc.variables.items():
                 if var.ndim == 0 and name not in _NOT_COEFFICIENTS:

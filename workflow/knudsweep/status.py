@@ -110,8 +110,11 @@ def _from_sidecar(path: Path, st: os.stat_result) -> dict | None:
     return record
 
 
-def read_status(path: str | os.PathLike, update_sidecar: bool = True) -> PointStatus:
-    """Status of one point file from its sidecar or, failing that, its attributes."""
+def read_status(path: str | os.PathLike, update_sidecar: bool = True, pid: str | None = None) -> PointStatus:
+    """Status of one point file from its sidecar or, failing that, its attributes.
+
+    With ``pid``, a file that holds another point (copied over this one) is corrupt.
+    """
     path = Path(path)
     try:
         st = path.stat()
@@ -129,6 +132,8 @@ def read_status(path: str | os.PathLike, update_sidecar: bool = True) -> PointSt
             write_sidecar(path, attrs)
     if "status" not in attrs:
         return PointStatus("", str(path), "corrupt", "no status attribute (not a knudsweep point file)")
+    if pid is not None and attrs.get("point_id") != pid:
+        return PointStatus("", str(path), "corrupt", f"file holds point {attrs.get('point_id')!r}, not this one")
     version = str(attrs.get("code_version", ""))
     return PointStatus("", str(path), str(attrs["status"]), str(attrs.get("status_reason", "")),
                        int(attrs.get("iterations_used", -1)), version, version != __version__)
@@ -138,7 +143,7 @@ def study_status(plan, root: str | os.PathLike = ".", update_sidecar: bool = Tru
     """Status of every point of ``plan`` (a StudyPlan), paths relative to ``root``."""
     out = []
     for pid in plan.points:
-        st = read_status(Path(root) / plan.point_file(pid), update_sidecar)
+        st = read_status(Path(root) / plan.point_file(pid), update_sidecar, pid=pid)
         st.pid = pid
         out.append(st)
     return out

@@ -9,6 +9,7 @@ from knudsweep.batches import BATCH_BASE_MEM_MB, runtime_minutes
 from knudsweep.config import StudyConfigError, read_study_yaml, validate_study
 from knudsweep.plan import StudyPlan
 from solver import __version__ as CODE_VERSION
+from solver.gas import gas_record
 
 try:
     # Snakemake's YAML reader lets a repeated key win silently: read each study
@@ -38,6 +39,11 @@ def batch_points(wildcards):
     """Point id -> canonical values of the batch's points (KeyError names a batch not in the plan)."""
     batch = PLAN.batch(wildcards.family, wildcards.batch)
     return {pid: PLAN.points[pid].values for pid in batch.pids}
+
+
+# The gas-table numbers of the study's gases: a param of every product that
+# converts with them (an edit of config/gases.yaml rebuilds those products).
+GAS_DATA = {g: gas_record(g) for g in sorted({g for f in PLAN.families for g in STUDY[f].get("gases", [])})}
 
 
 def tracked(*sections):

@@ -10,6 +10,7 @@ rule gather:
         f"logs/{PLAN.name}/gather.log",
     params:
         study=tracked(),
+        gas_data=GAS_DATA,
     threads: EXEC["gather_workers"]
     resources:
         mem_mb=4000,

@@ -12,6 +12,7 @@ rule plot:
         f"logs/{PLAN.name}/plot.log",
     params:
         study=tracked("figures"),
+        gas_data=GAS_DATA,
         outdir=f"{PLAN.study_dir}/figures",
     threads: max(1, min(len(PLAN.families), workflow.cores or 1))  # one core per family's figures
     localrule: True

@@ -10,6 +10,7 @@ rule tables:
         f"logs/{PLAN.name}/tables.log",
     params:
         study=tracked(),
+        gas_data=GAS_DATA,
         outdir=f"{PLAN.study_dir}/tables",
     localrule: True
     script:

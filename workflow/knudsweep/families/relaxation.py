@@ -39,6 +39,7 @@ import numpy as np
 
 from knudsweep.families import Family, Point, Table
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
+from solver.gas import gas_record
 
 METHODS = ("dsmc", "bgk", "s_model", "es_bgk")
 STATES = ("equilibrium", "anisotropic", "two_beams", "bkw")
@@ -135,6 +136,9 @@ class Relaxation(Family):
                                 ])
                                 values = {
                                     "method": method, "gas": gas, "pressure": p, "temperature": t,
+                                    # the gas table's numbers: an edit of config/gases.yaml changes
+                                    # the point's values, so its file no longer counts as done
+                                    "gas_data": gas_record(gas),
                                     "initial_state": st, "molecular_model": model,
                                     "n_particles": res if method == "dsmc" else None,
                                     "n_velocity": res if method != "dsmc" else None,
