@@ -69,3 +69,26 @@ def test_a_study_name_with_a_trailing_newline_is_refused(tmp_path):
 def test_integers_written_as_floats_are_refused_with_the_fix(tmp_path, old, new, where):
     assert old in TINY, old
     assert where in _message(tmp_path, TINY.replace(old, new, 1))
+
+
+KNUDSWEEP = [sys.executable, "-c", "import sys; from knudsweep.cli import main; sys.exit(main())"]
+
+
+@pytest.mark.parametrize("args,message", [
+    (["--tol", "1e-300"], "--tol: got 1e-300; allowed range is [1e-14, 0.01]"),
+    (["--n-space", "100000"], "--n-space: got 100000; allowed range is [8, 4000]"),
+    (["--n-velocity", "10000"], "--n-velocity: got 10000; allowed range is [4, 128]"),
+    (["--output", "/proc/no/such/p.nc"], "--output: cannot create folder /proc/no/such"),
+])
+def test_solve_options_the_solver_would_refuse_are_refused_first(args, message):
+    r = subprocess.run([*KNUDSWEEP, "solve", "--delta", "1", *args], capture_output=True, text=True, timeout=120)
+    assert r.returncode == 2 and "Traceback" not in r.stderr
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and message in lines[0], r.stderr
+
+
+def test_solve_into_a_closed_pipe_ends_quietly():
+    proc = subprocess.Popen([*KNUDSWEEP, "solve", "--delta", "1"], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    proc.stdout.close()  # the reader is gone before the first line, as with `| head -0`
+    err = proc.stderr.read().decode()
+    assert proc.wait(timeout=120) == 0 and "Traceback" not in err, err

@@ -209,3 +209,17 @@ def test_accuracy_target_excludes_explicit_grid_sizes(tmp_path):
 
     pids = list(StudyPlan(load_study(path)).points)
     assert len(pids) == 1 and "grid=acc1.0e-04" in pids[0]
+
+
+def test_plane_channel_resolution_limits_are_the_solvers():
+    # one source of limits: the schema states the plane-channel solver's own bounds, so a
+    # study the check accepts is never refused by the solver later
+    from knudsweep.config import load_schema
+    from solver.plane_channel.driver import TOL_RANGE
+    from solver.plane_channel.grids import MAX_SPACE, MIN_SPACE
+    from solver.quadrature import MAX_NODES
+
+    res = load_schema()["properties"]["plane_channel"]["properties"]["resolution"]["properties"]
+    assert (res["n_space"]["minimum"], res["n_space"]["maximum"]) == (MIN_SPACE, MAX_SPACE)
+    assert res["n_velocity"]["maximum"] == MAX_NODES
+    assert (res["tol"]["minimum"], res["tol"]["maximum"]) == TOL_RANGE

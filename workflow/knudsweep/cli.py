@@ -18,6 +18,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import os
 import math
 import subprocess
 import sys
@@ -117,14 +118,27 @@ def _delta(args, length_name: str, delta_min: float, delta_max: float) -> float:
     return delta
 
 
+def _resolution_limits(geometry: str) -> dict[str, tuple]:
+    """(low, high) of --n-space, --n-velocity and --tol: the study schema's, which match the solvers'."""
+    from knudsweep.config import load_schema
+
+    section = "plane_channel" if geometry == "plane_channel" else "tube_duct"
+    res = load_schema()["properties"][section]["properties"]["resolution"]["properties"]
+    return {key: (res[key]["minimum"], res[key]["maximum"]) for key in ("n_space", "n_velocity", "tol")}
+
+
 def _check_sizes(args) -> None:
-    for opt, val, low, high in (("--n-space", args.n_space, 4, 100000), ("--n-velocity", args.n_velocity, 4, 10000),
+    limits = _resolution_limits(args.geometry)
+    for opt, val, low, high in (("--n-space", args.n_space, *limits["n_space"]),
+                                ("--n-velocity", args.n_velocity, *limits["n_velocity"]),
                                 ("--max-iter", args.max_iter, 1, 100000000), ("--threads", args.threads, 1, 256)):
         if val is not None and val < low:
-            raise CliError(f"{opt}: got {val}; allowed range is [{low}, inf)")
+            raise CliError(f"{opt}: got {val}; allowed range is [{low}, {high}]")
         if val is not None and val > high:
             raise CliError(f"{opt}: got {val}; allowed range is [{low}, {high}]")
-    _in_range("--tol", args.tol, 0, 0.1)
+    low, high = limits["tol"]
+    if not (math.isfinite(args.tol) and low <= args.tol <= high):
+        raise CliError(f"--tol: got {args.tol:g}; allowed range is [{low:g}, {high:g}]")
 
 
 def _wall_values(args, alpha, alpha_t, alpha_n, suffix) -> dict:
@@ -200,10 +214,25 @@ def _plane_channel_values(args) -> dict:
     }
 
 
+def _check_output(path: Path) -> None:
+    """Refuse an --output that cannot be written before anything is solved."""
+    path = Path(path)
+    if path.is_dir():
+        raise CliError(f"--output: {path} is a directory; give a file name such as {path / 'point.nc'}")
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise CliError(f"--output: cannot create folder {path.parent}: {exc.strerror or exc}") from None
+    if not os.access(path.parent, os.W_OK):
+        raise CliError(f"--output: folder {path.parent} is not writable")
+
+
 def cmd_solve(args) -> int:
     from knudsweep.point_job import configure_numba
 
     family, values = _solve_values(args)
+    if args.output:
+        _check_output(args.output)
     configure_numba(args.threads)
     from knudsweep.point_job import solve_point, solve_values
 
@@ -411,6 +440,13 @@ def main(argv: list[str] | None = None) -> int:
         return args.func(args)
     except ValueError as exc:  # CliError, StudyConfigError, checked solver input errors
         _fail(str(exc).splitlines()[0] if str(exc) else type(exc).__name__)
+    except BrokenPipeError:  # `knudsweep solve ... | head -1`: the reader left; not an error
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        return 0
+    except OSError as exc:  # a point file that could not be written (disk full, I/O error)
+        print(f"knudsweep: {str(exc).splitlines()[0] if str(exc) else type(exc).__name__}", file=sys.stderr)
+        return 1
     return EXIT_USAGE
 
 

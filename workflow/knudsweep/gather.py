@@ -202,6 +202,23 @@ def write_sweep(datasets: dict[str, xr.Dataset], output: str | os.PathLike, attr
     return output
 
 
+def sweep_problem(path: str | os.PathLike, families: list[str]) -> str:
+    """Empty string if the sweep file at ``path`` opens and holds a group per family, else why not."""
+    import netCDF4
+
+    try:
+        with netCDF4.Dataset(str(path), "r") as nc:
+            missing = [f for f in families if f not in nc.groups]
+            if missing:
+                return f"no group for {', '.join(missing)}"
+            for f in families:
+                if "status" not in nc.groups[f].variables:
+                    return f"group {f} has no status variable"
+    except Exception as exc:  # truncated, not HDF5, unreadable
+        return f"unreadable ({type(exc).__name__}: {exc})"
+    return ""
+
+
 def open_sweep(path: str | os.PathLike, family: str) -> xr.Dataset:
     """Load the group of ``family`` from a sweep file (e.g. results/<study>/sweep.nc)."""
     with xr.open_dataset(path, group=family, engine="netcdf4") as ds:

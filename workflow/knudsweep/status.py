@@ -220,6 +220,9 @@ def clean_stray_temporaries(plan, root: str | os.PathLike = ".", min_age_s: floa
     root = Path(root)
     dirs = {(root / plan.point_file(pid)).parent for pid in plan.points}
     dirs.add(root / plan.study_dir)
+    for sub in ("tables", "figures"):  # killed table and figure jobs
+        dirs.add(root / plan.study_dir / sub)
+    dirs |= {(root / plan.batch_file(key)).parent for key in plan.batches}
     removed = []
     for tmp in stray_temporaries(dirs, min_age_s):
         try:
