@@ -622,6 +622,25 @@ def _duct_sizes(n_space, n_velocity, aspect_ratio):
     return n_space, nz, max(n_velocity // 2, 2), n_velocity
 
 
+# Bytes per unknown of the distribution (4 n_angle n_speed n_y n_z) at the peak of
+# a solve: measured 16.4-17.1 (ru_maxrss growth, A = 4 and 10, 97 nodes, 48 and 96
+# speeds); rounded up.
+DUCT_BYTES_PER_UNKNOWN = 20
+
+
+def duct_memory_mb(delta: float, aspect_ratio: float, n_space: int | None = None,
+                   n_velocity: int | None = None, accuracy: float | None = None) -> float:
+    """Estimated peak memory of one duct solve, MB (an accuracy ladder stays under its cap)."""
+    if accuracy is not None:
+        return DUCT_BYTES_PER_UNKNOWN * DUCT_MAX_UNKNOWNS / 1e6
+    ny, nz, na, nc = default_sizes(float(delta), float(aspect_ratio))
+    if n_space is not None:
+        ny, nz = _duct_sizes(int(n_space), nc, float(aspect_ratio))[:2]
+    if n_velocity is not None:
+        na, nc = _duct_sizes(ny, int(n_velocity), float(aspect_ratio))[2:]
+    return DUCT_BYTES_PER_UNKNOWN * 4 * na * nc * ny * nz / 1e6
+
+
 def resolution_ladder(delta: float, aspect_ratio: float) -> list[tuple[int, int]]:
     """(n_space, n_velocity) tried for an accuracy target in the duct, coarse to fine.
 

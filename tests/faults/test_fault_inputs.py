@@ -92,3 +92,37 @@ def test_solve_into_a_closed_pipe_ends_quietly():
     proc.stdout.close()  # the reader is gone before the first line, as with `| head -0`
     err = proc.stderr.read().decode()
     assert proc.wait(timeout=120) == 0 and "Traceback" not in err, err
+
+
+DUCT = """study: mem
+tube_duct:
+  geometries: [{shape: duct, aspect_ratio: 50}]
+  problems: [poiseuille]
+  models: [bgk]
+  gases: [N2]
+  walls: [{model: maxwell, alpha: 1.0}]
+  delta: [1000]
+  resolution: {n_space: 400, n_velocity: 128}
+"""
+
+
+def test_a_point_that_cannot_fit_in_memory_is_refused_with_its_estimate(tmp_path):
+    # used to die in the job with "Unable to allocate 149 GiB"; the estimate is
+    # 20 bytes per unknown of the distribution (solver.duct.DUCT_BYTES_PER_UNKNOWN, measured)
+    message = _message(tmp_path, DUCT)
+    assert message.startswith("tube_duct.resolution: one point needs about ")
+    assert "duct-A=50.0, delta = 1000" in message and "execution.mem_mb_per_point = 1000 MB" in message
+    # the same duct on a grid that fits is accepted
+    ok = tmp_path / "ok.yaml"
+    ok.write_text(DUCT.replace("{n_space: 400, n_velocity: 128}", "{n_space: 25, n_velocity: 12}"))
+    load_study(ok)
+
+
+def test_a_study_too_large_to_plan_is_refused_with_its_point_count(tmp_path):
+    import yaml
+
+    study = yaml.safe_load(TINY)
+    study["plane_channel"]["delta"] = {"start": 0.001, "stop": 1000.0, "num": 100000}
+    study["plane_channel"]["walls"] = [{"model": "maxwell", "alpha": round(1.0 - 0.01 * i, 6)} for i in range(30)]
+    message = _message(tmp_path, yaml.safe_dump(study))
+    assert message.startswith("<top level>: the study has 3,000,000 points; at most 2,000,000")

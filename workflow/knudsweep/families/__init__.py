@@ -37,6 +37,10 @@ section with defaults filled in, ``study`` the whole validated study):
     parameters, with figures measured on this code (``benchmarks/``).  The
     batch planner (:mod:`knudsweep.batches`) fills batches up to a target
     duration with it; it only needs to be right within a factor of ~2.
+``peak_memory_mb(section) -> (MB, point description)`` (optional)
+    The largest memory one point needs, estimated from the grid sizes without
+    expanding the grid; the study check refuses a study whose points do not
+    fit ``execution.mem_mb_per_point``.
 ``warm_up()``
     Compile the numba kernels once on a tiny problem (each batch job calls it,
     under a lock, before its first point).
@@ -105,6 +109,10 @@ class Family:
 
     def point_cost(self, values: dict[str, Any]) -> float:
         return 1.0
+
+    def peak_memory_mb(self, section: dict[str, Any]) -> tuple[float, str]:
+        """Largest estimated memory of one point of ``section`` (MB) and which point; 0 if small."""
+        return 0.0, ""
 
     def warm_up(self) -> None:
         return None

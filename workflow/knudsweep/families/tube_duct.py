@@ -216,6 +216,22 @@ class TubeDuct(Family):
 
         return solve_duct(values["problem"], aspect_ratio=values["aspect_ratio"], **kw)
 
+    def peak_memory_mb(self, section: dict[str, Any]) -> tuple[float, str]:
+        """The duct's distribution dominates (tube points need well under 100 MB)."""
+        from solver.duct import duct_memory_mb
+
+        res = section.get("resolution", {})
+        best = (0.0, "")
+        for label, shape, a in geometry_settings(section):
+            if shape != "duct":
+                continue
+            for d in delta_values(section):
+                mb = duct_memory_mb(d, a, res.get("n_space"), res.get("n_velocity"), res.get("accuracy"))
+                if mb > best[0]:
+                    best = (mb, f"{label}, delta = {d:g}, n_space = {res.get('n_space')}, "
+                                f"n_velocity = {res.get('n_velocity')}")
+        return best
+
     def point_cost(self, values: dict[str, Any]) -> float:
         """Seconds per point, measured on the demo grids (n_velocity 8, solver-default space grid):
         tube 0.08-0.2 s with Maxwell walls, up to 0.8 s with Cercignani-Lampis walls at small
