@@ -126,3 +126,12 @@ def test_a_study_too_large_to_plan_is_refused_with_its_point_count(tmp_path):
     study["plane_channel"]["walls"] = [{"model": "maxwell", "alpha": round(1.0 - 0.01 * i, 6)} for i in range(30)]
     message = _message(tmp_path, yaml.safe_dump(study))
     assert message.startswith("<top level>: the study has 3,000,000 points; at most 2,000,000")
+
+
+@pytest.mark.parametrize("old,new,where", [
+    ("{model: maxwell, alpha: 1.0}", "{model: maxwell, alpha: 1.0e-300}", "plane_channel.walls[0].alpha: got 1e-300"),
+    ("width: 5.0, height: 3.5, dpi: 60", "width: 40.0, height: 40.0, dpi: 1200", "figures."),
+])
+def test_values_the_solver_or_the_plot_cannot_take_are_refused_up_front(tmp_path, old, new, where):
+    assert old in TINY, old
+    assert _message(tmp_path, TINY.replace(old, new, 1)).startswith(where)

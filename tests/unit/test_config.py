@@ -84,7 +84,7 @@ def test_misspelt_key_is_an_error_with_allowed_keys():
 def test_unknown_model_and_accommodation_out_of_range():
     assert error_of(tiny(models=["bkg"])).startswith("plane_channel.models[0]: unknown value 'bkg'")
     msg = error_of(tiny(walls=[{"alpha": 0.0}]))
-    assert msg.startswith("plane_channel.walls[0].alpha: got 0") and "(0, 1]" in msg
+    assert msg.startswith("plane_channel.walls[0].alpha: got 0") and "[0.01, 1]" in msg
 
 
 def test_family_checks_delta_xor_kn_range_order_and_wall_keys():
