@@ -129,11 +129,11 @@ def snakemake(workdir: Path, config: Path, *args: str, profiles=("--profile", "n
     return time.perf_counter() - t0, r.stdout + r.stderr
 
 
-def compile_once(tmp: Path) -> None:
+def compile_once() -> None:
+    from knudsweep.batch_job import ensure_compiled
+
     t0 = time.perf_counter()
     for family in ("plane_channel", "tube_duct", "relaxation"):
-        from knudsweep.batch_job import ensure_compiled
-
         ensure_compiled(family)
     print(f"numba compile of all families into {CACHE}: {time.perf_counter() - t0:.1f} s (not timed below)")
 
@@ -214,7 +214,7 @@ def main() -> None:
     print(machine_description())
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
-        compile_once(tmp)
+        compile_once()
         print(f"\n1.-2. plane-channel studies: direct process pool vs Snakemake, {CORES} cores")
         for n in (int(s) for s in args.sizes.split(",")):
             bench_size(n, tmp)

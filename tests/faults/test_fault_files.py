@@ -14,7 +14,6 @@ import time
 from pathlib import Path
 
 import numpy as np
-import pytest
 
 from knudsweep.cli import main
 from knudsweep.config import validate_study

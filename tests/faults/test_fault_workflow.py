@@ -17,7 +17,6 @@ is not a clock reading is.
 
 from __future__ import annotations
 
-import os
 import random
 import shutil
 import subprocess

@@ -5,7 +5,7 @@ import pytest
 
 from knudsweep.families.relaxation import FAMILY, solver_labels
 from knudsweep.gather import gather_family
-from knudsweep.point_files import read_point_record
+from knudsweep.point_files import valid_records
 from knudsweep.tables import write_tables
 from solver.netcdf_io import write_result
 
@@ -19,17 +19,6 @@ SECTION = {
     "n_particles": [3000],
     "run": {"n_replicas": 3, "t_end": 4.0, "n_output": 9, "seed": 3, "h_bins_per_axis": 4, "n_velocity": 16},
 }
-
-
-
-def records_of(pts, files):
-    """Records of the point files that exist and are valid for their point (what a batch job keeps)."""
-    out = {}
-    for p in pts:
-        record, _ = read_point_record(files[p.pid], p.pid, p.values)
-        if record is not None:
-            out[p.pid] = record
-    return out
 
 
 def test_points_identity_and_labels():
@@ -58,7 +47,7 @@ def test_tiny_sweep_end_to_end(tmp_path, monkeypatch):
         assert res.status == "converged"
         files[p.pid] = str(tmp_path / "results" / "points" / f"{p.pid}.nc")
         write_result(res, files[p.pid], {"point_id": p.pid, "point_values": p.values})
-    ds = gather_family(FAMILY, SECTION, pts, records_of(pts, files))
+    ds = gather_family(FAMILY, SECTION, pts, valid_records(pts, files))
     assert set(ds["status"].values.ravel()) == {"converged"}
     tau = ds["anisotropy_relaxation_time"].values.ravel()
     # Maxwell molecules: 2 tau_c (BGK exactly; DSMC with 3 x 3000 particles within 15 %)

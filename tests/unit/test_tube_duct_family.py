@@ -13,7 +13,7 @@ import pytest
 
 from knudsweep.families.tube_duct import FAMILY, delta_values, geometry_settings
 from knudsweep.gather import gather_family
-from knudsweep.point_files import read_point_record
+from knudsweep.point_files import valid_records
 from knudsweep.tables import write_tables
 from solver.netcdf_io import write_result
 
@@ -31,17 +31,6 @@ SECTION = {
     "resolution": {"n_space": 9, "n_velocity": 6, "tol": 1.0e-6},
     "iteration": {"max_iter": None, "accelerate": True, "retry_max_iter_factor": 4},
 }
-
-
-
-def records_of(pts, files):
-    """Records of the point files that exist and are valid for their point (what a batch job keeps)."""
-    out = {}
-    for p in pts:
-        record, _ = read_point_record(files[p.pid], p.pid, p.values)
-        if record is not None:
-            out[p.pid] = record
-    return out
 
 
 def test_points_identity_and_dims():
@@ -90,7 +79,7 @@ def gathered(tmp_path_factory):
         res = FAMILY.solve(p.values, max_iter=None, section=SECTION)
         files[p.pid] = str(root / "points" / f"{p.pid}.nc")
         write_result(res, files[p.pid], {"point_id": p.pid, "point_values": p.values})
-    return gather_family(FAMILY, SECTION, pts, records_of(pts, files)), root
+    return gather_family(FAMILY, SECTION, pts, valid_records(pts, files)), root
 
 
 def test_gathered_values_and_solve(gathered):
@@ -161,7 +150,7 @@ def test_missing_points_give_no_data_figures(tmp_path):
 
     pts = FAMILY.points(SECTION)
     files = {p.pid: str(tmp_path / f"{i}.nc") for i, p in enumerate(pts)}  # none exist
-    ds = gather_family(FAMILY, SECTION, pts, records_of(pts, files))
+    ds = gather_family(FAMILY, SECTION, pts, valid_records(pts, files))
     assert set(ds["status"].values.ravel()) == {"missing"}
     tables = FAMILY.tables(ds, SECTION)
     assert tables["tube_duct_conductance"].frame["G_P [1]"].isna().all()

@@ -23,8 +23,6 @@ def setup_logging(log_path: str | None, console: bool = True, mode: str = "w") -
     file is added with ``KNUDSWEEP_LOG_LEVEL=DEBUG`` (each point file keeps
     its own tries, iterations and times in its attributes anyway).
     """
-    import os
-
     logger = logging.getLogger("knudsweep")
     level = os.environ.get("KNUDSWEEP_LOG_LEVEL", "INFO").upper()
     logger.setLevel(level if level in ("DEBUG", "INFO", "WARNING", "ERROR") else "INFO")
@@ -42,8 +40,6 @@ def setup_logging(log_path: str | None, console: bool = True, mode: str = "w") -
 def run_batch_job(key: str, points: dict[str, dict[str, Any]], output: str, study: dict[str, Any],
                   threads: int = 1, attempt: int = 1, max_attempt: int = 1, log: str | None = None) -> None:
     """Rule ``solve_batch``: see :mod:`knudsweep.batch_job`; bad news is one line and exit code 1."""
-    import sys
-
     from knudsweep.batch_job import BatchIncomplete, run_batch
     from knudsweep.point_job import PointWriteError
 
@@ -161,7 +157,6 @@ def _apply_injected_hold(pid: str, logger: logging.Logger) -> None:
 
 def run_gather(study: dict[str, Any], output: str, workers: int = 1, log: str | None = None):
     """Gather the batch files of ``study`` into ``output`` (sweep.nc); an unreadable batch file is one line, exit 1."""
-    import sys
 
     setup_logging(log, console=False)
     from knudsweep.config import validate_study

@@ -97,6 +97,16 @@ def read_point_record(path: str | os.PathLike, pid: str, values: dict[str, Any]
     return record, ""
 
 
+def valid_records(points, paths: dict[str, str | os.PathLike]) -> dict[str, dict[str, Any]]:
+    """Records of the ``points`` (:class:`knudsweep.families.Point`) whose file in ``paths`` is valid."""
+    out = {}
+    for p in points:
+        record, _ = read_point_record(paths[p.pid], p.pid, p.values)
+        if record is not None:
+            out[p.pid] = record
+    return out
+
+
 def move_aside(path: str | os.PathLike) -> str:
     """Rename an invalid point file to ``<path>.corrupt`` (replacing an older one); returns the new path."""
     aside = f"{path}.corrupt"
