@@ -135,3 +135,30 @@ def test_a_study_too_large_to_plan_is_refused_with_its_point_count(tmp_path):
 def test_values_the_solver_or_the_plot_cannot_take_are_refused_up_front(tmp_path, old, new, where):
     assert old in TINY, old
     assert _message(tmp_path, TINY.replace(old, new, 1)).startswith(where)
+
+
+@pytest.mark.parametrize("ratios", ["[1.0e+308, 1.0e+308, 1.0e+308]", "[1.0e-9, 1.0, 1.0]", "[1000, 1, 1]"])
+def test_axis_temperature_ratios_out_of_range_are_refused(tmp_path, ratios):
+    # 1e308 used to overflow the mean (rescaling to mean 1) and fail inside the solver
+    text = TINY + ("relaxation:\n  gases: [Ar]\n  pressures: [100.0]\n  temperatures: [300.0]\n"
+                   "  initial_states: [anisotropic]\n  molecular_models: [maxwell]\n  methods: [bgk]\n"
+                   f"  state_options: {{axis_temperature_ratios: {ratios}}}\n")
+    message = _message(tmp_path, text)
+    assert "axis_temperature_ratios" in message and ("0.01" in message or "100" in message), message
+
+
+def test_axis_ratio_check_in_the_solver_names_the_field():
+    from solver.relaxation.initial_states import make_initial_state
+
+    with pytest.raises(ValueError, match="axis_temperature_ratios: need three finite numbers > 0 whose largest"):
+        make_initial_state("anisotropic", (1e308, 1e308, 1e308), 2.0, 0.5, 6.0)
+    with pytest.raises(ValueError, match="axis_temperature_ratios"):
+        make_initial_state("anisotropic", (1e5, 1.0, 1.0), 2.0, 0.5, 6.0)
+
+
+@pytest.mark.parametrize("written,spelling", [("1e-3", "1.0e-3"), ("1.0e308", "1.0e+308"), ("2.5E4", "2.5e+4")])
+def test_a_number_yaml_reads_as_text_gets_its_spelling(tmp_path, written, spelling):
+    # YAML 1.1 (PyYAML, and so Snakemake) needs a dot and a signed exponent; 1e-3 is the string '1e-3'
+    text = TINY.replace("tol: 1.0e-6", f"tol: {written}", 1)
+    message = _message(tmp_path, text)
+    assert message.endswith(f"(YAML reads {written} as text; write {spelling})"), message

@@ -141,19 +141,42 @@ def _check_sizes(args) -> None:
         raise CliError(f"--tol: got {args.tol:g}; allowed range is [{low:g}, {high:g}]")
 
 
+def _wall_limits() -> dict[str, tuple[float, float, bool]]:
+    """(low, high, high_open) of alpha, alpha_t, alpha_n: the study schema's (low is inclusive)."""
+    from knudsweep.config import load_schema
+
+    props = load_schema()["$defs"]["wall"]["properties"]
+    out = {}
+    for key in ("alpha", "alpha_t", "alpha_n"):
+        spec = props[key]
+        high_open = "exclusiveMaximum" in spec
+        out[key] = (spec["minimum"], spec["exclusiveMaximum"] if high_open else spec["maximum"], high_open)
+    return out
+
+
+def _accommodation(option: str, value: float, limits: tuple[float, float, bool]) -> float:
+    low, high, high_open = limits
+    ok = math.isfinite(value) and low <= value and (value < high if high_open else value <= high)
+    if not ok:
+        raise CliError(f"{option}: got {value:g}; allowed range is [{low:g}, {high:g}{')' if high_open else ']'}")
+    return value
+
+
 def _wall_values(args, alpha, alpha_t, alpha_n, suffix) -> dict:
     from knudsweep.identity import canonical
 
+    limits = _wall_limits()
     if args.wall_model == "maxwell":
         if alpha_t is not None or alpha_n is not None:
             raise CliError(f"--alpha-t{suffix}: only for --wall-model cercignani_lampis")
-        return {"model": "maxwell", "alpha": canonical(_in_range(f"--alpha{suffix}", 1.0 if alpha is None else alpha, 0, 1))}
+        return {"model": "maxwell",
+                "alpha": canonical(_accommodation(f"--alpha{suffix}", 1.0 if alpha is None else alpha, limits["alpha"]))}
     if alpha is not None:
         raise CliError(f"--alpha{suffix}: only for --wall-model maxwell; use --alpha-t/--alpha-n")
     return {
         "model": "cercignani_lampis",
-        "alpha_t": canonical(_in_range(f"--alpha-t{suffix}", 1.0 if alpha_t is None else alpha_t, 0, 2, high_open=True)),
-        "alpha_n": canonical(_in_range(f"--alpha-n{suffix}", 1.0 if alpha_n is None else alpha_n, 0, 1)),
+        "alpha_t": canonical(_accommodation(f"--alpha-t{suffix}", 1.0 if alpha_t is None else alpha_t, limits["alpha_t"])),
+        "alpha_n": canonical(_accommodation(f"--alpha-n{suffix}", 1.0 if alpha_n is None else alpha_n, limits["alpha_n"])),
     }
 
 
@@ -371,12 +394,12 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--length", type=float, help="plate gap, tube radius or duct height in m (with --pressure)")
     s.add_argument("--temperature", type=float, default=300.0, help="temperature in K (with --pressure), default 300")
     s.add_argument("--wall-model", default="maxwell", choices=["maxwell", "cercignani_lampis"])
-    s.add_argument("--alpha", type=float, help="Maxwell accommodation in (0, 1], default 1")
-    s.add_argument("--alpha-upper", type=float, help="Maxwell accommodation of the upper plate, (0, 1]")
-    s.add_argument("--alpha-t", type=float, help="Cercignani-Lampis tangential accommodation in (0, 2)")
-    s.add_argument("--alpha-n", type=float, help="Cercignani-Lampis normal-energy accommodation in (0, 1]")
-    s.add_argument("--alpha-t-upper", type=float, help="upper plate alpha_t, (0, 2)")
-    s.add_argument("--alpha-n-upper", type=float, help="upper plate alpha_n, (0, 1]")
+    s.add_argument("--alpha", type=float, help="Maxwell accommodation in [0.01, 1], default 1")
+    s.add_argument("--alpha-upper", type=float, help="Maxwell accommodation of the upper plate, [0.01, 1]")
+    s.add_argument("--alpha-t", type=float, help="Cercignani-Lampis tangential accommodation in [0.01, 2)")
+    s.add_argument("--alpha-n", type=float, help="Cercignani-Lampis normal-energy accommodation in [0.01, 1]")
+    s.add_argument("--alpha-t-upper", type=float, help="upper plate alpha_t, [0.01, 2)")
+    s.add_argument("--alpha-n-upper", type=float, help="upper plate alpha_n, [0.01, 1]")
     s.add_argument("--n-space", type=int, help="cells across the gap / radial or half-height nodes (default: solver's)")
     s.add_argument("--n-velocity", type=int, help="velocity nodes (default: solver's)")
     s.add_argument("--max-iter", type=int, help="iteration limit (default: solver's)")

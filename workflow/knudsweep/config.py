@@ -32,7 +32,17 @@ _PRESENTATION_SECTIONS = ("figures", "execution", "description")
 
 
 # YAML 1.1 (PyYAML, Snakemake) reads 1e-6 as a string: a float needs a dot (1.0e-6).
-_EXPONENT_WITHOUT_DOT = re.compile(r"^[-+]?[0-9]+[eE][-+]?[0-9]+$")
+# Numbers YAML 1.1 (PyYAML, Snakemake) reads as text: 1e-3 (no dot) and 1.0e308 (no exponent sign)
+_YAML11_TEXT_NUMBER = re.compile(r"^([-+]?)([0-9]*)(?:\.([0-9]*))?[eE]([-+]?)([0-9]+)$")
+
+
+def _yaml_number_spelling(text: str) -> str | None:
+    """The YAML 1.1 spelling of a number that YAML read as text (``1e-3`` -> ``1.0e-3``), else None."""
+    m = _YAML11_TEXT_NUMBER.match(text)
+    if m is None or not (m.group(2) or m.group(3)):
+        return None
+    sign, whole, frac, esign, exp = m.groups()
+    return f"{sign}{whole or '0'}.{frac or '0'}e{esign or '+'}{exp}"
 
 
 class StudyConfigError(ValueError):
@@ -195,9 +205,9 @@ def _error_message(error: jsonschema.ValidationError) -> str:
         return f"{key_path(path)}: got {error.instance!r}; {_allowed(error.schema)}"
     if kind == "type":
         hint = ""
-        if isinstance(error.instance, str) and _EXPONENT_WITHOUT_DOT.match(error.instance):
-            hint = (f" (YAML reads {error.instance} as text; write it with a dot, "
-                    f"e.g. {error.instance.replace('e', '.0e', 1).replace('E', '.0E', 1)})")
+        spelling = _yaml_number_spelling(error.instance) if isinstance(error.instance, str) else None
+        if spelling is not None:
+            hint = f" (YAML reads {error.instance} as text; write {spelling})"
         wanted = error.validator_value if isinstance(error.validator_value, list) else [error.validator_value]
         if isinstance(error.instance, float) and "integer" in wanted and error.instance.is_integer():
             return (f"{key_path(path)}: got {error.instance!r}; expected a whole number "
