@@ -67,7 +67,7 @@ def make_initial_state(
         ratios = np.asarray(axis_temperature_ratios, dtype=float)
         # the ratio test keeps the mean finite (1e308 would overflow it) and no axis frozen
         if (ratios.shape != (3,) or not np.all(np.isfinite(ratios)) or np.any(ratios <= 0.0)
-                or ratios.max() > 1.0e4 * ratios.min() or ratios.max() > 1.0e300):
+                or ratios.max() > 1.0e300 or ratios.max() > 1.0e4 * ratios.min()):
             raise ValueError(
                 "axis_temperature_ratios: need three finite numbers > 0 whose largest is at most 1e4 times the smallest, "
                 f"got {axis_temperature_ratios!r}"

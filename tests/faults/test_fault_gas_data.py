@@ -63,5 +63,7 @@ def test_an_edited_gas_table_recomputes_the_dependent_points_and_rebuilds_the_ta
     # the relaxation point is solved again; the plane-channel batch does not run at all
     assert "plane_channel" not in lines, lines
     assert lines["relaxation"]["solved"] == 1 and lines["relaxation"]["reused"] == 0, lines
+    # the old file was sound, only outdated: replaced by the new one, not kept as corrupt
+    assert not list((workdir / "results" / "points").rglob("*.corrupt"))
     counts = job_counts(out)
     assert counts.get("tables") == 1 and counts.get("gather") == 1, counts

@@ -44,43 +44,48 @@ def write_batch_file(records: list[dict[str, Any]], path: str | os.PathLike, att
     """Write the records (each with a ``source`` key) atomically to ``path``."""
     import netCDF4
 
+    from knudsweep.preflight import ProductWriteError, write_failure_line
+
     n = len(records)
     n_it = max([len(r["residual"]) for r in records] + [1])
     names: dict[str, dict] = {}
     for r in records:
         for name, (_, a) in r["coefficients"].items():
             names.setdefault(name, a)
-    with atomic_output(path) as tmp:
-        with netCDF4.Dataset(str(tmp), "w", format="NETCDF4") as nc:
-            nc.createDimension("point", n)
-            nc.createDimension("iteration", n_it)
-            for key in _STRINGS:
-                v = nc.createVariable(key, str, ("point",))
-                v.long_name = _LONG_NAMES[key]
-                v[:] = np.array([str(r["pid"] if key == "point_id" else r.get(key, "")) for r in records],
-                                dtype=object)
-            v = nc.createVariable("iterations", "i4", ("point",))
-            v.setncatts({"units": "1", "long_name": "iterations used"})
-            v[:] = np.array([r["iterations"] for r in records], dtype=np.int32)
-            v = nc.createVariable("wall_time", "f8", ("point",))
-            v.setncatts({"units": "s", "long_name": "solver wall-clock time"})
-            v[:] = np.array([r["wall_time"] for r in records], dtype=float)
-            res = np.full((n, n_it), np.nan)
-            for i, r in enumerate(records):
-                res[i, : len(r["residual"])] = r["residual"]
-            v = nc.createVariable("residual", "f8", ("point", "iteration"), zlib=True, complevel=4)
-            v.setncatts({"units": "1", "long_name": "relative change of the iterate per iteration"})
-            v[:] = res
-            for name, a in sorted(names.items()):
-                vals = np.array([r["coefficients"].get(name, (np.nan, None))[0] for r in records], dtype=float)
-                v = nc.createVariable(name, "f8", ("point",), fill_value=np.nan)
-                v.setncatts(a)
-                v[:] = vals
-            gattrs = {"Conventions": CF_VERSION, **{k: (str(x) if not isinstance(x, (int, float)) else x)
-                                                     for k, x in attrs.items()}}
-            nc.set_auto_mask(False)
-            gattrs[CHECKSUM_ATTR] = content_digest({k: v[...] for k, v in nc.variables.items()}, gattrs)
-            nc.setncatts(gattrs)
+    try:
+        with atomic_output(path) as tmp:
+            with netCDF4.Dataset(str(tmp), "w", format="NETCDF4") as nc:
+                nc.createDimension("point", n)
+                nc.createDimension("iteration", n_it)
+                for key in _STRINGS:
+                    v = nc.createVariable(key, str, ("point",))
+                    v.long_name = _LONG_NAMES[key]
+                    v[:] = np.array([str(r["pid"] if key == "point_id" else r.get(key, "")) for r in records],
+                                    dtype=object)
+                v = nc.createVariable("iterations", "i4", ("point",))
+                v.setncatts({"units": "1", "long_name": "iterations used"})
+                v[:] = np.array([r["iterations"] for r in records], dtype=np.int32)
+                v = nc.createVariable("wall_time", "f8", ("point",))
+                v.setncatts({"units": "s", "long_name": "solver wall-clock time"})
+                v[:] = np.array([r["wall_time"] for r in records], dtype=float)
+                res = np.full((n, n_it), np.nan)
+                for i, r in enumerate(records):
+                    res[i, : len(r["residual"])] = r["residual"]
+                v = nc.createVariable("residual", "f8", ("point", "iteration"), zlib=True, complevel=4)
+                v.setncatts({"units": "1", "long_name": "relative change of the iterate per iteration"})
+                v[:] = res
+                for name, a in sorted(names.items()):
+                    vals = np.array([r["coefficients"].get(name, (np.nan, None))[0] for r in records], dtype=float)
+                    v = nc.createVariable(name, "f8", ("point",), fill_value=np.nan)
+                    v.setncatts(a)
+                    v[:] = vals
+                gattrs = {"Conventions": CF_VERSION, **{k: (str(x) if not isinstance(x, (int, float)) else x)
+                                                         for k, x in attrs.items()}}
+                nc.set_auto_mask(False)
+                gattrs[CHECKSUM_ATTR] = content_digest({k: v[...] for k, v in nc.variables.items()}, gattrs)
+                nc.setncatts(gattrs)
+    except Exception as exc:  # netCDF4 raises RuntimeError ("NetCDF: HDF error") or OSError
+        raise ProductWriteError(write_failure_line(path, exc)) from exc
 
 
 def read_batch_file(path: str | os.PathLike) -> tuple[list[dict[str, Any]], dict[str, Any]]:

@@ -191,10 +191,11 @@ def verify_points(points: dict[str, dict[str, Any]], *, attempt: int = 1, root: 
                   ) -> tuple[dict[str, dict[str, Any]], list[str]]:
     """Records of the points with a valid file (``source`` "reused") and the ids of those to solve.
 
-    Invalid files are moved aside (``<file>.corrupt``) with one log line; on
-    ``attempt`` >= 2 points recorded as failed are solved again.
+    Corrupt files are moved aside (``<file>.corrupt``) with one warning; outdated
+    ones stay until the new file replaces them (one info line); on ``attempt``
+    >= 2 points recorded as failed are solved again.
     """
-    from knudsweep.point_files import move_aside, read_point_record
+    from knudsweep.point_files import OUTDATED, move_aside, read_point_record
 
     records: dict[str, dict[str, Any]] = {}
     todo: list[str] = []
@@ -204,7 +205,9 @@ def verify_points(points: dict[str, dict[str, Any]], *, attempt: int = 1, root: 
         if record is not None and not (record["status"] == "failed" and attempt > 1):
             records[pid] = {**record, "source": "reused"}
             continue
-        if record is None and why != "missing":
+        if record is None and why.startswith(OUTDATED):
+            log.info("point file %s is %s; solving the point again", path, why)
+        elif record is None and why != "missing":
             try:
                 aside = move_aside(path)
                 log.warning("invalid point file %s (%s); moved to %s; solving the point again", path, why, aside)

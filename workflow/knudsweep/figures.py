@@ -43,6 +43,8 @@ def new_figure(settings: dict):
 
 def save_figure(fig, stem: str | os.PathLike, formats: list[str], dpi: int) -> list[Path]:
     """Write ``<stem>.<fmt>`` for each format (atomically) and close the figure."""
+    from knudsweep.preflight import ProductWriteError, write_failure_line
+
     stem = Path(stem)
     stem.parent.mkdir(parents=True, exist_ok=True)
     written = []
@@ -51,8 +53,12 @@ def save_figure(fig, stem: str | os.PathLike, formats: list[str], dpi: int) -> l
             for fmt in formats:
                 path = stem.with_name(f"{stem.name}.{fmt}")
                 tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-                fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_METADATA[fmt])
-                os.replace(tmp, path)
+                try:
+                    fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_METADATA[fmt])
+                    os.replace(tmp, path)
+                except OSError as exc:
+                    tmp.unlink(missing_ok=True)
+                    raise ProductWriteError(write_failure_line(path, exc)) from exc
                 written.append(path)
     finally:
         plt.close(fig)

@@ -190,15 +190,23 @@ def gather_study(plan, output: str | os.PathLike, workers: int = 1, root: str = 
 
 
 def write_sweep(datasets: dict[str, xr.Dataset], output: str | os.PathLike, attrs: dict[str, Any]) -> Path:
-    """Write the root attributes and one group per family, atomically."""
+    """Write the root attributes and one group per family, atomically.
+
+    A failed write (full disk: HDF5 says only "NetCDF: HDF error") raises
+    :class:`knudsweep.preflight.ProductWriteError` with the file and the free space.
+    """
+    from knudsweep.preflight import ProductWriteError, write_failure_line
     from solver.netcdf_io import atomic_output
 
     output = Path(output)
-    with atomic_output(output) as tmp:
-        xr.Dataset(attrs=attrs).to_netcdf(tmp, mode="w", format="NETCDF4", engine="netcdf4")
-        for name, ds in datasets.items():
-            enc = {v: {"zlib": True, "complevel": 4} for v in ds.data_vars if ds[v].dtype.kind == "f"}
-            ds.to_netcdf(tmp, mode="a", group=name, format="NETCDF4", engine="netcdf4", encoding=enc)
+    try:
+        with atomic_output(output) as tmp:
+            xr.Dataset(attrs=attrs).to_netcdf(tmp, mode="w", format="NETCDF4", engine="netcdf4")
+            for name, ds in datasets.items():
+                enc = {v: {"zlib": True, "complevel": 4} for v in ds.data_vars if ds[v].dtype.kind == "f"}
+                ds.to_netcdf(tmp, mode="a", group=name, format="NETCDF4", engine="netcdf4", encoding=enc)
+    except Exception as exc:  # netCDF4 raises RuntimeError or OSError, xarray ValueError
+        raise ProductWriteError(write_failure_line(output, exc)) from exc
     return output
 
 

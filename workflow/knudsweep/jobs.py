@@ -163,10 +163,12 @@ def run_gather(study: dict[str, Any], output: str, workers: int = 1, log: str | 
     from knudsweep.gather import BatchFileError, gather_study
     from knudsweep.plan import StudyPlan
 
+    from knudsweep.preflight import ProductWriteError
+
     plan = StudyPlan(validate_study(study))
     try:
         return gather_study(plan, output, workers=workers)
-    except BatchFileError as exc:
+    except (BatchFileError, ProductWriteError) as exc:
         print(f"knudsweep: gather: {exc}", file=sys.stderr)
         sys.exit(1)
 
@@ -180,9 +182,15 @@ def run_tables(study: dict[str, Any], sweep: str, outdir: str, log: str | None =
     from knudsweep.plan import StudyPlan
     from knudsweep.tables import write_tables
 
+    from knudsweep.preflight import ProductWriteError
+
     plan = StudyPlan(validate_study(study))
-    for fam in plan.families:
-        write_tables(get_family(fam).tables(open_sweep(sweep, fam), plan.study[fam]), outdir)
+    try:
+        for fam in plan.families:
+            write_tables(get_family(fam).tables(open_sweep(sweep, fam), plan.study[fam]), outdir)
+    except ProductWriteError as exc:
+        print(f"knudsweep: tables: {exc}", file=sys.stderr)
+        sys.exit(1)
 
 
 def _draw_family(args) -> None:
@@ -206,16 +214,22 @@ def run_figures(study: dict[str, Any], sweep: str, outdir: str, log: str | None 
     from knudsweep.config import validate_study
     from knudsweep.plan import StudyPlan
 
+    from knudsweep.preflight import ProductWriteError
+
     plan = StudyPlan(validate_study(study))
     tasks = [(plan.study, fam, sweep, outdir) for fam in plan.families]
     workers = max(1, min(int(threads), len(tasks)))
-    if workers == 1 or sys.platform != "linux":
-        for t in tasks:
-            _draw_family(t)
-        return
-    import multiprocessing
-    from concurrent.futures import ProcessPoolExecutor
+    try:
+        if workers == 1 or sys.platform != "linux":
+            for t in tasks:
+                _draw_family(t)
+            return
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
 
-    # fork: this process has drawn nothing yet (matplotlib's Agg backend, no threads)
-    with ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork")) as pool:
-        list(pool.map(_draw_family, tasks))
+        # fork: this process has drawn nothing yet (matplotlib's Agg backend, no threads)
+        with ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork")) as pool:
+            list(pool.map(_draw_family, tasks))
+    except ProductWriteError as exc:
+        print(f"knudsweep: figures: {exc}", file=sys.stderr)
+        sys.exit(1)

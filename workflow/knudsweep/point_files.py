@@ -8,9 +8,15 @@ A *record* is what the batch file and the gathered sweep keep of a point::
 A point file is *valid* for point ``pid`` with canonical ``values`` when it
 opens, has a ``status``, its ``point_id`` attribute is ``pid``, its
 ``point_values`` attribute equals ``values`` and its ``code_version`` is this
-solver's version.  Anything else (unreadable, another point's file copied over
-it, an older version) is invalid: the batch job moves it aside and solves the
-point again.
+solver's version.  Anything else is invalid, in one of two kinds:
+
+- *outdated*: a sound file of this point from an earlier state of its inputs
+  (another solver version, or values that changed, e.g. after an edit of the
+  gas data).  The reason starts with ``OUTDATED``; the batch job solves the
+  point again and the new file replaces the old one.
+- *corrupt*: unreadable, a checksum mismatch, not a point file, or another
+  point's file copied over it.  The batch job moves it aside
+  (``<file>.corrupt``) and solves the point again.
 """
 
 from __future__ import annotations
@@ -25,6 +31,7 @@ from solver import __version__
 from solver.netcdf_io import verify_digest
 
 _NOT_COEFFICIENTS = {"iterations", "wall_time"}
+OUTDATED = "outdated: "  # prefix of the reason of a sound file from earlier inputs
 
 
 def canonical_json(values: dict[str, Any]) -> Any:
@@ -70,10 +77,10 @@ def read_point_record(path: str | os.PathLike, pid: str, values: dict[str, Any]
             except ValueError:
                 stored = None
             if stored != canonical_json(values):
-                return None, "its point_values differ from the point's values"
+                return None, OUTDATED + "its point_values differ from the point's values (inputs edited)"
             version = str(attrs.get("code_version", ""))
             if version != __version__:
-                return None, f"computed by solver version {version or '?'}, this is {__version__}"
+                return None, OUTDATED + f"computed by solver version {version or '?'}, this is {__version__}"
             broken = verify_digest(nc)
             if broken:
                 return None, broken

@@ -146,13 +146,8 @@ def write_failure_message(output: str | os.PathLike, exc: BaseException) -> str:
     HDF5 reports a full disk only as "NetCDF: HDF error", so the free space of
     the target folder is added to make the cause visible.
     """
-    import shutil
+    from knudsweep.preflight import free_space_note
 
-    folder = Path(output).parent
-    try:
-        free = f"{shutil.disk_usage(folder).free} bytes free in {folder}"
-    except OSError:
-        free = f"free space of {folder} unknown"
-    return (f"could not write point file {output}: {type(exc).__name__}: {exc} ({free}); "
+    return (f"could not write point file {output}: {type(exc).__name__}: {exc} ({free_space_note(output)}); "
             "no file was written under that name; the point is recorded as crashed and "
             "`knudsweep status <study> --requeue-failed` queues it for the next run")

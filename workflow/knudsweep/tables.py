@@ -36,18 +36,27 @@ def to_markdown(table: Table) -> str:
 
 def _atomic_text(path: Path, text: str) -> None:
     tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    tmp.write_text(text, encoding="utf-8")
-    os.replace(tmp, path)
+    try:
+        tmp.write_text(text, encoding="utf-8")
+        os.replace(tmp, path)
+    except OSError:
+        tmp.unlink(missing_ok=True)
+        raise
 
 
 def write_tables(tables: dict[str, Table], outdir: str | os.PathLike) -> list[Path]:
     """Write ``<outdir>/<name>.csv`` and ``<outdir>/<name>.md`` for every table."""
     outdir = Path(outdir)
     outdir.mkdir(parents=True, exist_ok=True)
+    from knudsweep.preflight import ProductWriteError, write_failure_line
+
     written = []
     for name, table in tables.items():
         csv = table.frame.to_csv(index=False, float_format="%.6g", lineterminator="\n")
-        _atomic_text(outdir / f"{name}.csv", csv)
-        _atomic_text(outdir / f"{name}.md", to_markdown(table))
-        written += [outdir / f"{name}.csv", outdir / f"{name}.md"]
+        for path, text in ((outdir / f"{name}.csv", csv), (outdir / f"{name}.md", to_markdown(table))):
+            try:
+                _atomic_text(path, text)
+            except OSError as exc:
+                raise ProductWriteError(write_failure_line(path, exc)) from exc
+            written.append(path)
     return written

@@ -27,24 +27,17 @@ PLAN = StudyPlan(STUDY, cluster=workflow.non_local_exec or workflow.remote_exec)
 EXEC = STUDY["execution"]
 
 
-def _check_products():
-    """Before planning: an invalid sweep file is moved aside (so it is rebuilt, not read by
-    tables and figures), and temporaries of killed writers are removed."""
-    import os
+if workflow.is_main_process:
+    # Only the process the user started: jobs parse this file again and must not
+    # move files or clean temporaries under a running workflow.
+    from knudsweep.preflight import check_before_run
 
-    from knudsweep.gather import sweep_problem
-    from knudsweep.status import clean_stray_temporaries
+    _problem, _notes = check_before_run(PLAN, log_dir=f"logs/{PLAN.name}")
+    if _problem:
+        sys.exit(f"knudsweep: {_problem}")
+    for _note in _notes:
+        print(f"knudsweep: {_note}", file=sys.stderr)
 
-    if os.path.exists(PLAN.sweep_file):
-        why = sweep_problem(PLAN.sweep_file, PLAN.families)
-        if why:
-            os.replace(PLAN.sweep_file, PLAN.sweep_file + ".corrupt")
-            print(f"knudsweep: {PLAN.sweep_file} is invalid ({why}); moved to {PLAN.sweep_file}.corrupt "
-                  "and built again", file=sys.stderr)
-    clean_stray_temporaries(PLAN, ".")
-
-
-_check_products()
 # A batch job whose points crashed fails while it has attempts left, so that
 # Snakemake runs it again (solving only those points); no flag needed.
 BATCH_RETRIES = 1
