@@ -128,3 +128,16 @@ def wait_for(predicate, timeout: float, proc: subprocess.Popen | None = None, st
             return predicate()
         time.sleep(step)
     return False
+
+
+TINY = DATA / "tiny_study.yaml"
+
+
+def finished_tiny(tmp_path_factory, name: str):
+    """(working folder, plan) of the tiny study run to the end once, for a module's tests to copy."""
+    from knudsweep.config import load_study
+    from knudsweep.plan import StudyPlan
+
+    workdir = tmp_path_factory.mktemp(name) / "w"
+    smk(workdir, TINY)
+    return workdir, StudyPlan(load_study(TINY))

@@ -69,6 +69,18 @@ def test_an_edited_status_is_detected(point):
     assert again is None and "checksum mismatch" in why
 
 
+def test_edited_point_values_are_corrupt_not_outdated(point):
+    # an outdated file (inputs edited since) is replaced quietly; a hand edit must still be
+    # caught as corrupt, so the checksum is verified before the values are compared
+    from knudsweep.point_files import OUTDATED
+
+    p, path, _ = point
+    with netCDF4.Dataset(str(path), "a") as nc:
+        nc.setncattr("point_values", nc.getncattr("point_values").replace("}", ', "edited": 1}', 1))
+    again, why = read_point_record(path, p.pid, p.values)
+    assert again is None and "checksum mismatch" in why and not why.startswith(OUTDATED)
+
+
 def test_a_flipped_bit_in_a_batch_file_is_detected(point, tmp_path):
     p, _, record = point
     path = tmp_path / "batch.nc"

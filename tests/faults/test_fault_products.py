@@ -9,18 +9,13 @@ import time
 
 import pytest
 
-from knudsweep.config import load_study
-from knudsweep.plan import StudyPlan
-from fault_helpers import DATA, batch_lines, job_counts, smk
+from fault_helpers import TINY, batch_lines, finished_tiny, job_counts, smk
 
-TINY = DATA / "tiny_study.yaml"
 
 
 @pytest.fixture(scope="module")
 def finished(tmp_path_factory):
-    workdir = tmp_path_factory.mktemp("products") / "w"
-    smk(workdir, TINY)
-    return workdir, StudyPlan(load_study(TINY))
+    return finished_tiny(tmp_path_factory, "products")
 
 
 def _copy(finished, tmp_path):

@@ -11,18 +11,13 @@ import sys
 
 import pytest
 
-from knudsweep.config import load_study
-from knudsweep.plan import StudyPlan
-from fault_helpers import DATA, REPO, job_counts, smk
+from fault_helpers import REPO, TINY, finished_tiny, job_counts, smk
 
-TINY = DATA / "tiny_study.yaml"
 
 
 @pytest.fixture(scope="module")
 def finished(tmp_path_factory):
-    workdir = tmp_path_factory.mktemp("writes") / "w"
-    smk(workdir, TINY)
-    return workdir, StudyPlan(load_study(TINY))
+    return finished_tiny(tmp_path_factory, "writes")
 
 
 def _one_knudsweep_line(text: str) -> str:

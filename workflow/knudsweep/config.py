@@ -31,7 +31,6 @@ SCHEMA_FILE = Path(__file__).resolve().parents[2] / "config" / "schema.yaml"
 _PRESENTATION_SECTIONS = ("figures", "execution", "description")
 
 
-# YAML 1.1 (PyYAML, Snakemake) reads 1e-6 as a string: a float needs a dot (1.0e-6).
 # Numbers YAML 1.1 (PyYAML, Snakemake) reads as text: 1e-3 (no dot) and 1.0e308 (no exponent sign)
 _YAML11_TEXT_NUMBER = re.compile(r"^([-+]?)([0-9]*)(?:\.([0-9]*))?[eE]([-+]?)([0-9]+)$")
 

@@ -162,15 +162,11 @@ def run_gather(study: dict[str, Any], output: str, workers: int = 1, log: str | 
     from knudsweep.config import validate_study
     from knudsweep.gather import BatchFileError, gather_study
     from knudsweep.plan import StudyPlan
-
-    from knudsweep.preflight import ProductWriteError
+    from knudsweep.preflight import one_line_exit
 
     plan = StudyPlan(validate_study(study))
-    try:
+    with one_line_exit("gather", BatchFileError):
         return gather_study(plan, output, workers=workers)
-    except (BatchFileError, ProductWriteError) as exc:
-        print(f"knudsweep: gather: {exc}", file=sys.stderr)
-        sys.exit(1)
 
 
 def run_tables(study: dict[str, Any], sweep: str, outdir: str, log: str | None = None):
@@ -180,17 +176,13 @@ def run_tables(study: dict[str, Any], sweep: str, outdir: str, log: str | None =
     from knudsweep.families import get_family
     from knudsweep.gather import open_sweep
     from knudsweep.plan import StudyPlan
+    from knudsweep.preflight import one_line_exit
     from knudsweep.tables import write_tables
 
-    from knudsweep.preflight import ProductWriteError
-
     plan = StudyPlan(validate_study(study))
-    try:
+    with one_line_exit("tables"):
         for fam in plan.families:
             write_tables(get_family(fam).tables(open_sweep(sweep, fam), plan.study[fam]), outdir)
-    except ProductWriteError as exc:
-        print(f"knudsweep: tables: {exc}", file=sys.stderr)
-        sys.exit(1)
 
 
 def _draw_family(args) -> None:
@@ -213,13 +205,12 @@ def run_figures(study: dict[str, Any], sweep: str, outdir: str, log: str | None 
     setup_logging(log)
     from knudsweep.config import validate_study
     from knudsweep.plan import StudyPlan
-
-    from knudsweep.preflight import ProductWriteError
+    from knudsweep.preflight import one_line_exit
 
     plan = StudyPlan(validate_study(study))
     tasks = [(plan.study, fam, sweep, outdir) for fam in plan.families]
     workers = max(1, min(int(threads), len(tasks)))
-    try:
+    with one_line_exit("figures"):
         if workers == 1 or sys.platform != "linux":
             for t in tasks:
                 _draw_family(t)
@@ -230,6 +221,3 @@ def run_figures(study: dict[str, Any], sweep: str, outdir: str, log: str | None 
         # fork: this process has drawn nothing yet (matplotlib's Agg backend, no threads)
         with ProcessPoolExecutor(max_workers=workers, mp_context=multiprocessing.get_context("fork")) as pool:
             list(pool.map(_draw_family, tasks))
-    except ProductWriteError as exc:
-        print(f"knudsweep: figures: {exc}", file=sys.stderr)
-        sys.exit(1)

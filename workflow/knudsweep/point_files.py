@@ -12,7 +12,8 @@ solver's version.  Anything else is invalid, in one of two kinds:
 
 - *outdated*: a sound file of this point from an earlier state of its inputs
   (another solver version, or values that changed, e.g. after an edit of the
-  gas data).  The reason starts with ``OUTDATED``; the batch job solves the
+  gas data), its checksum intact.  The reason starts with :data:`OUTDATED`
+  ("outdated: "); the batch job solves the
   point again and the new file replaces the old one.
 - *corrupt*: unreadable, a checksum mismatch, not a point file, or another
   point's file copied over it.  The batch job moves it aside
@@ -70,6 +71,9 @@ def read_point_record(path: str | os.PathLike, pid: str, values: dict[str, Any]
             attrs = {k: nc.getncattr(k) for k in nc.ncattrs()}
             if "status" not in attrs or "residual" not in nc.variables:
                 return None, "not a knudsweep point file (no status attribute or residual)"
+            broken = verify_digest(nc)
+            if broken:
+                return None, broken
             if attrs.get("point_id") != pid:
                 return None, f"file holds point {attrs.get('point_id')!r}, not {pid!r}"
             try:
@@ -81,9 +85,6 @@ def read_point_record(path: str | os.PathLike, pid: str, values: dict[str, Any]
             version = str(attrs.get("code_version", ""))
             if version != __version__:
                 return None, OUTDATED + f"computed by solver version {version or '?'}, this is {__version__}"
-            broken = verify_digest(nc)
-            if broken:
-                return None, broken
             coefficients = {}
             for name, var in nc.variables.items():
                 if var.ndim == 0 and name not in _NOT_COEFFICIENTS:

@@ -19,7 +19,9 @@ from __future__ import annotations
 
 import os
 import shutil
+import sys
 import tempfile
+from contextlib import contextmanager
 from pathlib import Path
 
 
@@ -42,6 +44,16 @@ def write_failure_line(path: str | os.PathLike, exc: BaseException) -> str:
     """One line: which file could not be written, the error and the free space."""
     return (f"could not write {path}: {type(exc).__name__}: {exc} ({free_space_note(path)}); "
             "nothing under that name was changed")
+
+
+@contextmanager
+def one_line_exit(stage: str, *errors: type[BaseException]):
+    """In a product job: a :class:`ProductWriteError` (or one of ``errors``) becomes one line and exit 1."""
+    try:
+        yield
+    except (ProductWriteError, *errors) as exc:
+        print(f"knudsweep: {stage}: {exc}", file=sys.stderr)
+        sys.exit(1)
 
 
 def unwritable_folder(folders) -> str:
@@ -80,6 +92,6 @@ def check_before_run(plan, log_dir: str = "logs") -> tuple[str, list[str]]:
     if problem:
         return (f"{problem}; nothing was run. Make it writable, or run in another folder "
                 "(snakemake --directory DIR)"), []
-    notes = [n for n in (check_sweep(plan),) if n]
+    note = check_sweep(plan)
     clean_stray_temporaries(plan, ".")
-    return "", notes
+    return "", [note] if note else []
