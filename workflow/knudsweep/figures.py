@@ -15,8 +15,12 @@ import matplotlib
 
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402  (backend must be chosen first)
+from cycler import cycler  # noqa: E402
+
+from knudsweep.plot_style import COLORS  # noqa: E402
 
 STYLE = {
+    "axes.prop_cycle": cycler(color=COLORS),  # colour-blind-safe (knudsweep.plot_style)
     "pdf.fonttype": 42,
     "ps.fonttype": 42,
     "svg.fonttype": "none",
@@ -27,6 +31,10 @@ STYLE = {
     "figure.constrained_layout.use": True,
 }
 
+# Applied on import: the families create their artists after new_figure returns,
+# so the style must hold outside the rc_context too.
+matplotlib.rcParams.update(STYLE)
+
 _METADATA = {
     "png": {"Software": None},
     "pdf": {"CreationDate": None, "ModDate": None, "Producer": None},
@@ -34,10 +42,17 @@ _METADATA = {
 }
 
 
-def new_figure(settings: dict):
-    """A figure and axes of the study's figure size, in the knudsweep style."""
+def new_figure(settings: dict, *, mosaic=None, scale=(1.0, 1.0), **kw):
+    """A figure of the study's figure size (times ``scale``), in the knudsweep style.
+
+    Returns ``(fig, ax)``; with ``mosaic`` (see ``Figure.subplot_mosaic``) ``(fig, {name: ax})``.
+    """
+    size = (settings["width"] * scale[0], settings["height"] * scale[1])
     with plt.rc_context(STYLE):
-        fig, ax = plt.subplots(figsize=(settings["width"], settings["height"]))
+        if mosaic is not None:
+            fig = plt.figure(figsize=size)
+            return fig, fig.subplot_mosaic(mosaic, **kw)
+        fig, ax = plt.subplots(figsize=size, **kw)
     return fig, ax
 
 

@@ -203,138 +203,271 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
 
 
 # ---------------------------------------------------------------- figures
+# Ranges where the reference curves are drawn (the usual regime boundaries, Kn < 0.1
+# slip flow and Kn > 10 free-molecular flow; common practice, no source).
+SLIP_MIN_DELTA = 10.0  # Kn = 0.089
+FREE_MOLECULAR_FIG_MAX_DELTA = 0.1  # Kn = 8.9
+
+
 def figure_names(section: dict[str, Any]) -> list[str]:
-    names = []
-    for problem in section["problems"]:
-        for model in section["models"]:
-            names.append(f"plane_channel_{MAIN_COEFFICIENT[problem]}_vs_delta_{model}")
+    names = [f"plane_channel_{MAIN_COEFFICIENT[p]}_vs_delta" for p in section["problems"]]
     if "poiseuille" in section["problems"]:
         names.append("plane_channel_correction_vs_kn")
     names += [f"plane_channel_convergence_{p}" for p in section["problems"]]
     return names
 
 
-def _mark_failed(ax, delta, status, color):
-    bad = np.isin(status, ["failed", "corrupt"])
-    if bad.any():
-        ax.plot(delta[bad], np.full(bad.sum(), 0.03), "x", color=color, ms=7,
-                transform=ax.get_xaxis_transform(), clip_on=False)
-    return int(bad.sum())
+def _accommodation_factor(lower: dict, upper: dict | None) -> float:
+    """Mean over the plates of Maxwell's (2 - alpha)/alpha (alpha_t for Cercignani-Lampis walls)."""
+    def one(w):
+        a = w["alpha_t"] if w["model"] == "cercignani_lampis" else w["alpha"]
+        return (2.0 - a) / a
+
+    return one(lower) if upper is None else 0.5 * (one(lower) + one(upper))
 
 
-def _no_data(ax):
-    ax.text(0.5, 0.5, "no converged points", transform=ax.transAxes, ha="center", va="center")
+def free_molecular_slope(lower: dict, upper: dict | None) -> float:
+    """Slope of G_P against -ln delta as delta -> 0: (1/sqrt(pi)) for diffuse plates (Cercignani's
+    form, from memory, unconfirmed) times Maxwell's (2 - alpha)/alpha for partly specular plates
+    (molecules keep their drift over about (2 - alpha)/alpha wall collisions; by analogy with the
+    slip coefficient, approximate, no source)."""
+    return _accommodation_factor(lower, upper) / SQRT_PI
+
+
+def _values(ds, key, **sel) -> np.ndarray:
+    if key not in ds:
+        return np.full(ds.sizes["delta"], np.nan)
+    return ds[key].sel(**sel).values.astype(float)
+
+
+def _wall_entries(walls) -> list[tuple[int, str, dict, dict | None]]:
+    from knudsweep.plot_style import wall_text
+
+    return [(i, label, lower, upper) for i, (label, (lower, upper)) in enumerate(walls.items())
+            ] if walls else []
+
+
+def _legend_handles(ax, walls, models, refs: list[tuple[str, str]]):
+    """Proxy artists: one per wall (colour + marker), one per model (marker fill), one per reference."""
+    from knudsweep import plot_style as ps
+
+    handles, labels = [], []
+    for i, label, lower, upper in _wall_entries(walls):
+        handles.append(ax.plot([], [], **ps.series_style(i), ms=5.5)[0])
+        labels.append(ps.wall_text(lower, upper))
+    if len(models) > 1:
+        for model in models:
+            handles.append(ax.plot([], [], ls="none", marker="o", color="0.35", **ps.model_marker(model))[0])
+            labels.append(ps.model_text(model))
+    for kind, text in refs:
+        handles.append(ax.plot([], [], **ps.reference(kind))[0])
+        labels.append(text)
+    return handles, labels
+
+
+def _coefficient_figure(ds, section, settings, problem):
+    """G_P or G_T against delta: every model and wall in one panel, the models' difference below."""
+    from knudsweep import plot_style as ps
+    from knudsweep.figures import new_figure
+
+    key = MAIN_COEFFICIENT[problem]
+    walls = _walls(section)
+    models = list(section["models"])
+    delta = ds["delta"].values.astype(float)
+    two = len(models) > 1 and key in ("G_P", "G_T")
+    if two:
+        fig, axes = new_figure(settings, mosaic=[["main"], ["diff"]], scale=(1.0, 1.45),
+                               sharex=True, height_ratios=[3.0, 1.3])
+        ax, dax = axes["main"], axes["diff"]
+    else:
+        fig, ax = new_figure(settings, scale=(1.0, 1.2))
+        dax = None
+    n_failed, drawn, refs = 0, False, []
+    for i, label, lower, upper in _wall_entries(walls):
+        style = ps.series_style(i)
+        first = None
+        for model in models:
+            sel = dict(problem=problem, model=model, wall=label)
+            g = _values(ds, key, **sel)
+            n_failed += ps.mark_failed(ax, delta, ds["status"].sel(**sel).values, style)
+            if ps.plot_series(ax, delta, g, {**style, **ps.model_marker(model)}, logy=(key in ("G_P", "G_T"))):
+                drawn = True
+                first = g if first is None else first
+        if first is None:
+            continue
+        small = np.geomspace(delta.min(), min(FREE_MOLECULAR_FIG_MAX_DELTA, delta.max()), 50)
+        big = np.geomspace(max(SLIP_MIN_DELTA, delta.min()), delta.max(), 50)
+        fm_ok = delta.min() <= FREE_MOLECULAR_FIG_MAX_DELTA and np.isfinite(first).any()
+        if key == "G_P":
+            s_lo = _slip_sigma(lower, SIGMA_P_DIFFUSE)
+            s_up = s_lo if upper is None else _slip_sigma(upper, SIGMA_P_DIFFUSE)
+            if delta.max() >= SLIP_MIN_DELTA:
+                ax.plot(big, slip_gp(big, s_lo, s_up), **ps.reference("slip"))
+            fm_slope = free_molecular_slope(lower, upper)
+        elif key == "G_T":
+            # first-order thermal slip sigma_T/delta, sigma_T matched at the largest delta
+            j = np.flatnonzero(np.isfinite(first))
+            if delta.max() >= SLIP_MIN_DELTA and j.size:
+                sig_t = first[j[-1]] * delta[j[-1]]
+                ax.plot(big, sig_t / big, **ps.reference("slip"))
+            fm_slope = 0.5 * free_molecular_slope(lower, upper)  # free molecular: G_T = G_P / 2
+        else:
+            fm_slope = math.nan
+        if fm_ok and math.isfinite(fm_slope):
+            k = int(np.flatnonzero(np.isfinite(first))[0])
+            if delta[k] <= FREE_MOLECULAR_FIG_MAX_DELTA:
+                c = first[k] + fm_slope * math.log(delta[k])
+                ax.plot(small, -fm_slope * np.log(small) + c, **ps.reference("free_molecular"))
+    if key == "G_P":
+        if delta.max() >= SLIP_MIN_DELTA:
+            big = np.geomspace(max(SLIP_MIN_DELTA, delta.min()), delta.max(), 50)
+            ax.plot(big, big / 6.0, **ps.reference("continuum"))
+            refs.append(("continuum", r"no-slip continuum $\delta/6$ ($\delta \geq 10$)"))
+            refs.append(("slip", r"first-order slip $\delta/6 + \sigma_P$ ($\delta \geq 10$)"))
+        refs.append(("free_molecular", r"free-molecular form $-\frac{2-\alpha}{\alpha}\frac{\ln\delta}{\sqrt{\pi}}$"
+                                        r" + c ($\delta \leq 0.1$)"))
+    elif key == "G_T":
+        if delta.max() >= SLIP_MIN_DELTA:
+            refs.append(("slip", r"thermal slip $\sigma_T/\delta$, $\sigma_T$ matched at largest $\delta$"))
+        refs.append(("free_molecular", r"free-molecular form $-\frac{2-\alpha}{2\alpha}\frac{\ln\delta}{\sqrt{\pi}}$"
+                                        r" + c ($\delta \leq 0.1$)"))
+    ax.set_xscale("log")
+    if drawn:
+        if key in ("G_P", "G_T"):
+            ax.set_yscale("log")
+            ps.data_ylim(ax, _values(ds, key, problem=problem), pad=1.4)
+            ps.plain_log_ticks(ax.yaxis)
+    else:
+        ps.no_data(ax)
+    symbol = {"G_P": "G_P", "G_T": "G_T"}.get(key, key.replace("_", r"\_"))
+    ax.set_ylabel(f"reduced flow rate ${symbol}$" if key in ("G_P", "G_T") else f"${symbol}$")
+    title = f"Plane channel, {ps.problem_text(problem)}"
+    if n_failed:
+        title += f" ({n_failed} failed: $\\times$)"
+    ax.set_title(title, fontsize="medium")
+    if dax is not None:
+        base = models[0]
+        for i, label, lower, upper in _wall_entries(walls):
+            g0 = _values(ds, key, problem=problem, model=base, wall=label)
+            for model in models[1:]:
+                g = _values(ds, key, problem=problem, model=model, wall=label)
+                ps.plot_series(dax, delta, 100.0 * (g - g0) / g0, {**ps.series_style(i), **ps.model_marker(model)},
+                               logy=False)
+        dax.axhline(0.0, color=ps.REFERENCE_COLOR, lw=0.8, zorder=1)
+        dax.set_ylabel(f"{ps.model_text(models[1]) if len(models) == 2 else 'model'} $-$ "
+                       f"{ps.model_text(base)}\n[% of {ps.model_text(base)}]", fontsize="small")
+        dax.set_xlabel(ps.DELTA_LABEL)
+    else:
+        ax.set_xlabel(ps.DELTA_LABEL)
+    handles, labels = _legend_handles(ax, walls, models, refs)
+    ps.bottom_legend(fig, handles, labels, ncol=2)
+    return fig
+
+
+def _correction_figure(ds, section, settings):
+    from knudsweep import plot_style as ps
+    from knudsweep.figures import new_figure
+
+    walls = _walls(section)
+    models = list(section["models"])
+    delta = ds["delta"].values.astype(float)
+    kn = SQRT_PI / (2.0 * delta)
+    fig, ax = new_figure(settings, scale=(1.0, 1.2))
+    drawn = False
+    for i, label, lower, upper in _wall_entries(walls):
+        for model in models:
+            g = _values(ds, "G_P", problem="poiseuille", model=model, wall=label)
+            order = np.argsort(kn)
+            if ps.plot_series(ax, kn[order], (g / (delta / 6.0))[order],
+                              {**ps.series_style(i), **ps.model_marker(model)}):
+                drawn = True
+    ax.axhline(1.0, **ps.reference("continuum"))
+    ax.set_xscale("log")
+    if drawn:
+        ax.set_yscale("log")
+    else:
+        ps.no_data(ax)
+    ax.set_xlabel(ps.KN_LABEL)
+    ax.set_ylabel(r"correction factor $G_P\,/\,(\delta/6)$")
+    ax.set_title("Flow-rate correction against no-slip continuum flow", fontsize="medium")
+    # Correction factors are quoted against Kn by convention; delta on the top axis.
+    top = ax.secondary_xaxis("top", functions=(lambda k: SQRT_PI / (2.0 * np.maximum(k, 1e-300)),
+                                               lambda d: SQRT_PI / (2.0 * np.maximum(d, 1e-300))))
+    top.set_xlabel(r"rarefaction parameter $\delta$", fontsize="small")
+    handles, labels = _legend_handles(ax, walls, models, [("continuum", "no-slip continuum: ratio 1")])
+    ps.bottom_legend(fig, handles, labels, ncol=2)
+    return fig
+
+
+def _convergence_figure(ds, section, settings, problem):
+    """Iterations needed against delta (top) and the residual histories, one panel per model (below)."""
+    import matplotlib.pyplot as plt
+    from matplotlib.ticker import MaxNLocator
+
+    from knudsweep import plot_style as ps
+    from knudsweep.figures import new_figure
+
+    walls = _walls(section)
+    models = list(section["models"])
+    delta = ds["delta"].values.astype(float)
+    tol = float(section["resolution"]["tol"])
+    mosaic = [["iters"] * len(models), list(models)]
+    fig, axes = new_figure(settings, mosaic=mosaic, scale=(1.0, 1.6), height_ratios=[1.0, 1.1])
+    ax = axes["iters"]
+    drawn = False
+    for i, label, lower, upper in _wall_entries(walls):
+        for model in models:
+            n = ds["iterations"].sel(problem=problem, model=model, wall=label).values.astype(float)
+            ok = ds["status"].sel(problem=problem, model=model, wall=label).values == "converged"
+            if ps.plot_series(ax, delta, np.where(ok & (n > 0), n, np.nan),
+                              {**ps.series_style(i), **ps.model_marker(model)}, smooth=False):
+                drawn = True
+    ax.set_xscale("log")
+    ax.set_xlabel(ps.DELTA_LABEL)
+    ax.set_ylabel("iterations to converge")
+    ax.yaxis.set_major_locator(MaxNLocator(integer=True))
+    ax.set_title(f"Convergence, plane channel, {ps.problem_text(problem)}", fontsize="medium")
+    if not drawn:
+        ps.no_data(ax)
+    norm = plt.Normalize(np.log10(delta.min()), np.log10(delta.max()) if len(delta) > 1 else np.log10(delta.min()) + 1)
+    cmap = plt.get_cmap("viridis")  # sequential, colour-blind safe and monotone in lightness
+    it = ds["iteration"].values
+    for m, model in enumerate(models):
+        hax = axes[model]
+        any_line = False
+        for label in walls:
+            res = ds["residual"].sel(problem=problem, model=model, wall=label).values
+            for j, d in enumerate(delta):
+                r = res[j]
+                ok = np.isfinite(r) & (r > 0)
+                if ok.any():
+                    any_line = True
+                    hax.plot(it[ok], r[ok], color=cmap(norm(np.log10(d))), lw=0.8, alpha=0.85)
+        hax.axhline(tol, **ps.reference("fit"))
+        hax.text(0.98, tol, f"tolerance {ps.sci(tol)}", transform=hax.get_yaxis_transform(), ha="right",
+                 va="bottom", fontsize="x-small")
+        if any_line:
+            hax.set_yscale("log")
+        else:
+            ps.no_data(hax, "no histories")
+        hax.xaxis.set_major_locator(MaxNLocator(integer=True, nbins=5))
+        hax.set_xlabel("iteration")
+        hax.set_title(f"{ps.model_text(model)}, all walls", fontsize="small")
+        if m == 0:
+            hax.set_ylabel("relative change\nof the iterate")
+    sm = plt.cm.ScalarMappable(norm=norm, cmap=cmap)
+    fig.colorbar(sm, ax=[axes[m] for m in models], label=r"$\log_{10}\delta$", shrink=0.9)
+    handles, labels = _legend_handles(ax, walls, models, [])
+    ps.bottom_legend(fig, handles, labels, ncol=2)
+    return fig
 
 
 def build_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
-    from knudsweep.figures import new_figure
-
-    import matplotlib.pyplot as plt
-
-    walls = _walls(section)
-    delta = ds["delta"].values.astype(float)
-    dense = np.geomspace(delta.min(), delta.max(), 200) if len(delta) > 1 else delta
-    colors = plt.get_cmap("viridis")(np.linspace(0.0, 0.85, max(len(walls), 1)))
     figs = {}
     for problem in section["problems"]:
-        key = MAIN_COEFFICIENT[problem]
-        for model in section["models"]:
-            fig, ax = new_figure(settings)
-            n_failed = 0
-            drawn = fm_drawn = False
-            for color, (label, (lower, upper)) in zip(colors, walls.items()):
-                sel = dict(problem=problem, model=model, wall=label)
-                g = ds[key].sel(**sel).values.astype(float) if key in ds else np.full(delta.shape, np.nan)
-                n_failed += _mark_failed(ax, delta, ds["status"].sel(**sel).values, color)
-                if np.isfinite(g).any():
-                    drawn = True
-                    ax.plot(delta, g, "o-", color=color, ms=4, label=label)
-                if key == "G_P":
-                    s_lo = _slip_sigma(lower, SIGMA_P_DIFFUSE)
-                    s_up = s_lo if upper is None else _slip_sigma(upper, SIGMA_P_DIFFUSE)
-                    ax.plot(dense, slip_gp(dense, s_lo, s_up), "--", color=color, lw=0.8)
-                    c = free_molecular_constant(delta, g) if _is_diffuse(lower, upper) else math.nan
-                    if math.isfinite(c):
-                        fm_drawn = True
-                        small = dense[dense <= FM_SHOW_MAX_DELTA]
-                        fm = -np.log(small) / SQRT_PI + c
-                        ax.plot(small[fm > 0], fm[fm > 0], "-.", color=color, lw=0.9)
-                if key == "G_T" and model == "bgk" and _is_diffuse(lower, upper):
-                    big = dense[dense >= 1.0]
-                    ax.plot(big, SIGMA_T_DIFFUSE_BGK / big, "--", color=color, lw=0.8,
-                            label="thermal slip sigma_T/delta")
-            if key == "G_P":
-                ax.plot(dense, dense / 6.0, ":", color="k", lw=1.0, label="continuum, no slip: delta/6")
-                ax.plot([], [], "--", color="0.5", lw=0.8, label="first-order slip: delta/6 + sigma_P")
-                if fm_drawn:
-                    ax.plot([], [], "-.", color="0.5", lw=0.9,
-                            label="free-molecular asymptotic form (matched at smallest delta)")
-            if not drawn:
-                _no_data(ax)
-            ax.set_xscale("log")
-            if drawn:
-                ax.set_yscale("log")
-                # keep the computed curves readable: reference lines may leave the frame
-                finite = np.concatenate([ds[key].sel(problem=problem, model=model).values.ravel()])
-                finite = finite[np.isfinite(finite) & (finite > 0)]
-                ax.set_ylim(0.3 * finite.min(), 3.0 * finite.max())
-            ax.set_xlabel("rarefaction parameter delta [1]")
-            ax.set_ylabel(f"{key} [1]")
-            title = f"Plane channel, {problem.replace('_', ' ')}, {model}"
-            if n_failed:
-                title += f" ({n_failed} failed: x)"
-            ax.set_title(title, fontsize="medium")
-            ax.legend(loc="upper right" if key != "G_P" else "upper center", fontsize="x-small")
-            figs[f"plane_channel_{key}_vs_delta_{model}"] = fig
-
+        figs[f"plane_channel_{MAIN_COEFFICIENT[problem]}_vs_delta"] = _coefficient_figure(ds, section, settings, problem)
     if "poiseuille" in section["problems"]:
-        fig, ax = new_figure(settings)
-        kn = ds["kn"].values.astype(float)
-        styles = ["-", "--", "-.", ":"]
-        drawn = False
-        for m, model in enumerate(section["models"]):
-            for color, label in zip(colors, walls):
-                g = ds["G_P"].sel(problem="poiseuille", model=model, wall=label).values if "G_P" in ds else np.full(delta.shape, np.nan)
-                if np.isfinite(g).any():
-                    drawn = True
-                    ax.plot(kn, g / (delta / 6.0), styles[m % 4], marker="os^v"[m % 4], ms=4,
-                            mfc="none" if m else color, color=color, label=f"{model}, {label}")
-        if drawn:
-            ax.set_yscale("log")
-        else:
-            _no_data(ax)
-        ax.set_xscale("log")
-        ax.axhline(1.0, color="k", lw=0.8, ls=":")
-        ax.set_xlabel("Knudsen number Kn = sqrt(pi)/(2 delta) [1]")
-        ax.set_ylabel("G_P / (delta/6) [1]")
-        ax.set_title("Flow-rate correction factor against no-slip continuum flow", fontsize="medium")
-        ax.legend(loc="upper left", fontsize="x-small")
-        figs["plane_channel_correction_vs_kn"] = fig
-
-    norm = plt.Normalize(np.log10(delta.min()), np.log10(delta.max()) if len(delta) > 1 else np.log10(delta.min()) + 1)
-    cmap = plt.get_cmap("viridis")
-    it = ds["iteration"].values
+        figs["plane_channel_correction_vs_kn"] = _correction_figure(ds, section, settings)
     for problem in section["problems"]:
-        fig, ax = new_figure(settings)
-        res = ds["residual"].sel(problem=problem)
-        drawn = False
-        for model in section["models"]:
-            for label in walls:
-                for j, d in enumerate(delta):
-                    r = res.sel(model=model, wall=label).values[j]
-                    ok = np.isfinite(r) & (r > 0)
-                    if ok.any():
-                        drawn = True
-                        ax.plot(it[ok], r[ok], color=cmap(norm(np.log10(d))), lw=0.7, alpha=0.8)
-        if drawn:
-            ax.set_yscale("log")
-            ax.set_xscale("log")
-            sm = plt.cm.ScalarMappable(norm=norm, cmap=cmap)
-            fig.colorbar(sm, ax=ax, label="log10 delta")
-        else:
-            _no_data(ax)
-        ax.set_xlabel("iteration [1]")
-        ax.set_ylabel("relative change of the iterate [1]")
-        ax.set_title(f"Convergence histories, {problem.replace('_', ' ')} (all models and walls)", fontsize="medium")
-        figs[f"plane_channel_convergence_{problem}"] = fig
+        figs[f"plane_channel_convergence_{problem}"] = _convergence_figure(ds, section, settings, problem)
     return figs

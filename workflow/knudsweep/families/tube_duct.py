@@ -445,78 +445,154 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
 
 
 # ---------------------------------------------------------------- figures
-def _legend(ax):
-    if ax.get_legend_handles_labels()[0]:
-        ax.legend(fontsize="xx-small", loc="best")
+# Ranges where the reference curves are drawn (slip flow Kn < 0.1, free-molecular
+# flow Kn > 10; common practice, no source).
+SLIP_MIN_DELTA = 10.0
+FREE_MOLECULAR_FIG_MAX_DELTA = 0.1
 
 
-def _no_data(ax, text="no converged points"):
-    ax.text(0.5, 0.5, text, transform=ax.transAxes, ha="center", va="center")
+def free_molecular_factor(w: dict[str, Any]) -> float:
+    """Smoluchowski's (2 - alpha)/alpha on the diffuse free-molecular flow rate (long tube, check-values
+    section 0.3, from memory, unconfirmed); alpha_t for Cercignani-Lampis walls and the same factor for
+    ducts (approximate, common practice, no source)."""
+    a = min(_tangential_alpha(w), 1.0)
+    return (2.0 - a) / a
+
+
+def wall_marker(k: int) -> dict[str, Any]:
+    """Marker fill of the k-th wall setting: filled, open, half filled."""
+    return [{"ms": 5.5}, {"ms": 6.5, "mfc": "white", "mew": 1.2},
+            {"ms": 6.0, "fillstyle": "left", "mfcalt": "white"}][k % 3]
+
+
+def _geometry_label(section, shape, aspect) -> str:
+    c = section.get("conditions", {})
+    if shape == "tube":
+        return f"tube, radius {1e3 * c['radius']:g} mm" if "radius" in c else "tube"
+    if "height" in c:
+        h = 1e3 * c["height"]
+        return f"duct {aspect * h:g} mm $\\times$ {h:g} mm ($A = {aspect:g}$)"
+    return f"duct, $A = {aspect:g}$"
+
+
+def _legend(fig, ax, section, geos, walls, refs):
+    from knudsweep import plot_style as ps
+
+    handles, labels = [], []
+    for i, (glabel, shape, aspect) in enumerate(geos):
+        handles.append(ax.plot([], [], **ps.series_style(i), ms=5.5)[0])
+        labels.append(_geometry_label(section, shape, aspect))
+    if len(walls) > 1:
+        for k, (wlabel, w) in enumerate(walls):
+            handles.append(ax.plot([], [], ls="none", marker="o", color="0.35", **wall_marker(k))[0])
+            labels.append(ps.wall_text(w))
+    for kind, text in refs:
+        handles.append(ax.plot([], [], **ps.reference(kind))[0])
+        labels.append(text)
+    ps.bottom_legend(fig, handles, labels, ncol=2)
+
+
+def _coefficient_figure(ds, section, settings, problem, model, geos, walls):
+    from knudsweep import plot_style as ps
+    from knudsweep.figures import new_figure
+
+    key = MAIN_COEFFICIENT[problem]
+    delta = ds["delta"].values.astype(float)
+    fig, ax = new_figure(settings, scale=(1.0, 1.3))
+    drawn, n_failed = False, 0
+    small = np.geomspace(delta.min(), min(FREE_MOLECULAR_FIG_MAX_DELTA, delta.max()), 20)
+    big = np.geomspace(max(SLIP_MIN_DELTA, delta.min()), delta.max(), 50)
+    has_fm = delta.min() <= FREE_MOLECULAR_FIG_MAX_DELTA
+    has_slip = delta.max() >= SLIP_MIN_DELTA
+    for i, (glabel, shape, aspect) in enumerate(geos):
+        style = ps.series_style(i)
+        for k, (wlabel, w) in enumerate(walls):
+            sel = dict(geometry=glabel, problem=problem, model=model, wall=wlabel)
+            g = ds[key].sel(**sel).values.astype(float) if key in ds else np.full(delta.shape, np.nan)
+            n_failed += ps.mark_failed(ax, delta, ds["status"].sel(**sel).values, style)
+            if ps.plot_series(ax, delta, g, {**style, **wall_marker(k), "lw": 1.3 if k == 0 else 1.0}):
+                drawn = True
+            # free-molecular reference only where its wall factor has a source (Maxwell walls)
+            fm_ok = has_fm and w["model"] == "maxwell"
+            g_fm = free_molecular_gp(shape, aspect) * free_molecular_factor(w)
+            if key == "G_P":
+                if fm_ok:
+                    ax.plot(small, np.full(small.size, g_fm), **ps.reference("free_molecular"))
+                if has_slip:
+                    ax.plot(big, slip_gp(shape, aspect, big, slip_sigma(w)), **ps.reference("slip"))
+            else:
+                if fm_ok:
+                    ax.plot(small, np.full(small.size, 0.5 * g_fm), **ps.reference("free_molecular"))
+                j = np.flatnonzero(np.isfinite(g))
+                if has_slip and j.size and delta[j[-1]] >= SLIP_MIN_DELTA:
+                    ax.plot(big, g[j[-1]] * delta[j[-1]] / big, **ps.reference("slip"))
+        if key == "G_P" and has_slip:
+            ax.plot(big, continuum_gp(shape, aspect, big), **ps.reference("continuum"))
+    refs = []
+    if key == "G_P":
+        if has_slip:
+            refs += [("continuum", r"no-slip continuum ($\delta \geq 10$)"),
+                     ("slip", r"first-order slip, $\sigma_P = 1.016\,(2-\alpha)/\alpha$ ($\delta \geq 10$)")]
+        if has_fm:
+            refs.append(("free_molecular", r"free molecular $\times\,(2-\alpha)/\alpha$, Maxwell walls ($\delta \leq 0.1$)"))
+    else:
+        if has_slip:
+            refs.append(("slip", r"thermal slip $\propto 1/\delta$, matched at largest $\delta$"))
+        if has_fm:
+            refs.append(("free_molecular", r"free molecular $G_P/2$, Maxwell walls ($\delta \leq 0.1$)"))
+    ax.set_xscale("log")
+    if drawn:
+        ax.set_yscale("log")
+        ps.data_ylim(ax, ds[key].sel(problem=problem, model=model).values if key in ds else [], pad=1.3)
+        ps.plain_log_ticks(ax.yaxis)
+    else:
+        ps.no_data(ax)
+    ax.set_xlabel(ps.DELTA_LABEL + r" ($a$ = tube radius or duct height)")
+    ax.set_ylabel(f"reduced flow rate ${key}$")
+    title = f"Tube and ducts, {ps.problem_text(problem)}, {ps.model_text(model)}"
+    if n_failed:
+        title += f" ({n_failed} failed: $\\times$)"
+    ax.set_title(title, fontsize="medium")
+    _legend(fig, ax, section, geos, walls, refs)
+    return fig
 
 
 def build_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
-    import matplotlib.pyplot as plt
-
-    from knudsweep.figures import new_figure
-
     geos = geometry_settings(section)
     walls = wall_settings(section)
-    delta = ds["delta"].values.astype(float)
-    dense = np.geomspace(delta.min(), delta.max(), 200) if len(delta) > 1 else delta
-    colors = plt.get_cmap("viridis")(np.linspace(0.0, 0.85, max(len(geos), 1)))
-    styles = ["o-", "s--", "^-.", "d:"]
     figs = {}
     for problem in section["problems"]:
-        key = MAIN_COEFFICIENT[problem]
         for model in section["models"]:
-            fig, ax = new_figure(settings)
-            drawn = False
-            for color, (glabel, shape, aspect) in zip(colors, geos):
-                for k, (wlabel, w) in enumerate(walls):
-                    sel = dict(geometry=glabel, problem=problem, model=model, wall=wlabel)
-                    g = ds[key].sel(**sel).values.astype(float) if key in ds else np.full(delta.shape, np.nan)
-                    bad = np.isin(ds["status"].sel(**sel).values, ["failed", "corrupt"])
-                    if bad.any():
-                        ax.plot(delta[bad], np.full(bad.sum(), 0.03), "x", color=color, transform=ax.get_xaxis_transform())
-                    if np.isfinite(g).any():
-                        drawn = True
-                        ax.plot(delta, g, styles[k % 4], color=color, ms=3.5, label=f"{glabel}, {wlabel}")
-                if key == "G_P":
-                    g_fm = free_molecular_gp(shape, aspect)
-                    small = dense[dense <= 1.0]
-                    ax.plot(small, np.full(small.size, g_fm), ":", color=color, lw=1.0)
-                    big = dense[dense >= 1.0]
-                    for wlabel, w in walls[:1]:
-                        ax.plot(big, slip_gp(shape, aspect, big, slip_sigma(w)), "--", color=color, lw=0.8)
-                elif model == "bgk" and any(_is_diffuse(w) for _, w in walls):
-                    big = dense[dense >= 1.0]
-                    ax.plot(big, SIGMA_T_DIFFUSE_BGK / big, "--", color="0.3", lw=0.8)
-                    small = dense[dense <= 1.0]
-                    ax.plot(small, np.full(small.size, 0.5 * free_molecular_gp(shape, aspect)), ":", color=color, lw=1.0)
-            if key == "G_P":
-                ax.plot([], [], ":", color="0.4", label="free molecular, diffuse")
-                ax.plot([], [], "--", color="0.4", label=f"first-order slip ({walls[0][0]})")
-            else:
-                ax.plot([], [], ":", color="0.4", label="free molecular, diffuse: G_P(0)/2")
-                ax.plot([], [], "--", color="0.3", label="thermal slip sigma_T/delta (BGK)")
-            if drawn:
-                ax.set_yscale("log")
-            else:
-                _no_data(ax)
-            ax.set_xscale("log")
-            ax.set_xlabel("rarefaction parameter delta [1]")
-            ax.set_ylabel(f"{key} [1]")
-            ax.set_title(f"Tube and ducts, {problem.replace('_', ' ')}, {model}", fontsize="medium")
-            _legend(ax)
-            figs[f"tube_duct_{key}_vs_delta_{model}"] = fig
-
+            figs[f"tube_duct_{MAIN_COEFFICIENT[problem]}_vs_delta_{model}"] = _coefficient_figure(
+                ds, section, settings, problem, model, geos, walls)
     if set(PROBLEMS) <= set(section["problems"]):
-        figs.update(_pressure_figures(ds, section, settings, geos, walls, colors))
+        figs.update(_pressure_figures(ds, section, settings, geos, walls))
     return figs
 
 
-def _pressure_figures(ds, section, settings, geos, walls, colors):
+def common_outlet_pressure(section, geos, gas: str, deltas: np.ndarray, max_ratio: float) -> float:
+    """One outlet pressure for every cross-section: the geometric mean of the range in which the
+    whole channel of each cross-section stays inside the computed delta range (p_in = max_ratio p_out);
+    the geometric mean of the widest such range if none is common."""
+    from solver import gas as gasmod
+
+    t = section["conditions"]["temperature"]
+    lo, hi = [], []
+    for _, shape, aspect in geos:
+        _, a, _ = _size(section, shape, aspect)
+        lo.append(gasmod.pressure_from_delta(gas, float(deltas.min()), t, a))
+        hi.append(gasmod.pressure_from_delta(gas, float(deltas.max()) / max_ratio, t, a))
+    p_lo, p_hi = max(lo), min(hi)
+    if p_lo > p_hi:
+        p_lo, p_hi = min(lo), max(hi)
+    return float(math.sqrt(p_lo * p_hi))
+
+
+def _pressure_figures(ds, section, settings, geos, walls):
     """Flow against pressure ratio, and thermal transpiration (first model, first wall, first gas)."""
+    from matplotlib.ticker import FixedLocator, FuncFormatter, NullFormatter, NullLocator
+
+    from knudsweep import plot_style as ps
     from knudsweep.figures import new_figure
     from solver import gas as gasmod
     from solver.conductance import flow_at_pressure_ratio, thermomolecular_pressure_ratio
@@ -524,63 +600,85 @@ def _pressure_figures(ds, section, settings, geos, walls, colors):
     c = section["conditions"]
     gas = section["gases"][0]
     model = section["models"][0]
-    wlabel = walls[0][0]
+    wlabel, w0 = walls[0]
     t = c["temperature"]
     delta = ds["delta"].values.astype(float)
     out = {}
 
-    fig, ax = new_figure(settings)
+    fig, ax = new_figure(settings, scale=(1.0, 1.2))
     drawn = False
-    ratios = np.asarray(c["pressure_ratios"], float)
-    for color, (glabel, shape, aspect) in zip(colors, geos):
+    ratios = np.asarray(sorted(c["pressure_ratios"]), float)
+    p_out = common_outlet_pressure(section, geos, gas, delta, float(ratios.max()))
+    handles, labels = [], []
+    for i, (glabel, shape, aspect) in enumerate(geos):
         table = flow_table(ds, glabel, shape, aspect, model, wlabel)
         if table is None:
             continue
         _, a, kw = _size(section, shape, aspect)
-        p_out = gasmod.pressure_from_delta(gas, float(np.sqrt(delta.min() * delta.max())), t, a)
-        mdot = []
-        for r in ratios:
+
+        def mdot(r):
             try:
-                mdot.append(flow_at_pressure_ratio(table, gas, r * p_out, p_out, c["length"], t_in=t, **kw)["mass_flow"])
+                return flow_at_pressure_ratio(table, gas, r * p_out, p_out, c["length"], t_in=t, **kw)["mass_flow"]
             except (RuntimeError, ValueError):
-                mdot.append(np.nan)
-        if np.isfinite(mdot).any():
+                return np.nan
+
+        at_ratios = np.array([mdot(r) for r in ratios])
+        # markers at the study's ratios, a monotone (PCHIP, log-log) curve between them
+        h = ps.plot_series(ax, ratios, at_ratios, {**ps.series_style(i), "ms": 5.5})
+        if h is not None:
             drawn = True
-            ax.plot(ratios, mdot, "o-", color=color, ms=3.5, label=f"{glabel}, p_out = {p_out:.3g} Pa")
+            handles.append(h)
+            labels.append(_geometry_label(section, shape, aspect))
     if drawn:
         ax.set_xscale("log")
         ax.set_yscale("log")
+        ax.xaxis.set_major_locator(FixedLocator(ratios))
+        ax.xaxis.set_major_formatter(FuncFormatter(lambda v, _: f"{v:g}"))
+        ax.xaxis.set_minor_locator(NullLocator())
+        ax.xaxis.set_minor_formatter(NullFormatter())
     else:
-        _no_data(ax, "needs converged G_P and G_T at two or more delta")
-    ax.set_xlabel("pressure ratio p_in / p_out [1]")
-    ax.set_ylabel("mass flow [kg s^-1]")
-    ax.set_title(f"Flow through a {c['length']:g} m channel, {gas}, {t:g} K, {model}, {wlabel}", fontsize="small")
-    _legend(ax)
+        ps.no_data(ax, "needs converged $G_P$ and $G_T$ at two or more $\\delta$")
+    ax.set_xlabel(r"pressure ratio $p_\mathrm{in}/p_\mathrm{out}$ (markers: the study's ratios)")
+    ax.set_ylabel(r"mass flow [kg s$^{-1}$]")
+    ax.set_title(f"Flow through {c['length']:g} m long tube and ducts, {gas}, {t:g} K,\n"
+                 f"$p_\\mathrm{{out}}$ = {ps.number(p_out)} Pa for all, {ps.model_text(model)}, "
+                 f"{ps.wall_text(w0)}", fontsize="small")
+    ps.bottom_legend(fig, handles, labels, ncol=1)
     out["tube_duct_flow_vs_pressure_ratio"] = fig
 
-    fig, ax = new_figure(settings)
+    fig, ax = new_figure(settings, scale=(1.0, 1.2))
     th = c["thermal"]
     t_cold, t_hot = th["t_cold"], th["t_hot"]
     drawn = False
-    for color, (glabel, shape, aspect) in zip(colors, geos):
+    handles, labels = [], []
+    for i, (glabel, shape, aspect) in enumerate(geos):
         table = flow_table(ds, glabel, shape, aspect, model, wlabel)
         if table is None:
             continue
         _, a, kw = _size(section, shape, aspect)
-        lo = gasmod.pressure_from_delta(gas, delta.min() / 10.0, t_cold, a)
-        hi = gasmod.pressure_from_delta(gas, delta.max() * 10.0, t_cold, a)
-        pc = np.geomspace(lo, hi, 40)
+        # the cold end inside the computed delta range; markers where the cold end sits on a computed delta
+        nodes = table.deltas
+        p_nodes = np.array([gasmod.pressure_from_delta(gas, float(d), t_cold, a) for d in nodes])
+        pc = np.geomspace(p_nodes.min(), p_nodes.max(), 40)
         ratio = [thermomolecular_pressure_ratio(table, gas, t_cold, t_hot, p, **kw) for p in pc]
+        at_nodes = [thermomolecular_pressure_ratio(table, gas, t_cold, t_hot, p, **kw) for p in p_nodes]
         drawn = True
-        ax.plot(pc, ratio, "-", color=color, label=glabel)
-    ax.axhline(math.sqrt(t_hot / t_cold), color="k", ls=":", lw=1.0, label="free molecular sqrt(T_hot/T_cold)")
-    ax.axhline(1.0, color="k", ls="--", lw=0.8, label="continuum: 1")
+        style = ps.series_style(i)
+        ax.plot(pc, ratio, **{k: v for k, v in style.items() if k != "marker"})
+        ax.plot(p_nodes, at_nodes, ls="none", **{k: v for k, v in style.items() if k not in ("ls", "lw")}, ms=5.0)
+        handles.append(ax.plot([], [], **style, ms=5.0)[0])
+        labels.append(_geometry_label(section, shape, aspect))
+    ax.axhline(math.sqrt(t_hot / t_cold), **ps.reference("free_molecular"))
+    ax.axhline(1.0, **ps.reference("continuum"))
+    handles += [ax.plot([], [], **ps.reference("free_molecular"))[0], ax.plot([], [], **ps.reference("continuum"))[0]]
+    labels += [r"free molecular $\sqrt{T_\mathrm{hot}/T_\mathrm{cold}}$ (Knudsen 1909)", "continuum: 1"]
     if not drawn:
-        _no_data(ax, "needs converged G_P and G_T at two or more delta")
+        ps.no_data(ax, "needs converged $G_P$ and $G_T$ at two or more $\\delta$")
     ax.set_xscale("log")
-    ax.set_xlabel("cold-side pressure p_cold [Pa]")
-    ax.set_ylabel("p_hot / p_cold [1]")
-    ax.set_title(f"Thermal transpiration, {gas}, {t_cold:g} K / {t_hot:g} K, {model}, {wlabel}", fontsize="small")
-    _legend(ax)
+    ax.set_xlabel(r"cold-side pressure $p_\mathrm{cold}$ [Pa] (markers: computed $\delta$ at the cold end)")
+    ax.set_ylabel(r"$p_\mathrm{hot}/p_\mathrm{cold}$")
+    ax.set_title(f"Thermal transpiration, {gas}, {t_cold:g} K / {t_hot:g} K, {ps.model_text(model)}, "
+                 f"{ps.wall_text(w0)}", fontsize="small")
+    ps.bottom_legend(fig, handles, labels, ncol=2)
     out["tube_duct_thermal_transpiration"] = fig
     return out
