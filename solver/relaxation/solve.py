@@ -24,7 +24,19 @@ from solver.relaxation import deterministic as det
 from solver.relaxation import dsmc
 from solver.relaxation.bkw import BKW_FIRST_TIME
 from solver.relaxation.cross_sections import MOLECULAR_MODELS, check_model, molecular_model
-from solver.relaxation.fitting import DecayFit, fit_decay
+from solver.relaxation.fitting import (
+    KIND_E_FOLDING,
+    KIND_EXPONENTIAL,
+    KIND_TWO_EXPONENTIAL,
+    DecayFit,
+    e_folding_time,
+    exponential_rate_jackknife,
+    fit_decay,
+    fit_two_exponentials,
+    initial_rate,
+    late_rate,
+    nan_fit,
+)
 from solver.relaxation.h_function import (
     _relative_entropy_grid,
     axis_overlap,
@@ -43,6 +55,7 @@ from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, Solver
 
 METHODS = ("dsmc", "bgk", "s_model", "es_bgk")
 FAMILY = "relaxation"
+FIT_NAMES = ("anisotropy", "heat_flux", "fourth_moment")
 
 # Fixed bins of the recorded x-marginal f_x(v_x) (reduced units), identical
 # for every method so that points can be gathered on one coordinate.
@@ -357,32 +370,17 @@ def _assemble(parameters, discretization, times, tau_c, mu_over_p, model, state,
         h_fine if h_fine is not None else np.full(n_output, np.nan), "1",
         "relative H-function sum f ln(f/M_d) w on the velocity grid (model equations only)", ("time",))
 
-    fits = {}
-    notes = {}
-    if _has_anisotropy(state):
-        fits["anisotropy"] = fit_decay(times, aniso, **_fit_opts(aniso))
-    else:
-        notes["anisotropy"] = "no initial anisotropy"
-    if _has_heat_flux(state):
-        fits["heat_flux"] = fit_decay(times, heat_x, **_fit_opts(heat_x))
-    else:
-        notes["heat_flux"] = "no initial heat flux"
-    t4 = 0.0
-    fa = fits.get("anisotropy")
-    if fa is not None and np.isfinite(fa.rate):
-        # the <c^4> deviation carries a term ~ anisotropy**2 that decays at twice the
-        # anisotropy rate; start the fit once it has fallen by e^-3
-        t4 = 1.5 / fa.rate
-    if state.name != "equilibrium":
-        fits["fourth_moment"] = fit_decay(times, m4 - 15.0, t_start=t4, **_fit_opts(m4 - 15.0))
-    else:
-        notes["fourth_moment"] = "initial state is the equilibrium"
+    fits, extra = _relaxation_fits(times, state, aniso, heat_x, m4)
 
     coefficients: dict[str, Quantity] = {
         "mean_collision_time_s": Quantity(tau_c, "s", "mean collision time tau_c = factor * mu/p of the molecular model"),
         "viscosity_over_pressure_s": Quantity(mu_over_p, "s", "mu(T)/p"),
         "pressure_over_viscosity_reduced": Quantity(model.pressure_over_viscosity, "1",
-                                                    "p/mu in units of 1/tau_c"),
+                                                    "p/mu in units of 1/tau_c, mu the first Chapman-Enskog "
+                                                    "viscosity of the molecular model (Bird 1994 eqs. 4.62, 4.64; "
+                                                    "for hard spheres about 1.6 % below the converged value, "
+                                                    "Chapman & Cowling 1970, value from memory); the model "
+                                                    "equations relax at this p/mu"),
         "h_function_sampling_bias": Quantity(data["h_bias"], "1", "(B-1)/(2N) subtracted from h_function"),
         "momentum_drift": Quantity(data["momentum_drift"], "1", "max |mean velocity| / sqrt(kT/m) over time and replicas"),
         "energy_drift": Quantity(data["energy_drift"], "1", "max |energy per particle - 3/2| in units of kT"),
@@ -390,23 +388,28 @@ def _assemble(parameters, discretization, times, tau_c, mu_over_p, model, state,
     }
     if "mass_drift" in data:
         coefficients["mass_drift"] = Quantity(data["mass_drift"], "1", "max |density - 1| on the velocity grid")
-    for name in ("anisotropy", "heat_flux", "fourth_moment"):
-        fit = fits.get(name, None)
-        if fit is None:
-            fit = DecayFit(math.nan, math.nan, math.nan, math.nan, math.nan, 0, notes[name])
-        discretization[f"{name}_fit"] = {"t_first": fit.t_first, "t_last": fit.t_last, "n_points": fit.n_points,
-                                         "note": fit.note}
-        if not math.isfinite(fit.time):
+    for name in FIT_NAMES:
+        fit = fits[name]
+        discretization[f"{name}_fit"] = fit.record()
+        if not fit.ok:
             # Not defined for this start (e.g. no initial heat flux) or not resolved above
             # the noise: the time is left out, and the reason stays in the fit note.
             continue
-        label = name.replace("_", " ")
-        coefficients[f"{name}_relaxation_time"] = Quantity(fit.time, "1", f"{label} relaxation time in mean collision times")
+        label = f"{name.replace('_', ' ')} relaxation time ({fit.kind})"
+        coefficients[f"{name}_relaxation_time"] = Quantity(fit.time, "1", f"{label} in mean collision times")
         coefficients[f"{name}_relaxation_time_uncertainty"] = Quantity(
-            fit.time_uncertainty, "1", f"standard uncertainty of the {label} relaxation time")
-        coefficients[f"{name}_relaxation_time_s"] = Quantity(fit.time * tau_c, "s", f"{label} relaxation time")
+            fit.time_uncertainty, "1", f"standard uncertainty of the {label}, fit window included")
+        coefficients[f"{name}_relaxation_time_s"] = Quantity(fit.time * tau_c, "s", label)
         coefficients[f"{name}_relaxation_time_s_uncertainty"] = Quantity(
-            fit.time_uncertainty * tau_c, "s", f"standard uncertainty of the {label} relaxation time")
+            fit.time_uncertainty * tau_c, "s", f"standard uncertainty of the {label}, fit window included")
+    for (name, part), fit in extra.items():
+        discretization[f"{name}_{part}_fit"] = fit.record()
+        if not fit.ok:
+            continue
+        label = f"{name.replace('_', ' ')} {part} relaxation time 1/rate ({fit.kind})"
+        coefficients[f"{name}_{part}_relaxation_time"] = Quantity(fit.time, "1", f"{label} in mean collision times")
+        coefficients[f"{name}_{part}_relaxation_time_uncertainty"] = Quantity(
+            fit.time_uncertainty, "1", f"standard uncertainty of the {label}, fit window included")
     conv = ConvergenceRecord(np.zeros(0), iterations=int((n_output - 1) * discretization["steps_per_output"]),
                              status=CONVERGED, reason="", tolerance=MAX_ENERGY_DRIFT)
     return SolverResult(FAMILY, state.name, parameters, coords, profiles, coefficients, discretization, conv,
@@ -418,6 +421,46 @@ def _fit_opts(curves: np.ndarray) -> dict[str, float]:
     # common practice, no source); noise-free data: stop at 1e-4 of the start,
     # well above round-off of the moments (~1e-14)
     return {"min_fraction": 0.02} if curves.shape[0] >= 3 else {"min_fraction": 1e-4}
+
+
+def fit_kind(name: str, initial_state: str) -> str:
+    """What ``<name>_relaxation_time`` is for this initial state (see :func:`_relaxation_fits`)."""
+    if name in ("anisotropy", "heat_flux"):
+        return KIND_E_FOLDING
+    return KIND_TWO_EXPONENTIAL if initial_state in ("anisotropic", "two_beams") else KIND_EXPONENTIAL
+
+
+def _relaxation_fits(times, state, aniso, heat_x, m4):
+    """Headline fits per signal and the initial/late rates of anisotropy and heat flux.
+
+    anisotropy, heat flux: the time to fall by e (model free; the hard-sphere
+    decay is not exponential), plus the initial rate and the late rate.
+    <c^4> - 15: with an initial anisotropy, C exp(-r t) + D exp(-q t) with
+    q = 2 x the anisotropy rate (exact for Maxwell molecules and ES-BGK, see
+    :mod:`solver.relaxation.moments`); otherwise one exponential.
+    """
+    fits: dict[str, DecayFit] = {}
+    extra: dict[tuple[str, str], DecayFit] = {}
+    signals = {"anisotropy": (aniso, _has_anisotropy(state), "no initial anisotropy"),
+               "heat_flux": (heat_x, _has_heat_flux(state), "no initial heat flux")}
+    for name, (curves, present, why) in signals.items():
+        if not present:
+            fits[name] = nan_fit(why, KIND_E_FOLDING)
+            continue
+        fits[name] = e_folding_time(times, curves)
+        extra[(name, "initial")] = initial_rate(times, curves, fits[name].time)
+        extra[(name, "late")] = late_rate(times, curves, **_fit_opts(curves))
+    y4 = m4 - 15.0
+    if state.name == "equilibrium":
+        fits["fourth_moment"] = nan_fit("initial state is the equilibrium")
+    elif _has_anisotropy(state):
+        whole = fit_decay(times, aniso, **_fit_opts(aniso))
+        jack = exponential_rate_jackknife(times, aniso, whole)
+        fits["fourth_moment"] = fit_two_exponentials(
+            times, y4, 2.0 * whole.rate, None if jack is None else 2.0 * jack, **_fit_opts(y4))
+    else:
+        fits["fourth_moment"] = fit_decay(times, y4, **_fit_opts(y4))
+    return fits, extra
 
 
 def _failed(parameters, discretization, times, tau_c, t_wall, reason) -> SolverResult:
@@ -437,9 +480,14 @@ def _failed(parameters, discretization, times, tau_c, t_wall, reason) -> SolverR
     profiles["velocity_distribution_x"] = Quantity(nan_d, "1", "marginal distribution f_x(v_x)", ("time", "velocity_x"))
     profiles["velocity_distribution_x_std"] = Quantity(nan_d, "1", "replica standard deviation", ("time", "velocity_x"))
     coefficients = {"mean_collision_time_s": Quantity(tau_c, "s", "mean collision time")}
-    for name in ("anisotropy", "heat_flux", "fourth_moment"):
+    for name in FIT_NAMES:
         for suffix, units in (("", "1"), ("_uncertainty", "1"), ("_s", "s"), ("_s_uncertainty", "s")):
             coefficients[f"{name}_relaxation_time{suffix}"] = Quantity(math.nan, units, f"{name} relaxation time{suffix}")
+    for name in ("anisotropy", "heat_flux"):
+        for part in ("initial", "late"):
+            for suffix in ("", "_uncertainty"):
+                coefficients[f"{name}_{part}_relaxation_time{suffix}"] = Quantity(
+                    math.nan, "1", f"{name} {part} relaxation time{suffix}")
     conv = ConvergenceRecord(np.zeros(0), 0, FAILED, reason, MAX_ENERGY_DRIFT)
     return SolverResult(FAMILY, parameters["initial_state"], parameters, coords, profiles, coefficients,
                         discretization, conv, _time.perf_counter() - t_wall)

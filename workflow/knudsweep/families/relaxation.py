@@ -17,9 +17,11 @@ the numbers is in the path (state options, run settings, seed); p and T only
 scale the time axis to seconds but are part of the point as the study asks
 for them.
 
-Tables: ``relaxation_times`` (CSV + Markdown, units in the headers): the fitted
+Tables: ``relaxation_times`` (CSV + Markdown, units in the headers): the
 anisotropy, heat-flux and fourth-moment relaxation times with their standard
-uncertainty, in mean collision times and in seconds, per gas and point.
+uncertainty (fit window included), in mean collision times and in seconds, the
+kind of each time (time to fall by e, or fitted rate), and the initial and late
+anisotropy and heat-flux times, per gas and point.
 
 Figures (per initial state, at the first pressure and temperature; reduced
 time does not depend on p and T): ``relaxation_h_<state>`` H(t) with the
@@ -228,6 +230,8 @@ class Relaxation(Family):
     def tables(self, ds, section: dict[str, Any]) -> dict[str, Table]:
         import pandas as pd
 
+        from solver.relaxation.solve import fit_kind
+
         rows = []
         dims = self.gather_dims(section)
         for gas in dims["gas"]:
@@ -247,20 +251,37 @@ class Relaxation(Family):
                                        "mean collision time [s]": val("mean_collision_time_s")}
                                 for f in FIT_NAMES:
                                     lab = f.replace("_", " ")
+                                    row[f"{lab} time kind"] = fit_kind(f, st)
                                     row[f"{lab} time [tau_c]"] = val(f"{f}_relaxation_time")
                                     row[f"{lab} time uncertainty [tau_c]"] = val(f"{f}_relaxation_time_uncertainty")
                                     row[f"{lab} time [s]"] = val(f"{f}_relaxation_time_s")
                                     row[f"{lab} time uncertainty [s]"] = val(f"{f}_relaxation_time_s_uncertainty")
+                                    if f == "fourth_moment":
+                                        continue
+                                    for part in ("initial", "late"):
+                                        row[f"{lab} {part} time [tau_c]"] = val(f"{f}_{part}_relaxation_time")
+                                        row[f"{lab} {part} time uncertainty [tau_c]"] = val(
+                                            f"{f}_{part}_relaxation_time_uncertainty")
                                 row["status"] = str(sel["status"].values) if "status" in sel else "missing"
                                 rows.append(row)
         notes = [
             "tau_c = mean collision time of the molecular model at (p, T): lambda / c_mean with Bird's "
             "viscosity-based free path, tau_c = f mu(T)/p, f = (7-2w)(5-2w)/30 [x 6a/((a+1)(a+2)) for VSS].",
-            "Relaxation times: exponential fits y = a exp(-t/tau) to the anisotropy of the temperature tensor, "
-            "the heat flux and <c^4> - 15; uncertainty: jackknife over replicas (particles) or slope "
-            "standard error (model equations).  Empty: no such initial non-equilibrium, or the point failed.",
-            "Exact for Maxwell molecules (Truesdell & Muncaster 1980): anisotropy time 2 tau_c (= mu/p), "
-            "fourth-moment and heat-flux time 3 tau_c (= 1.5 mu/p).",
+            "Calibration: mu is the first Chapman-Enskog viscosity of the molecular model (Bird 1994), also for "
+            "the p/mu of the model equations; for hard spheres the converged viscosity is about 1.6 % larger "
+            "(Chapman & Cowling 1970; not used).",
+            "'<signal> time' is the kind named in '<signal> time kind': for the anisotropy of the "
+            "temperature tensor and the heat flux, the time to fall by e (model free; the hard-sphere decay is "
+            "not exponential); 'initial time' = 1 / (-d ln y/dt at t = 0) from a quadratic in ln y, "
+            "'late time' = exponential fit once y < y(0)/e^2.  For <c^4> - 15 from an anisotropic start: "
+            "C exp(-t/tau) + D exp(-2 t/tau_aniso) with tau_aniso the anisotropy fit (exact form for Maxwell "
+            "molecules and ES-BGK); otherwise one exponential.",
+            "Uncertainties: standard uncertainty = statistical (jackknife over replicas; noise-free model "
+            "equations: slope standard error) combined with the fit-window dependence (change of the estimate "
+            "when the window is shortened, beyond the noise of that change).  Empty: no such initial "
+            "non-equilibrium, not resolved above the noise, or the point failed.",
+            "Exact for Maxwell molecules (Truesdell & Muncaster 1980; solver/relaxation/moments.py): anisotropy "
+            "time 2 tau_c (= mu/p), fourth-moment and heat-flux time 3 tau_c (= 1.5 mu/p).",
         ]
         return {"relaxation_times": Table(pd.DataFrame(rows), "Relaxation times", notes)}
 
