@@ -226,11 +226,11 @@ def test_hard_sphere_anisotropy_is_not_exponential():
     ("bkw", {}),
 ])
 def test_maxwell_fourth_moment_time_within_two_percent(state, kw):
-    # 6.4e6 particle-replicas: u ~ 0.4-0.5 % (anisotropic start with a strong
+    # 6.4e6 particle-replicas: u ~ 0.3-0.7 % (anisotropic start with a strong
     # anisotropy: the <c^4> signal is 2 tr(sigma^2) = 7.7; with the default
     # (1.8, 0.6, 0.6) it is 1.9 and u ~ 1.5 %, see the next test)
     r = _maxwell(state, n=200_000, reps=32, seed=31, **kw)
-    tau, _ = _covers(r, "fourth_moment", 3.0, 0.007)
+    tau, _ = _covers(r, "fourth_moment", 3.0, 0.01)
     assert abs(tau / 3.0 - 1.0) < 0.02
 
 
