@@ -471,3 +471,74 @@ def build_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict
     for problem in section["problems"]:
         figs[f"plane_channel_convergence_{problem}"] = _convergence_figure(ds, section, settings, problem)
     return figs
+
+
+# ---------------------------------------------------------------- report captions
+def _plain_wall(lower: dict, upper: dict | None) -> str:
+    from knudsweep.plot_style import wall_text
+
+    return wall_text(lower, upper).replace("$", "").replace("\\alpha", "alpha")
+
+
+def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
+    """Report caption (reStructuredText) of every figure: what is shown, models, walls, uncertainty."""
+    from knudsweep.plot_style import model_text, problem_text
+    from knudsweep.report import relative_error_sentence, status_sentence
+
+    walls = _walls(section)
+    models = ", ".join(model_text(m) for m in section["models"])
+    wall_list = "; ".join(_plain_wall(lo, up) for lo, up in walls.values())
+    delta = ds["delta"].values.astype(float)
+    span = f"delta = {delta.min():g} to {delta.max():g} ({delta.size} values)"
+    c = section["conditions"]
+    out = {}
+    for problem in section["problems"]:
+        key = MAIN_COEFFICIENT[problem]
+        name = f"plane_channel_{key}_vs_delta"
+        text = [
+            f"Reduced flow rate {key} of {problem_text(problem)} between parallel plates against the rarefaction "
+            f"parameter delta = p a / (mu v0) (a = plate gap), {span}. Kinetic models: {models} (large open "
+            f"markers BGK, small filled markers S-model). Walls (both plates): {wall_list}. Gas-independent "
+            f"(reduced variables); the tables convert to Pa and SI flow rates for {', '.join(section['gases'])} at "
+            f"{c['temperature']:g} K and a {c['gap']:g} m gap.",
+        ]
+        if len(section["models"]) > 1:
+            text.append(f"Lower panel: difference of the models in percent of the {model_text(section['models'][0])} "
+                        "value.")
+        if key == "G_P":
+            text.append(
+                "References (thin dark grey, drawn only where they apply): no-slip continuum delta/6 and first-order "
+                f"slip delta/6 + sigma_P for delta >= {SLIP_MIN_DELTA:g} (sigma_P = {SIGMA_P_DIFFUSE} for diffuse "
+                "walls, BGK, Sone's k0, from memory and unconfirmed, times Maxwell's (2 - alpha)/alpha); the "
+                "free-molecular asymptotic form -((2 - alpha)/alpha) ln(delta)/sqrt(pi) + c for delta <= "
+                f"{FREE_MOLECULAR_FIG_MAX_DELTA:g}, with c matched to the computed value at the smallest delta (a "
+                "shape reference, not an independent limit; the (2 - alpha)/alpha factor is approximate, no source).")
+        elif key == "G_T":
+            text.append(
+                "References: first-order thermal slip sigma_T/delta for delta >= "
+                f"{SLIP_MIN_DELTA:g} with sigma_T matched to the computed value at the largest delta (a shape "
+                f"reference; for BGK with diffuse walls Sone's K1 gives sigma_T = {SIGMA_T_DIFFUSE_BGK}, from memory, "
+                "unconfirmed), and the free-molecular form with half the slope of G_P, matched at the smallest delta.")
+        text.append(relative_error_sentence(ds, key, {"problem": problem}, key))
+        text.append(status_sentence(ds, {"problem": problem}))
+        out[name] = "\n\n".join(text)
+    if "poiseuille" in section["problems"]:
+        out["plane_channel_correction_vs_kn"] = "\n\n".join([
+            "Flow-rate correction factor G_P / (delta/6): the Poiseuille flow rate relative to no-slip continuum flow, "
+            "against the Knudsen number Kn = sqrt(pi)/(2 delta) (the axis on which correction factors are usually "
+            f"quoted; delta on the top axis). Kinetic models: {models} (large open markers BGK, small filled "
+            f"markers S-model). Walls: {wall_list}. The dotted line at 1 is the no-slip continuum.",
+            relative_error_sentence(ds, "G_P", {"problem": "poiseuille"}, "G_P"),
+            status_sentence(ds, {"problem": "poiseuille"}),
+        ])
+    tol = section["resolution"]["tol"]
+    for problem in section["problems"]:
+        out[f"plane_channel_convergence_{problem}"] = "\n\n".join([
+            f"Convergence of the iterative solution, {problem_text(problem)}. Top: iterations each point needed "
+            f"to reach the tolerance against delta (colour and marker: wall; open/filled: BGK/S-model). Below, "
+            f"one panel per kinetic model ({models}): the relative change of the iterate per iteration for every "
+            f"wall and delta (colour: log10 delta), with the tolerance {tol:g} as a dashed line. Walls: {wall_list}. "
+            "Long histories are sampled at log-spaced iterations in the gathered sweep.",
+            status_sentence(ds, {"problem": problem}),
+        ])
+    return out

@@ -682,3 +682,76 @@ def _pressure_figures(ds, section, settings, geos, walls):
     ps.bottom_legend(fig, handles, labels, ncol=2)
     out["tube_duct_thermal_transpiration"] = fig
     return out
+
+
+# ---------------------------------------------------------------- report captions
+def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
+    """Report caption (reStructuredText) of every figure: what is shown, models, walls, uncertainty."""
+    from knudsweep.plot_style import model_text, problem_text, wall_text
+    from knudsweep.report import relative_error_sentence, status_sentence
+
+    def plain(text):
+        return text.replace("$", "").replace("\\alpha", "alpha").replace("\\times", "x")
+
+    geos = geometry_settings(section)
+    walls = wall_settings(section)
+    c = section["conditions"]
+    geo_list = "; ".join(plain(_geometry_label(section, s, a)) for _, s, a in geos)
+    wall_list = "; ".join(plain(wall_text(w)) for _, w in walls)
+    delta = ds["delta"].values.astype(float)
+    span = f"delta = {delta.min():g} to {delta.max():g} ({delta.size} values)"
+    out = {}
+    for problem in section["problems"]:
+        key = MAIN_COEFFICIENT[problem]
+        for model in section["models"]:
+            text = [
+                f"Reduced flow rate {key} of {problem_text(problem)} through long channels against the rarefaction "
+                f"parameter delta = p a / (mu v0), a = tube radius or duct height, {span}. Kinetic model: "
+                f"{model_text(model)}. Cross-sections (colour and marker): {geo_list}. Walls (filled, open marker): "
+                f"{wall_list}. Markers are computed points, curves monotone (PCHIP) interpolations in log-log.",
+            ]
+            if key == "G_P":
+                text.append(
+                    f"References (thin dark grey): no-slip continuum and first-order slip for delta >= "
+                    f"{SLIP_MIN_DELTA:g} (sigma_P = {SIGMA_P_DIFFUSE} for diffuse walls, from memory, unconfirmed, "
+                    "times (2 - alpha)/alpha, alpha_t for Cercignani-Lampis walls, approximate); free molecular for "
+                    f"delta <= {FREE_MOLECULAR_FIG_MAX_DELTA:g}: Knudsen's 8/(3 sqrt(pi)) for the tube, the quadrature "
+                    "of solver.duct for ducts, times Smoluchowski's (2 - alpha)/alpha, for Maxwell walls only (no "
+                    "source was at hand for the Cercignani-Lampis factor).")
+            else:
+                text.append(
+                    f"References: thermal slip, a 1/delta law matched to the computed value at the largest delta, "
+                    f"for delta >= {SLIP_MIN_DELTA:g}; free molecular G_T = G_P/2 (Knudsen 1909) for delta <= "
+                    f"{FREE_MOLECULAR_FIG_MAX_DELTA:g}, Maxwell walls only.")
+            text.append(relative_error_sentence(ds, key, {"problem": problem, "model": model}, key))
+            text.append(status_sentence(ds, {"problem": problem, "model": model}))
+            out[f"tube_duct_{key}_vs_delta_{model}"] = "\n\n".join(text)
+    if set(PROBLEMS) <= set(section["problems"]):
+        gas, model = section["gases"][0], section["models"][0]
+        wl, w0 = walls[0]
+        ratios = sorted(c["pressure_ratios"])
+        p_out = common_outlet_pressure(section, geos, gas, delta, float(max(ratios)))
+        note = (f"Gas {gas} at {c['temperature']:g} K, kinetic model {model_text(model)}, walls "
+                f"{plain(wall_text(w0))} (the first model and wall of the study); cross-sections: {geo_list}; "
+                f"length {c['length']:g} m.")
+        out["tube_duct_flow_vs_pressure_ratio"] = "\n\n".join([
+            "Mass flow through the long channel at finite pressure ratio p_in/p_out, from the computed G_P and G_T "
+            "integrated along the channel (solver.conductance.flow_at_pressure_ratio; end effects neglected). "
+            f"The outlet pressure is the same for all cross-sections, p_out = {p_out:.3g} Pa, chosen so that "
+            "the whole channel stays inside the computed delta range. Markers at the study's ratios "
+            f"({', '.join(f'{r:g}' for r in ratios)}), curves monotone interpolations between them. " + note,
+            "Uncertainty: the interpolation of G_P between computed delta values and the numerical error of "
+            "the points (see the G_P caption); no model error.",
+        ])
+        th = c["thermal"]
+        out["tube_duct_thermal_transpiration"] = "\n\n".join([
+            f"Thermal transpiration: pressure ratio p_hot/p_cold at zero net flow between ends at "
+            f"{th['t_cold']:g} K and {th['t_hot']:g} K, against the cold-side pressure, from d ln p / d ln T = "
+            "G_T/G_P integrated along the channel (solver.conductance.thermomolecular_pressure_ratio). Drawn "
+            "only where the cold end lies inside the computed delta range; markers where it sits on a computed "
+            "delta. References: the free-molecular limit sqrt(T_hot/T_cold) (Knudsen 1909) and the continuum "
+            "limit 1. " + note,
+            "Uncertainty: the interpolation of G_T/G_P between computed delta values (monotone, PCHIP in "
+            "log-log) and the numerical error of the points; no model error.",
+        ])
+    return out
