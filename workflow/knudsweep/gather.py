@@ -18,6 +18,15 @@ A batch file that cannot be read is removed with one error line naming it, and
 the gather fails: the next run redoes that batch (reusing its valid point
 files) and gathers again.
 
+Time series: a family whose class sets ``series_dim`` (the relaxation family:
+``"time"``) also gets every 1-D variable along that dimension of its converged
+points (H-function, anisotropy, moments with their replica spreads), read from
+the point files after the same check the batch job made (identity, checksum,
+version; :func:`knudsweep.point_files.read_point_record`).  The points share
+the grid of that dimension (it comes from study-wide run settings); a point
+whose grid differs is left NaN with a warning.  Figures then draw from
+``sweep.nc`` alone.
+
 Provenance: the variable ``code_version`` records, per point, the solver version
 that computed it.
 """
@@ -94,11 +103,14 @@ def history_coordinate(max_len: int) -> np.ndarray:
     return np.unique(np.round(np.geomspace(1, max_len, HISTORY_SAMPLES)).astype(int))
 
 
-def gather_family(family, section: dict[str, Any], points, records: dict[str, dict[str, Any]]) -> xr.Dataset:
+def gather_family(family, section: dict[str, Any], points, records: dict[str, dict[str, Any]],
+                  root: str | os.PathLike = ".") -> xr.Dataset:
     """Dataset of one family on its grid.
 
     ``points``: the family's :class:`knudsweep.families.Point` list; ``records``:
     point id -> record (:mod:`knudsweep.point_files`) of the points that have one.
+    A family with ``series_dim`` also gets its time series from the point files
+    below ``root`` (:func:`gather_series`).
     """
     dims = family.gather_dims(section)
     names = list(dims)
@@ -160,7 +172,68 @@ def gather_family(family, section: dict[str, Any], points, records: dict[str, di
     data_vars["iterations"] = (names, iterations, {"units": "1", "long_name": "iterations used (-1: no file)"})
     data_vars["wall_time"] = (names, wall_time, {"units": "s", "long_name": "solver wall-clock time"})
     data_vars["residual"] = (names + ["iteration"], residual, {"units": "1", "long_name": "relative change of the iterate per iteration (sampled)"})
-    return xr.Dataset(data_vars=data_vars, coords=coords, attrs={"family": family.name})
+    ds = xr.Dataset(data_vars=data_vars, coords=coords, attrs={"family": family.name})
+    dim = getattr(family, "series_dim", None)
+    if dim:
+        from knudsweep.plan import RESULTS
+
+        paths = {p.pid: Path(root) / RESULTS / p.relpath for p in points}
+        series = gather_series(family, section, points, records, paths, dim)
+        if series:
+            ds = ds.assign_coords({dim: series.pop(dim)}).assign(series)
+    return ds
+
+
+def gather_series(family, section: dict[str, Any], points, records: dict[str, dict[str, Any]],
+                  paths: dict[str, str | os.PathLike], dim: str) -> dict[str, Any]:
+    """Variables along ``dim`` of the converged ``points``: ``{name: (dims, array, attrs)}`` plus the
+    ``dim`` coordinate, on the family's grid (NaN where a point has none)."""
+    import netCDF4
+
+    from knudsweep.point_files import read_point_record
+
+    dims = family.gather_dims(section)
+    names = list(dims)
+    shape = tuple(len(v) for v in dims.values())
+    lookup = {d: {label: i for i, label in enumerate(v)} for d, v in dims.items()}
+    coord = None
+    coord_attrs: dict[str, Any] = {}
+    arrays: dict[str, np.ndarray] = {}
+    attrs: dict[str, dict] = {}
+    for p in points:
+        rec = records.get(p.pid)
+        if rec is None or rec["status"] != "converged":
+            continue
+        ok, why = read_point_record(paths[p.pid], p.pid, p.values)
+        if ok is None:
+            log.warning("time series of %s not gathered: %s", p.pid, why)
+            continue
+        with netCDF4.Dataset(str(paths[p.pid]), "r") as nc:
+            nc.set_auto_mask(False)
+            if dim not in nc.variables:
+                continue
+            t = np.asarray(nc.variables[dim][:], dtype=float)
+            if coord is None:
+                coord = t
+                coord_attrs = {k: str(nc.variables[dim].getncattr(k)) for k in ("units", "long_name")
+                               if k in nc.variables[dim].ncattrs()}
+            elif t.shape != coord.shape or not np.allclose(t, coord, rtol=1e-12, atol=0.0):
+                log.warning("time series of %s not gathered: its %s grid differs from the other points'",
+                            p.pid, dim)
+                continue
+            idx = tuple(lookup[d][p.index[d]] for d in names)
+            for name, var in nc.variables.items():
+                if var.dimensions != (dim,) or name == dim:
+                    continue
+                if name not in arrays:
+                    arrays[name] = np.full(shape + (coord.size,), np.nan)
+                    attrs[name] = {k: str(var.getncattr(k)) for k in ("units", "long_name") if k in var.ncattrs()}
+                arrays[name][idx] = np.asarray(var[:], dtype=float)
+    if coord is None:
+        return {}
+    out: dict[str, Any] = {name: (names + [dim], arr, attrs[name]) for name, arr in sorted(arrays.items())}
+    out[dim] = (dim, coord, coord_attrs)
+    return out
 
 
 def gather_study(plan, output: str | os.PathLike, workers: int = 1, root: str = ".") -> dict[str, xr.Dataset]:
@@ -176,7 +249,7 @@ def gather_study(plan, output: str | os.PathLike, workers: int = 1, root: str = 
     for fam_name in plan.families:
         fam = get_family(fam_name)
         points = [p for p in plan.points.values() if p.family == fam_name]
-        datasets[fam_name] = gather_family(fam, plan.study[fam_name], points, records)
+        datasets[fam_name] = gather_family(fam, plan.study[fam_name], points, records, root=root_path)
     write_sweep(datasets, output, {
         "Conventions": "CF-1.11",
         "title": f"knudsweep study {plan.name}",

@@ -27,14 +27,14 @@ Figures (per initial state, at the first pressure and temperature; reduced
 time does not depend on p and T): ``relaxation_h_<state>`` H(t) with the
 replica noise band of the particle runs against the deterministic curves, and
 ``relaxation_anisotropy_<state>`` |anisotropy| on a log axis with the fitted
-exp(-t/tau).  Time series come from the gathered sweep when it holds them
-(variables with a ``time`` dimension), otherwise from the point files.
+exp(-t/tau).  Time series come from the gathered sweep only (gather puts
+them there, see ``series_dim``); a sweep without them gives "no data" panels.
 """
 
 from __future__ import annotations
 
 import math
-import os
+
 from typing import Any
 
 import numpy as np
@@ -96,6 +96,7 @@ def _run_label(run: dict[str, Any]) -> str:
 
 class Relaxation(Family):
     name = "relaxation"
+    series_dim = "time"  # gather puts the time series of the points into sweep.nc (knudsweep.gather)
 
     def check_section(self, section: dict[str, Any]) -> None:
         from solver.relaxation.initial_states import make_initial_state
@@ -294,119 +295,169 @@ class Relaxation(Family):
         return out
 
     def figures(self, ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
-        import matplotlib.pyplot as plt
+        return _relaxation_figures(ds, section, settings, self.figure_names(section))
 
-        from knudsweep.figures import STYLE
 
-        series = self._series(ds, section)
-        gases = list(section["gases"])
-        figs = {}
+# ---------------------------------------------------------------- figures (from sweep.nc only)
+NOISE_SE = 2.0  # a particle curve ends where its mean falls below 2 standard errors (noise)
 
-        def panels():
-            # One panel per gas, side by side, sharing the axes.
-            with plt.rc_context(STYLE):
-                fig, axes = plt.subplots(1, len(gases), figsize=(settings["width"] * (0.55 + 0.45 * len(gases)),
-                                                                   settings["height"]),
-                                         sharey=True, squeeze=False, layout="constrained")
-            return fig, dict(zip(gases, axes[0]))
 
-        for st in section["initial_states"]:
-            curves = series.get(st, [])
-            fig, axes = panels()
-            for gas, ax in axes.items():
-                mine = [c for c in curves if c["gas"] == gas]
-                for c in mine:
-                    if c["method"] == "dsmc":
-                        line = ax.plot(c["time"], c["h"], lw=1.2, label=f"{c['short']} (band: replica sd)")[0]
-                        ax.fill_between(c["time"], c["h"] - c["h_std"], c["h"] + c["h_std"],
-                                        color=line.get_color(), alpha=0.25, lw=0)
-                    else:
-                        ax.plot(c["time"], c["h"], lw=1.4, ls="--", label=c["short"])
-                # Linear near zero, logarithmic above: shows both the decay over
-                # decades and the late-time fluctuation inside the noise band.
-                ax.set_yscale("symlog", linthresh=1e-4)
-                ax.set_xlabel("time [mean collision times]")
-                ax.set_title(f"{gas}, initial state {st}", fontsize="medium")
-                _finish(ax, mine)
-            next(iter(axes.values())).set_ylabel("relative H-function (binned) [1], symlog")
-            figs[f"relaxation_h_{st}"] = fig
-            if st not in ("anisotropic", "two_beams"):
-                continue
-            fig, axes = panels()
-            for gas, ax in axes.items():
-                mine = [c for c in curves if c["gas"] == gas]
-                a0 = max((abs(float(c["aniso"][0])) for c in mine), default=1.0)
-                floor = 1e-3 * a0  # below this the particle curves are noise
-                for c in mine:
-                    a = np.abs(c["aniso"])
-                    tau = c["tau"]
-                    fit = f", fit tau = {tau:.3g} tau_c" if np.isfinite(tau) and tau > 0 else ""
-                    style = "-" if c["method"] == "dsmc" else "--"
-                    line = ax.semilogy(c["time"], np.where(a > floor, a, np.nan), ls=style, lw=1.2,
-                                       label=c["short"] + fit)[0]
-                    if c["method"] == "dsmc":
-                        lo = np.clip(a - c["aniso_std"], floor, None)
-                        ax.fill_between(c["time"], lo, np.maximum(a + c["aniso_std"], floor),
-                                        color=line.get_color(), alpha=0.2, lw=0)
-                    if fit:
-                        ax.semilogy(c["time"], abs(c["aniso"][0]) * np.exp(-c["time"] / tau), ls=":",
-                                    color=line.get_color(), lw=1.0)
-                ax.set_ylim(floor, 2.0 * a0)
-                ax.set_xlabel("time [mean collision times]")
-                ax.set_title(f"{gas}, initial state {st} (dotted: fitted exp(-t/tau))", fontsize="medium")
-                _finish(ax, mine)
-            next(iter(axes.values())).set_ylabel("|anisotropy of T_ij| / T [1]")
-            figs[f"relaxation_anisotropy_{st}"] = fig
-        return figs
-
-    def _series(self, ds, section: dict[str, Any]) -> dict[str, list[dict]]:
-        """Time series at the first pressure and temperature, per initial state."""
-        from solver.netcdf_io import read_result
-
-        p0, t0 = canonical(section["pressures"][0]), canonical(section["temperatures"][0])
-        from_sweep = "h_function" in ds and "time" in ds["h_function"].dims
-        out: dict[str, list[dict]] = {}
-        for pt in self.points(section):
-            if pt.values["pressure"] != p0 or pt.values["temperature"] != t0:
-                continue
-            ix = pt.index
-            label = f"{ix['gas']} {ix['molecular_model']} {ix['solver']}"
-            if from_sweep:
-                sel = ds.sel(gas=ix["gas"], pressure=p0, temperature=t0, initial_state=ix["initial_state"],
-                             molecular_model=ix["molecular_model"], solver=ix["solver"])
+def _curves(ds, section, state: str) -> list[dict]:
+    """Converged time series of one initial state at the first pressure and temperature, from the sweep."""
+    if "time" not in ds.dims or "h_function" not in ds:
+        return []
+    p0, t0 = canonical(section["pressures"][0]), canonical(section["temperatures"][0])
+    n_rep = max(int(_options(section)[1]["n_replicas"]), 1)
+    t = np.asarray(ds["time"].values, float)
+    out = []
+    for gas in ds["gas"].values:
+        for m, model in enumerate(ds["molecular_model"].values):
+            for solver in ds["solver"].values:
+                sel = ds.sel(gas=gas, pressure=p0, temperature=t0, initial_state=state,
+                             molecular_model=model, solver=solver)
                 if str(sel["status"].values) != "converged":
                     continue
-                get = {k: np.asarray(sel[k].values, dtype=float) for k in
-                       ("h_function", "h_function_std", "anisotropy", "anisotropy_std")}
-                get["time"] = np.asarray(ds["time"].values, dtype=float)
-                tau = (float(sel["anisotropy_relaxation_time"].values)
-                       if "anisotropy_relaxation_time" in sel else float("nan"))
-            else:
-                path = f"results/points/{pt.pid}.nc"
-                if not os.path.exists(path):
-                    continue
-                res = read_result(path)
-                if res.status != "converged":
-                    continue
-                get = {k: res.profiles[k].value for k in ("h_function", "h_function_std", "anisotropy",
-                                                          "anisotropy_std")}
-                get["time"] = res.coords["time"].value
-                q = res.coefficients.get("anisotropy_relaxation_time")
-                tau = float(q.value) if q is not None else float("nan")
-            out.setdefault(ix["initial_state"], []).append({
-                "method": pt.values["method"], "label": label, "gas": ix["gas"],
-                "short": f"{ix['molecular_model']} {ix['solver']}", "time": get["time"], "h": get["h_function"],
-                "h_std": get["h_function_std"], "aniso": get["anisotropy"], "aniso_std": get["anisotropy_std"],
-                "tau": tau,
-            })
-        return out
+                method, _ = _parse_solver(str(solver))
+
+                def get(name):
+                    return np.asarray(sel[name].values, float) if name in sel else np.full(t.shape, np.nan)
+
+                tau = float(sel["anisotropy_relaxation_time"].values) if "anisotropy_relaxation_time" in sel \
+                    else float("nan")
+                out.append({"gas": str(gas), "model": str(model), "m": m, "method": method, "time": t,
+                            "h": get("h_function"), "h_se": get("h_function_std") / math.sqrt(n_rep),
+                            "aniso": get("anisotropy"), "aniso_se": get("anisotropy_std") / math.sqrt(n_rep),
+                            "tau": tau})
+    return out
 
 
-def _finish(ax, curves) -> None:
-    if curves:
-        ax.legend(fontsize="x-small")
-    else:
-        ax.text(0.5, 0.5, "no data", transform=ax.transAxes, ha="center", va="center")
+def _until_noise(y: np.ndarray, se: np.ndarray) -> int:
+    """Number of leading samples above the noise (y > NOISE_SE standard errors and y > 0)."""
+    bad = ~(np.isfinite(y) & (y > 0) & (y > NOISE_SE * np.nan_to_num(se)))
+    return int(np.argmax(bad)) if bad.any() else y.size
+
+
+def _draw_curve(ax, c, y, se):
+    from knudsweep import plot_style as ps
+
+    col = ps.color(c["m"])
+    if c["method"] == "dsmc":
+        n = _until_noise(y, se)
+        if n:
+            ax.fill_between(c["time"][:n], np.maximum(y[:n] - se[:n], y[:n] * 1e-3), y[:n] + se[:n],
+                            color=col, alpha=0.22, lw=0, zorder=2)
+            ax.plot(c["time"][:n], y[:n], color=col, lw=1.3, zorder=3)
+        return
+    ok = np.isfinite(y) & (y > 0)
+    every = max(len(y) // 6, 1)
+    start = 0 if c["method"] == "bgk" else every // 2  # markers of the models side by side, not on top
+    ax.plot(c["time"][ok], y[ok], color=col, marker=ps.marker(c["m"]), markevery=(start, every),
+            **ps.model_line(c["method"]), **ps.model_marker(c["method"]), zorder=3)
+
+
+def _legend(fig, ax, section, with_fit: bool):
+    from knudsweep import plot_style as ps
+
+    handles, labels = [], []
+    for m, model in enumerate(section["molecular_models"]):
+        handles.append(ax.plot([], [], color=ps.color(m), marker=ps.marker(m), lw=1.3, ms=5)[0])
+        labels.append(ps.molecular_text(model))
+    for method in section["methods"]:
+        if method == "dsmc":
+            from matplotlib.patches import Patch
+
+            handles.append((Patch(color="0.4", alpha=0.3, lw=0), ax.plot([], [], color="0.35", lw=1.3)[0]))
+            labels.append("DSMC, band: ±1 standard error of the replica mean")
+        else:
+            handles.append(ax.plot([], [], color="0.35", marker="o", **ps.model_line(method),
+                                   **ps.model_marker(method))[0])
+            labels.append(ps.model_text(method))
+    if with_fit:
+        handles.append(ax.plot([], [], **ps.reference("fit"))[0])
+        labels.append(r"$\exp(-t/\tau)$, $\tau$ = time to fall by $e$ (table)")
+    ps.bottom_legend(fig, handles, labels, ncol=2)
+
+
+def _relaxation_figures(ds, section, settings, names) -> dict[str, Any]:
+    from knudsweep import plot_style as ps
+    from knudsweep.figures import new_figure
+
+    gases = list(section["gases"])
+    figs = {}
+    size = (0.55 + 0.45 * len(gases), 1.25)
+    for st in section["initial_states"]:
+        curves = _curves(ds, section, st)
+        fig, axes = new_figure(settings, mosaic=[gases], scale=size, sharey=True)
+        for gas in gases:
+            ax = axes[gas]
+            mine = [c for c in curves if c["gas"] == gas]
+            for c in mine:
+                _draw_curve(ax, c, c["h"], c["h_se"])
+            ax.set_yscale("log")
+            ax.set_xlabel(r"time $t/\tau_c$ (mean collision times)")
+            ax.set_title(f"{gas}, {ps.state_text(st)}", fontsize="medium")
+            if not mine:
+                ps.no_data(ax, "no data")
+        axes[gases[0]].set_ylabel(r"relative H-function $H - H_\mathrm{eq}$ (binned)")
+        _legend(fig, axes[gases[0]], section, with_fit=False)
+        figs[f"relaxation_h_{st}"] = fig
+        if f"relaxation_anisotropy_{st}" not in names:
+            continue
+        fig, axes = new_figure(settings, mosaic=[gases], scale=size, sharey=True)
+        a0 = max((abs(float(c["aniso"][0])) for c in curves if np.isfinite(c["aniso"][0])), default=1.0)
+        for gas in gases:
+            ax = axes[gas]
+            mine = [c for c in curves if c["gas"] == gas]
+            taus = []
+            for c in mine:
+                a = np.abs(c["aniso"])
+                _draw_curve(ax, c, a, c["aniso_se"])
+                if np.isfinite(c["tau"]) and c["tau"] > 0:
+                    ax.plot(c["time"], abs(c["aniso"][0]) * np.exp(-c["time"] / c["tau"]), **ps.reference("fit"))
+                    taus.append(f"{ps.molecular_text(c['model'])}, {ps.model_text(c['method'])}: "
+                                f"{ps.number(c['tau'])}")
+            if taus:
+                ax.text(0.98, 0.98, "$\\tau/\\tau_c$\n" + "\n".join(taus), transform=ax.transAxes, ha="right",
+                        va="top", fontsize="x-small", bbox={"fc": "white", "ec": "0.8", "alpha": 0.9})
+            ax.set_yscale("log")
+            ax.set_ylim(1e-3 * a0, 1.5 * a0)
+            ax.set_xlabel(r"time $t/\tau_c$ (mean collision times)")
+            ax.set_title(f"{gas}, {ps.state_text(st)}", fontsize="medium")
+            if not mine:
+                ps.no_data(ax, "no data")
+        axes[gases[0]].set_ylabel(r"$|$anisotropy of $T_{ij}|\,/\,T$")
+        _legend(fig, axes[gases[0]], section, with_fit=True)
+        figs[f"relaxation_anisotropy_{st}"] = fig
+    return figs
+
+
+def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
+    """Report caption (reStructuredText) of every relaxation figure."""
+    from knudsweep.plot_style import model_text, molecular_text, state_text
+
+    _, run = _options(section)
+    methods = ", ".join(model_text(m) for m in section["methods"])
+    models = ", ".join(molecular_text(m) for m in section["molecular_models"])
+    where = (f"at {section['pressures'][0]:g} Pa and {section['temperatures'][0]:g} K (reduced time does not "
+             f"depend on p and T); gases {', '.join(section['gases'])}, one panel each")
+    unc = (f"Uncertainty: DSMC curves are means over {int(run['n_replicas'])} replicas of "
+           f"{', '.join(str(int(n)) for n in section.get('n_particles', []))} particles with a band of one "
+           "standard error of the mean; each ends where it falls below 2 standard errors (noise). The model "
+           "equations are deterministic (velocity-grid error not estimated here). No model error included.")
+    out = {}
+    for st in section["initial_states"]:
+        out[f"relaxation_h_{st}"] = "\n\n".join([
+            f"Relative H-function of a homogeneous gas relaxing from the {state_text(st)} state, on a log axis "
+            f"against time in mean collision times, {where}. Methods: {methods} (DSMC solid with band; BGK thick "
+            f"translucent line with large open markers; S-model dashed with small filled markers). Molecular "
+            f"models (colour and marker): {models}. H is binned on equiprobable cells of the equilibrium and "
+            "corrected for the particle sampling bias.", unc])
+        out[f"relaxation_anisotropy_{st}"] = "\n\n".join([
+            f"Magnitude of the temperature-tensor anisotropy from the {state_text(st)} state against time, "
+            f"{where}. Methods: {methods}; molecular models: {models} (styles as in the H-function figure). "
+            "Dotted black: exp(-t/tau) from the initial value with tau the anisotropy time of the table (time to "
+            "fall by e); the box lists tau in mean collision times (exact for Maxwell molecules: 2).", unc])
+    return out
 
 
 FAMILY = Relaxation()
