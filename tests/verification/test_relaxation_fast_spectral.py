@@ -15,14 +15,12 @@ Sources beside each check:
 - Equilibrium: Q(M, M) = 0 for every Maxwellian M (ibid.).
 """
 
-import math
 
 import numpy as np
 import pytest
 
 from solver import gas
 from solver.relaxation import deterministic as det
-from solver.relaxation import dsmc  # noqa: F401  (compiled by the slow comparison)
 from solver.relaxation import fast_spectral as fs
 from solver.relaxation.bkw import BKW_FIRST_TIME, bkw_density, bkw_fourth_moment
 from solver.relaxation.cross_sections import MolecularModel, molecular_model
