@@ -168,7 +168,7 @@ def _axes_lines(ds, family) -> list[str]:
             shown = ", ".join(f"{v:g}" for v in vals) if vals.size <= 8 else \
                 f"{vals.size} values from {vals.min():g} to {vals.max():g}"
         else:
-            shown = ", ".join(plain_label(dim, str(v)) for v in vals)
+            shown = "; ".join(plain_label(dim, str(v)) for v in vals)
         lines.append(f"   * - {dim.replace('_', ' ')}\n     - {rst_escape(shown)}")
     return lines
 
