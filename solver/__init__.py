@@ -4,4 +4,4 @@ Pure numerics only: no workflow, no plotting.  Every solver returns a
 :class:`solver.result.SolverResult`; :mod:`solver.netcdf_io` writes it.
 """
 
-__version__ = "0.2.1"
+__version__ = "0.3.0"
