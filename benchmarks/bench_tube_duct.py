@@ -52,11 +52,30 @@ def run(label, solve, tol, cap):
     )
 
 
+def default_points():
+    """Seconds per duct point on the default grid (with its error estimate), best of two."""
+    solve_duct("poiseuille", delta=1.0, aspect_ratio=1.0, n_space=6, n_velocity=4)  # compile
+    print(f"\n{'duct default point':<28s} {'G_P':>12s} {'rel. estimate':>14s} {'t/s':>8s}")
+    for a in (1.0, 4.0, 20.0):
+        for d in (0.1, 1.0, 10.0):
+            best, res = math.inf, None
+            for _ in range(2):
+                t0 = time.perf_counter()
+                res = solve_duct("poiseuille", delta=d, aspect_ratio=a)
+                best = min(best, time.perf_counter() - t0)
+            g = res.coefficient("G_P")
+            print(f"{f'A={a:g} d={d:g}':<28s} {g:12.6g} {res.coefficient('G_P_error_estimate') / g:14.2e} {best:8.2f}")
+
+
 def main():
     ap = argparse.ArgumentParser(description=__doc__)
     ap.add_argument("--plain-cap", type=int, default=2000)
     ap.add_argument("--tol", type=float, default=1e-8)
+    ap.add_argument("--points-only", action="store_true", help="only the default-point timings of the duct")
     args = ap.parse_args()
+    if args.points_only:
+        default_points()
+        return
     print(f"numba threads: {numba.get_num_threads()}   tol = {args.tol:g}   plain cap = {args.plain_cap}")
     print(f"{'case':<28s} {'G':>12s} {'it_acc':>6s} {'t_acc/s':>8s} {'it_plain':>12s} {'t_plain/s':>10s}      {'it ratio':>9s} {'t ratio':>9s}")
     for d in (0.01, 1.0, 10.0, 100.0, 1000.0):
@@ -79,6 +98,9 @@ def main():
             args.tol,
             args.plain_cap,
         )
+
+
+    default_points()
 
 
 if __name__ == "__main__":
