@@ -131,7 +131,8 @@ def test_default_grid_estimate_honest_small_intermediate_large_delta(delta, aspe
     # Convergence study against a finer solve of the same equations (4x the
     # intervals; its own error ~1/12 of the default's, ratio ~3.5 per halving,
     # measured).  Measured on the default grid: actual/estimate 0.45-0.8 and
-    # actual 0.02-0.09 % for delta <= 1; at delta = 10 0.05 % and 0.33.
+    # actual 0.03-0.09 % for delta <= 1 (estimate 0.04-0.13 %); at delta = 10
+    # 0.07 % (estimate 0.14 %).
     res = _default_solve("poiseuille", delta, aspect)
     ref = solve_duct("poiseuille", delta=delta, aspect_ratio=aspect, n_space=97, n_velocity=16, tol=1e-10,
                      error_estimate=False)
@@ -148,7 +149,7 @@ def test_grid_convergence_delta_0_1_and_1(aspect):
     # Convergence study (issue 14): 13 -> 25 -> 49 nodes across the half height
     # (angles 4 -> 6 -> 8, speeds 9 -> 12 -> 16).  Differences must shrink by
     # at least 2 per step (second-order upwind, first order at the walls:
-    # measured 3-4), and the default (25) must lie within 0.1 % of the
+    # measured 2.8-5.4), and the default (25) must lie within 0.1 % of the
     # Richardson extrapolation of the last two levels (ratio 3.5).
     for delta in (0.1, 1.0):
         g = [solve_duct("poiseuille", delta=delta, aspect_ratio=aspect, n_space=n, n_velocity=v, tol=1e-10,
