@@ -308,7 +308,7 @@ def _solve_once(problem, delta, molecule, lower_wall, upper_wall, n_space, n_spe
         residuals=np.array(history), iterations=int(iterations), status=status, reason=reason, tolerance=tol
     )
     parameters = {
-        "problem": problem, "model": f"boltzmann_{molecule}", "delta": delta, "prandtl": 2.0 / 3.0,
+        "problem": problem, "model": f"boltzmann_{molecule}", "delta": delta, "prandtl": lb.prandtl_number(ns),
         "lower_wall_model": "maxwell", "lower_alpha": lower_wall.alpha,
         "upper_wall_model": "maxwell", "upper_alpha": upper_wall.alpha,
     }

@@ -16,6 +16,8 @@ from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, Solver
 from solver.walls import CercignaniLampisWall, MaxwellWall
 
 DELTA_RANGE = (1e-4, 1e4)
+# model names of the linearized Boltzmann equation -> molecule of solver.plane_channel.boltzmann_driver
+BOLTZMANN_MODELS = {"boltzmann_hard_sphere": "hard_sphere"}
 # relative change per iteration: below 1e-14 it is round-off of the double-precision sweep
 TOL_RANGE = (1e-14, 1e-2)
 DEFAULT_MAX_ITER_PLAIN = 200_000
@@ -132,7 +134,10 @@ def solve_plane_channel(
     ----------
     problem : "poiseuille", "thermal_creep", "couette" or "heat_transfer".
     delta : rarefaction parameter p a / (mu v0), a = gap, in [1e-4, 1e4].
-    model : kinetic model, "bgk", "s_model" or "es_bgk" (solver.kinetic_models).
+    model : kinetic model, "bgk", "s_model" or "es_bgk" (solver.kinetic_models), or
+        "boltzmann_hard_sphere": the linearized Boltzmann equation
+        (``boltzmann_driver``; poiseuille and thermal_creep, Maxwell walls,
+        delta in [1e-3, 1e3], n_velocity = speed nodes in [4, 24]).
     lower_wall, upper_wall : solver.walls.MaxwellWall / CercignaniLampisWall;
         upper_wall None means the same as lower_wall.
     n_space : cells across the gap (default from delta, grids.default_n_space).
@@ -162,6 +167,9 @@ def solve_plane_channel(
     the resolution used, the estimate and how it was obtained.
     A run that does not converge is returned with status "failed" and a reason.
     """
+    if isinstance(model, str) and model in BOLTZMANN_MODELS:
+        return _solve_boltzmann(problem, model, delta, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol,
+                                accelerate, accuracy, error_estimate)
     t0 = time.perf_counter()
     if upper_wall is None:
         upper_wall = lower_wall
@@ -192,6 +200,24 @@ def solve_plane_channel(
         t_start=t0,
         coarse_how="one coarser ladder step (half the cells, 3/4 of the velocity nodes)",
         ladder_how="accuracy-driven refinement along grids.resolution_ladder",
+    )
+
+
+def _solve_boltzmann(problem, model, delta, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol, accelerate,
+                     accuracy, error_estimate) -> SolverResult:
+    """The linearized Boltzmann equation (``boltzmann_driver``): Poiseuille and thermal creep, Maxwell walls."""
+    from solver.plane_channel import boltzmann_driver
+
+    if problem not in boltzmann_driver.PROBLEMS:
+        raise ValueError(f"problem: model {model} solves {', '.join(boltzmann_driver.PROBLEMS)} only, got {problem!r}")
+    for name, wall in (("lower_wall", lower_wall), ("upper_wall", upper_wall)):
+        if wall is not None and not isinstance(wall, MaxwellWall):
+            raise ValueError(f"{name}: model {model} takes Maxwell walls only (MaxwellWall, alpha in [0.01, 1]), "
+                             f"got {type(wall).__name__}")
+    return boltzmann_driver.solve_plane_channel_boltzmann(
+        problem, delta=delta, molecule=BOLTZMANN_MODELS[model], lower_wall=lower_wall, upper_wall=upper_wall,
+        n_space=n_space, n_velocity=n_velocity, max_iter=max_iter, tol=tol, accelerate=accelerate,
+        accuracy=accuracy, error_estimate=error_estimate,
     )
 
 

@@ -73,7 +73,16 @@ def _solve_values(args) -> tuple[str, dict]:
         raise CliError(f"--problem: unknown value {args.problem!r}; allowed values are {', '.join(PROBLEMS)}"
                        + ("" if args.geometry == "plane_channel" else f" for --geometry {args.geometry}"))
     if args.model not in MODELS:
-        raise CliError(f"--model: unknown value {args.model!r}; allowed values are {', '.join(MODELS)}")
+        raise CliError(f"--model: unknown value {args.model!r}; allowed values are {', '.join(MODELS)}"
+                       + ("" if args.geometry == "plane_channel" else f" for --geometry {args.geometry}"))
+    if args.geometry == "plane_channel":
+        from knudsweep.families.plane_channel import BOLTZMANN_MODELS, BOLTZMANN_PROBLEMS
+
+        if args.model in BOLTZMANN_MODELS and args.problem not in BOLTZMANN_PROBLEMS:
+            raise CliError(f"--problem: model {args.model} solves {', '.join(BOLTZMANN_PROBLEMS)} only, "
+                           f"got {args.problem!r}")
+        if args.model in BOLTZMANN_MODELS and args.wall_model != "maxwell":
+            raise CliError(f"--wall-model: model {args.model} takes maxwell only, got {args.wall_model!r}")
     if args.gas not in gasmod.known_gases():
         raise CliError(f"--gas: unknown gas {args.gas!r}; allowed values are {', '.join(gasmod.known_gases())}")
     if args.geometry == "plane_channel":
@@ -216,14 +225,22 @@ def _plane_channel_values(args) -> dict:
 
     if args.aspect_ratio is not None:
         raise CliError("--aspect-ratio: only for --geometry duct")
-    from solver.plane_channel.driver import DELTA_RANGE
+    from solver.plane_channel.driver import BOLTZMANN_MODELS, DELTA_RANGE
 
+    if args.model in BOLTZMANN_MODELS:
+        from solver.plane_channel.boltzmann_driver import DELTA_RANGE
     delta = _delta(args, "plate gap", *DELTA_RANGE)
 
     lower = _wall_values(args, args.alpha, args.alpha_t, args.alpha_n, "")
     has_upper = any(v is not None for v in (args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper))
     upper = _wall_values(args, args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper, "-upper") if has_upper else None
     _check_sizes(args)
+    if args.model in BOLTZMANN_MODELS and args.n_velocity is not None:
+        from solver.plane_channel.boltzmann_driver import MAX_SPEED, MIN_SPEED
+
+        if not MIN_SPEED <= args.n_velocity <= MAX_SPEED:
+            raise CliError(f"--n-velocity: got {args.n_velocity}; with --model {args.model} it counts speed nodes, "
+                           f"allowed range is [{MIN_SPEED}, {MAX_SPEED}]")
     return {
         "problem": args.problem,
         "model": args.model,
@@ -386,7 +403,8 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--aspect-ratio", type=float, help="duct width / height, [1, 50] (default 1)")
     s.add_argument("--problem", default="poiseuille",
                    help="poiseuille, thermal_creep; plane channel also couette, heat_transfer")
-    s.add_argument("--model", default="bgk", help="bgk, s_model, es_bgk")
+    s.add_argument("--model", default="bgk", help="bgk, s_model, es_bgk; plane channel also boltzmann_hard_sphere "
+                   "(linearized Boltzmann, poiseuille and thermal_creep, Maxwell walls)")
     s.add_argument("--gas", default="Ar", help="gas name from config/gases.yaml (used with --pressure)")
     s.add_argument("--delta", type=float, help="rarefaction parameter, > 0 (tube, duct: >= 0, at most 1000)")
     s.add_argument("--kn", type=float, help="Knudsen number, > 0 (delta = sqrt(pi)/(2 Kn))")

@@ -32,7 +32,12 @@ from knudsweep.families import (Family, Point, check_axis_choice, delta_values, 
 from knudsweep.identity import canonical, format_exp, point_id, segment
 
 PROBLEMS = ("poiseuille", "thermal_creep", "couette", "heat_transfer")
-MODELS = ("bgk", "s_model", "es_bgk")
+MODEL_EQUATIONS = ("bgk", "s_model", "es_bgk")
+# the linearized Boltzmann equation (solver.plane_channel.driver.BOLTZMANN_MODELS): poiseuille and
+# thermal_creep with Maxwell walls only
+BOLTZMANN_MODELS = ("boltzmann_hard_sphere",)
+BOLTZMANN_PROBLEMS = ("poiseuille", "thermal_creep")
+MODELS = MODEL_EQUATIONS + BOLTZMANN_MODELS
 
 # Scalar results of each problem (names as returned by solver.plane_channel).
 COEFFICIENTS: dict[str, tuple[str, ...]] = {
@@ -51,6 +56,10 @@ MAIN_COEFFICIENT = {
 
 # Measured seconds per default-grid point, solve plus point file (see point_cost).
 PLANE_POINT_SECONDS = 0.008
+# Linearized Boltzmann point: fixed part (iteration on 8 speeds x 32 directions) plus a part per cell;
+# measured 1.5, 1.5, 2.7, 3.0 s at delta 0.1, 1, 10, 100 (64, 64, 138, 298 cells, benchmarks/bench_boltzmann_channel.py)
+BOLTZMANN_POINT_SECONDS = 1.2
+BOLTZMANN_SECONDS_PER_CELL = 0.006
 
 
 def wall_label(lower: dict[str, Any], upper: dict[str, Any] | None) -> str:
@@ -105,6 +114,34 @@ class PlaneChannel(Family):
         deltas = delta_values(section)
         if len(set(deltas)) != len(deltas):
             raise ValueError(f"{axis}: values repeat after rounding to 6 significant digits")
+        self._check_boltzmann(section, axis)
+
+    @staticmethod
+    def _check_boltzmann(section: dict[str, Any], axis: str) -> None:
+        """The linearized Boltzmann equation's narrower scope (solver.plane_channel.boltzmann_driver)."""
+        lbe = [m for m in section["models"] if m in BOLTZMANN_MODELS]
+        if not lbe:
+            return
+        from solver.plane_channel import boltzmann_driver as bd
+
+        for problem in section["problems"]:
+            if problem not in BOLTZMANN_PROBLEMS:
+                raise ValueError(f"problems: model {lbe[0]} solves {', '.join(BOLTZMANN_PROBLEMS)} only, "
+                                 f"got {problem!r} (put other problems in a second study)")
+        for i, (label, lower, upper) in enumerate(wall_settings(section)):
+            for w in (lower, upper):
+                if w is not None and w["model"] != "maxwell":
+                    raise ValueError(f"walls[{i}].model: model {lbe[0]} takes wall model maxwell only, got {w['model']!r}")
+        lo, hi = bd.DELTA_RANGE
+        for d in delta_values(section):
+            if not lo <= d <= hi:
+                bounds = (f"[{lo:g}, {hi:g}]" if axis == "delta"
+                          else f"[{math.sqrt(math.pi) / (2 * hi):.3g}, {math.sqrt(math.pi) / (2 * lo):.3g}]")
+                raise ValueError(f"{axis}: a value gives delta = {d:g}; allowed range of {axis} with model {lbe[0]} is {bounds}")
+        nv = section.get("resolution", {}).get("n_velocity")
+        if nv is not None and not bd.MIN_SPEED <= nv <= bd.MAX_SPEED:
+            raise ValueError(f"resolution.n_velocity: got {nv}; with model {lbe[0]} it counts speed nodes, "
+                             f"allowed range [{bd.MIN_SPEED}, {bd.MAX_SPEED}] or null")
 
     def points(self, section: dict[str, Any]) -> list[Point]:
         res = section["resolution"]
@@ -160,7 +197,17 @@ class PlaneChannel(Family):
 
     def point_cost(self, values: dict[str, Any]) -> float:
         """About 3 ms of solver and 4 ms of file writing on the default grid (accelerated,
-        10-15 iterations at any delta; measured with benchmarks/bench_sweep_throughput.py)."""
+        10-15 iterations at any delta; measured with benchmarks/bench_sweep_throughput.py).
+        Linearized Boltzmann: BOLTZMANN_POINT_SECONDS + BOLTZMANN_SECONDS_PER_CELL x cells, times
+        (n_velocity / 8)^3 (the dense collision matrix on speeds x directions)."""
+        if values.get("model") in BOLTZMANN_MODELS:
+            from solver.plane_channel import grids
+
+            n_space = values.get("n_space") or grids.default_n_space(values["delta"])
+            cost = BOLTZMANN_POINT_SECONDS + BOLTZMANN_SECONDS_PER_CELL * n_space
+            if values.get("n_velocity"):
+                cost *= max(0.1, (values["n_velocity"] / 8.0) ** 3)
+            return cost * (4.0 if values.get("accuracy") is not None else 1.0)
         cost = PLANE_POINT_SECONDS
         if values.get("n_space") and values.get("n_velocity"):
             cost *= max(0.25, values["n_space"] * values["n_velocity"] / (64 * 16))
@@ -175,9 +222,12 @@ class PlaneChannel(Family):
         # Tiny problems that go through every kernel once, so numba writes its cache.
         for problem in PROBLEMS:
             for model in MODELS:
+                if model in BOLTZMANN_MODELS and problem not in BOLTZMANN_PROBLEMS:
+                    continue
                 solve_plane_channel(
                     problem, delta=1.0, model=model, lower_wall=MaxwellWall(0.9),
-                    n_space=8, n_velocity=8, max_iter=5, tol=1e-3,
+                    n_space=8, n_velocity=4 if model in BOLTZMANN_MODELS else 8, max_iter=5, tol=1e-3,
+                    accelerate=model in BOLTZMANN_MODELS,
                 )
 
     def gather_dims(self, section: dict[str, Any]) -> dict[str, list]:
