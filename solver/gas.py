@@ -23,6 +23,7 @@ import math
 import os
 from dataclasses import dataclass
 from functools import lru_cache
+from importlib.resources import files
 from pathlib import Path
 
 import yaml
@@ -30,7 +31,8 @@ import yaml
 BOLTZMANN = 1.380649e-23  # J/K, exact (SI 2019)
 AVOGADRO = 6.02214076e23  # 1/mol, exact (SI 2019)
 
-DEFAULT_GAS_FILE = Path(__file__).resolve().parents[1] / "config" / "gases.yaml"
+# config/gases.yaml, installed as package data knudsweep.data (pyproject.toml)
+DEFAULT_GAS_FILE = Path(str(files("knudsweep.data").joinpath("gases.yaml")))
 
 
 class UnknownGasError(ValueError):

@@ -16,6 +16,7 @@ import json
 import math
 import re
 from functools import lru_cache
+from importlib.resources import files
 from pathlib import Path
 from typing import Any
 
@@ -24,7 +25,8 @@ import yaml
 
 from solver.gas import known_gases
 
-SCHEMA_FILE = Path(__file__).resolve().parents[2] / "config" / "schema.yaml"
+# config/schema.yaml, installed as package data knudsweep.data (pyproject.toml)
+SCHEMA_FILE = Path(str(files("knudsweep.data").joinpath("schema.yaml")))
 
 # Sections that never change a point's numbers: excluded from the config hash
 # written into point files, so that editing them does not look like a new study.
