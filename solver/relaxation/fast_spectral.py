@@ -66,12 +66,6 @@ from scipy.special import j0
 
 from solver.relaxation import deterministic as det
 from solver.relaxation.cross_sections import MolecularModel
-from solver.relaxation.h_function import (
-    _relative_entropy_grid,
-    axis_overlap,
-    binned_divergence_grid,
-    binned_probabilities_grid,
-)
 from solver.relaxation.initial_states import InitialState, initial_density_on_grid
 
 # Defaults (accuracy studied in tests/verification/test_relaxation_fast_spectral.py).
@@ -248,9 +242,6 @@ def run_fast_spectral(model: MolecularModel, state: InitialState, grid: det.Velo
     (temperature tensor, <c^4>, heat flux, binned and grid H, x-marginal, drifts,
     min_distribution), so the result assembles the same way.
     """
-    # imported here: solve imports this module to dispatch the method
-    from solver.relaxation.solve import HIST_BINS, HIST_LO, HIST_WIDTH
-
     op = operator if operator is not None else build_operator(model, grid, **operator_options)
     v = grid.nodes()
     w = grid.weight
@@ -259,50 +250,14 @@ def run_fast_spectral(model: MolecularModel, state: InitialState, grid: det.Velo
     m_eq = det.discrete_target(0, f, v, w)
     if op.equilibrium_term is None:
         set_equilibrium(op, m_eq)
-    overlap = axis_overlap(grid.axis, grid.spacing, edges)
-    q_eq = binned_probabilities_grid(m_eq, grid.n, w, overlap)
-    mom = np.zeros(det.N_GRID_MOMENTS)
-    rec = np.zeros((n_output, det.N_GRID_MOMENTS))
-    h_bin = np.zeros(n_output)
-    h_fine = np.zeros(n_output)
-    dist = np.zeros((n_output, HIST_BINS))
-    centres = HIST_LO + (np.arange(HIST_BINS) + 0.5) * HIST_WIDTH
-    n = grid.n
-    min_f = float(f.min())
-    max_f = float(f.max())
-
-    def record(k):
-        det._grid_moments(f, v, w, mom)
-        rec[k] = mom
-        h_bin[k] = binned_divergence_grid(f, n, w, overlap, q_eq)
-        h_fine[k] = _relative_entropy_grid(f, m_eq, w)
-        marginal = f.reshape(n, n, n).sum(axis=(1, 2)) * grid.spacing**2
-        dist[k] = np.interp(centres, grid.axis, marginal, left=0.0, right=0.0)
-
-    record(0)
+    record = det.GridRecord(grid, m_eq, edges, n_output)
+    record.record(0, f)
     for k in range(1, n_output):
         for _ in range(steps):
             f = ssp_rk3_step(f, dt, op)
-            min_f = min(min_f, float(f.min()))
-        record(k)
-    rho = rec[:, 0:1]
-    temp = np.concatenate([rec[:, 5:8], rec[:, 8:11]], axis=1) / rho
-    out = {
-        "temperature": temp[None],
-        "fourth_moment": rec[None, :, 14],
-        "heat_flux": (rec[:, 11:14] / rho)[None],
-        "h_function": h_bin[None],
-        "h_fine": h_fine,
-        "collisions": None,
-        "distribution": dist[None],
-        "momentum_drift": float(np.max(np.abs(rec[:, 1:4]))),
-        "energy_drift": float(np.max(np.abs(rec[:, 4] - 1.5))),
-        "mass_drift": float(np.max(np.abs(rec[:, 0] - 1.0))),
-        "exceedances": 0.0,
-        "h_bias": 0.0,
-        "min_distribution": min_f,
-        "max_distribution": max_f,
-    }
+            record.extremes(f)
+        record.record(k, f)
+    out = record.result()
     if keep_distribution:
         out["final_distribution"] = f
     return out

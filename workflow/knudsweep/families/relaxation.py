@@ -2,8 +2,9 @@
 
 Grid: gases x pressures x temperatures x initial states x molecular models x
 solvers, where a *solver* is a method with its resolution: ``dsmc-N20000``
-(particle method, one per particle number) or ``bgk-nv32`` (model equation
-on a 32^3 velocity grid).  Putting method and particle number on one axis
+(particle method, one per particle number), ``bgk-nv32`` (model equation
+on a 32^3 velocity grid) or ``fast_spectral-nv32`` (deterministic Boltzmann
+solution, fast spectral method, on a 32^3 velocity grid).  Putting method and particle number on one axis
 keeps the grid dense: a deterministic method has no particle number.
 
 Point identity (below ``results/points/``)::
@@ -21,13 +22,19 @@ Tables: ``relaxation_times`` (CSV + Markdown, units in the headers): the
 anisotropy, heat-flux and fourth-moment relaxation times with their standard
 uncertainty (fit window included), in mean collision times and in seconds, the
 kind of each time (time to fall by e, or fitted rate), and the initial and late
-anisotropy and heat-flux times, per gas and point.
+anisotropy and heat-flux times, per gas and point.  When the study has the
+fast spectral method, each model-equation row also gives the relative error of
+each of its times against the Boltzmann (fast spectral) time of the same gas,
+molecular model, start, p and T ("... vs Boltzmann" columns).
 
 Figures (per initial state, at the first pressure and temperature; reduced
 time does not depend on p and T): ``relaxation_h_<state>`` H(t) with the
 replica noise band of the particle runs against the deterministic curves, and
 ``relaxation_anisotropy_<state>`` |anisotropy| on a log axis with the fitted
-exp(-t/tau).  Time series come from the gathered sweep only (gather puts
+exp(-t/tau).  When the fast spectral (Boltzmann) curve of the same gas and
+molecular model is present, the DSMC band (2 standard errors of the replica
+mean) is drawn about that curve and the DSMC mean as a line: DSMC agrees with
+the deterministic Boltzmann solution where its mean stays inside the band.  Time series come from the gathered sweep only (gather puts
 them there, see ``series_dim``); a sweep without them gives "no data" panels.
 """
 
@@ -43,7 +50,9 @@ from knudsweep.families import Family, Point, Table
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
 from solver.gas import gas_record
 
-METHODS = ("dsmc", "bgk", "s_model", "es_bgk")
+METHODS = ("dsmc", "bgk", "s_model", "es_bgk", "fast_spectral")
+MODEL_EQUATIONS = ("bgk", "s_model", "es_bgk")
+BOLTZMANN = "fast_spectral"  # the deterministic Boltzmann solution the model equations are compared with
 STATES = ("equilibrium", "anisotropic", "two_beams", "bkw")
 MODELS = ("vhs", "vss", "hard_sphere", "maxwell")
 FIT_NAMES = ("anisotropy", "heat_flux", "fourth_moment")
@@ -73,7 +82,7 @@ def state_label(name: str, opts: dict[str, Any]) -> str:
 
 
 def solver_labels(section: dict[str, Any]) -> list[str]:
-    """``dsmc-N<particles>`` per particle number, ``<method>-nv<grid>`` per model equation."""
+    """``dsmc-N<particles>`` per particle number, ``<method>-nv<grid>`` per deterministic method."""
     _, run = _options(section)
     out = []
     for method in section["methods"]:
@@ -218,7 +227,7 @@ class Relaxation(Family):
             "solver": {
                 "attrs": {"long_name": "method and resolution"},
                 "extra": {
-                    "method": ([m for m, _ in parsed], {"long_name": "dsmc, bgk, s_model or es_bgk"}),
+                    "method": ([m for m, _ in parsed], {"long_name": "dsmc, bgk, s_model, es_bgk or fast_spectral"}),
                     "n_particles": ([float(r) if m == "dsmc" else float("nan") for m, r in parsed],
                                     {"units": "1", "long_name": "particles per replica (particle method)"}),
                 },
@@ -249,6 +258,7 @@ class Relaxation(Family):
 
                                 row = {"gas": gas, "pressure [Pa]": p, "temperature [K]": t,
                                        "initial state": st, "molecular model": model, "solver": solver,
+                                       "method": _parse_solver(solver)[0],
                                        "mean collision time [s]": val("mean_collision_time_s")}
                                 for f in FIT_NAMES:
                                     lab = f.replace("_", " ")
@@ -265,6 +275,8 @@ class Relaxation(Family):
                                             f"{f}_{part}_relaxation_time_uncertainty")
                                 row["status"] = str(sel["status"].values) if "status" in sel else "missing"
                                 rows.append(row)
+        if BOLTZMANN in section["methods"]:
+            _model_errors(rows)
         notes = [
             "tau_c = mean collision time of the molecular model at (p, T): lambda / c_mean with Bird's "
             "viscosity-based free path, tau_c = f mu(T)/p, f = (7-2w)(5-2w)/30 [x 6a/((a+1)(a+2)) for VSS].",
@@ -284,6 +296,15 @@ class Relaxation(Family):
             "Exact for Maxwell molecules (Truesdell & Muncaster 1980; solver/relaxation/moments.py): anisotropy "
             "time 2 tau_c (= mu/p), fourth-moment and heat-flux time 3 tau_c (= 1.5 mu/p).",
         ]
+        if BOLTZMANN in section["methods"]:
+            notes.append(
+                "'<signal> ... vs Boltzmann [relative]' (model-equation rows): tau_model / tau_Boltzmann - 1, "
+                "tau_Boltzmann the same time from the fast spectral solution of the Boltzmann equation "
+                "(finest velocity grid of the study) for the same gas, molecular model, start, p and T; the "
+                "model equations relax at the molecular model's p/mu, so this is the error of the model "
+                "equation itself.  fast spectral rows are the deterministic Boltzmann result; DSMC rows solve "
+                "the same equation by particles.")
+
         return {"relaxation_times": Table(pd.DataFrame(rows), "Relaxation times", notes)}
 
     def figure_names(self, section: dict[str, Any]) -> list[str]:
@@ -298,8 +319,43 @@ class Relaxation(Family):
         return _relaxation_figures(ds, section, settings, self.figure_names(section))
 
 
+def _time_columns() -> list[tuple[str, str]]:
+    """(column stem, label) of every relaxation time in the table."""
+    out = []
+    for f in FIT_NAMES:
+        lab = f.replace("_", " ")
+        out.append((f"{lab} time", lab))
+        if f != "fourth_moment":
+            out += [(f"{lab} {part} time", f"{lab} {part}") for part in ("initial", "late")]
+    return out
+
+
+def _model_errors(rows: list[dict[str, Any]]) -> None:
+    """Add 'tau_model / tau_Boltzmann - 1' columns to the model-equation rows (NaN elsewhere)."""
+    key = ("gas", "pressure [Pa]", "temperature [K]", "initial state", "molecular model")
+    boltzmann: dict[tuple, dict[str, Any]] = {}
+    for row in rows:
+        if row["method"] == BOLTZMANN and row["status"] == "converged":
+            k = tuple(row[c] for c in key)
+            res = _parse_solver(row["solver"])[1]
+            if k not in boltzmann or res > _parse_solver(boltzmann[k]["solver"])[1]:
+                boltzmann[k] = row  # the finest velocity grid of the study
+    for row in rows:
+        ref = boltzmann.get(tuple(row[c] for c in key)) if row["method"] in MODEL_EQUATIONS else None
+        for stem, _ in _time_columns():
+            err = float("nan")
+            if ref is not None:
+                a, b = row[f"{stem} [tau_c]"], ref[f"{stem} [tau_c]"]
+                if math.isfinite(a) and math.isfinite(b) and b > 0:
+                    err = a / b - 1.0
+            row[f"{stem} vs Boltzmann [relative]"] = err
+
+
 # ---------------------------------------------------------------- figures (from sweep.nc only)
 NOISE_SE = 2.0  # a particle curve ends where its mean falls below 2 standard errors (noise)
+BAND_SE = 2.0   # half-width of the DSMC band about the Boltzmann curve, in standard errors of the mean
+# Boltzmann (fast spectral) curve: dash-dot, no markers (colour = molecular model as for every method)
+BOLTZMANN_LINE = {"ls": (0, (6, 1.5, 1.2, 1.5)), "lw": 1.6}
 
 
 def _curves(ds, section, state: str) -> list[dict]:
@@ -337,22 +393,42 @@ def _until_noise(y: np.ndarray, se: np.ndarray) -> int:
     return int(np.argmax(bad)) if bad.any() else y.size
 
 
-def _draw_curve(ax, c, y, se):
+def _draw_curve(ax, c, y, se, about=None):
+    """One curve; a DSMC curve with ``about`` (the Boltzmann curve of the same gas and molecular
+    model) gets its band of BAND_SE standard errors about that curve instead of about its mean."""
     from knudsweep import plot_style as ps
 
     col = ps.color(c["m"])
     if c["method"] == "dsmc":
         n = _until_noise(y, se)
-        if n:
+        if n and about is not None:
+            ref = about[:n]
+            ax.fill_between(c["time"][:n], np.maximum(ref - BAND_SE * se[:n], ref * 1e-3), ref + BAND_SE * se[:n],
+                            color=col, alpha=0.22, lw=0, zorder=2)
+            ax.plot(c["time"][:n], y[:n], color=col, lw=1.1, zorder=3)
+        elif n:
             ax.fill_between(c["time"][:n], np.maximum(y[:n] - se[:n], y[:n] * 1e-3), y[:n] + se[:n],
                             color=col, alpha=0.22, lw=0, zorder=2)
             ax.plot(c["time"][:n], y[:n], color=col, lw=1.3, zorder=3)
         return
     ok = np.isfinite(y) & (y > 0)
+    if c["method"] == BOLTZMANN:
+        ax.plot(c["time"][ok], y[ok], color=col, zorder=3, **BOLTZMANN_LINE)
+        return
     every = max(len(y) // 6, 1)
     start = 0 if c["method"] == "bgk" else every // 2  # markers of the models side by side, not on top
     ax.plot(c["time"][ok], y[ok], color=col, marker=ps.marker(c["m"]), markevery=(start, every),
             **ps.model_line(c["method"]), **ps.model_marker(c["method"]), zorder=3)
+
+
+def _boltzmann(curves: list[dict], c: dict, key: str) -> np.ndarray | None:
+    """The Boltzmann (fast spectral) series ``key`` of c's gas and molecular model, for a DSMC curve c."""
+    if c["method"] != "dsmc":
+        return None
+    for b in curves:
+        if b["method"] == BOLTZMANN and b["gas"] == c["gas"] and b["model"] == c["model"]:
+            return b[key]
+    return None
 
 
 def _legend(fig, ax, section, with_fit: bool):
@@ -367,7 +443,13 @@ def _legend(fig, ax, section, with_fit: bool):
             from matplotlib.patches import Patch
 
             handles.append((Patch(color="0.4", alpha=0.3, lw=0), ax.plot([], [], color="0.35", lw=1.3)[0]))
-            labels.append("DSMC, band: ±1 standard error of the replica mean")
+            if BOLTZMANN in section["methods"]:
+                labels.append(f"DSMC mean; band: Boltzmann curve ±{BAND_SE:g} standard errors of the DSMC mean")
+            else:
+                labels.append("DSMC, band: ±1 standard error of the replica mean")
+        elif method == BOLTZMANN:
+            handles.append(ax.plot([], [], color="0.35", **BOLTZMANN_LINE)[0])
+            labels.append("Boltzmann equation, fast spectral")
         else:
             handles.append(ax.plot([], [], color="0.35", marker="o", **ps.model_line(method),
                                    **ps.model_marker(method))[0])
@@ -392,7 +474,7 @@ def _relaxation_figures(ds, section, settings, names) -> dict[str, Any]:
             ax = axes[gas]
             mine = [c for c in curves if c["gas"] == gas]
             for c in mine:
-                _draw_curve(ax, c, c["h"], c["h_se"])
+                _draw_curve(ax, c, c["h"], c["h_se"], _boltzmann(mine, c, "h"))
             ax.set_yscale("log")
             ax.set_xlabel(r"time $t/\tau_c$ (mean collision times)")
             ax.set_title(f"{gas}, {ps.state_text(st)}", fontsize="medium")
@@ -411,7 +493,8 @@ def _relaxation_figures(ds, section, settings, names) -> dict[str, Any]:
             taus = []
             for c in mine:
                 a = np.abs(c["aniso"])
-                _draw_curve(ax, c, a, c["aniso_se"])
+                ref = _boltzmann(mine, c, "aniso")
+                _draw_curve(ax, c, a, c["aniso_se"], None if ref is None else np.abs(ref))
                 if np.isfinite(c["tau"]) and c["tau"] > 0:
                     ax.plot(c["time"], abs(c["aniso"][0]) * np.exp(-c["time"] / c["tau"]), **ps.reference("fit"))
                     taus.append(f"{ps.molecular_text(c['model'])}, {ps.model_text(c['method'])}: "
@@ -440,16 +523,23 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     models = ", ".join(molecular_text(m) for m in section["molecular_models"])
     where = (f"at {section['pressures'][0]:g} Pa and {section['temperatures'][0]:g} K (reduced time does not "
              f"depend on p and T); gases {', '.join(section['gases'])}, one panel each")
+    if BOLTZMANN in section["methods"] and "dsmc" in section["methods"]:
+        band = (f"with a band of {BAND_SE:g} standard errors of the mean drawn about the fast spectral "
+                "(deterministic Boltzmann) curve of the same gas and molecular model, so DSMC agrees with it "
+                "where its mean stays inside the band")
+    else:
+        band = "with a band of one standard error of the mean"
     unc = (f"Uncertainty: DSMC curves are means over {int(run['n_replicas'])} replicas of "
-           f"{', '.join(str(int(n)) for n in section.get('n_particles', []))} particles with a band of one "
-           "standard error of the mean; each ends where it falls below 2 standard errors (noise). The model "
-           "equations are deterministic (velocity-grid error not estimated here). No model error included.")
+           f"{', '.join(str(int(n)) for n in section.get('n_particles', []))} particles {band}; each ends "
+           "where it falls below 2 standard errors (noise). The model equations and the fast spectral "
+           "solution are deterministic (velocity-grid error not estimated here). No model error included.")
     out = {}
     for st in section["initial_states"]:
         out[f"relaxation_h_{st}"] = "\n\n".join([
             f"Relative H-function of a homogeneous gas relaxing from the {state_text(st)} state, on a log axis "
             f"against time in mean collision times, {where}. Methods: {methods} (DSMC solid with band; BGK thick "
-            f"translucent line with large open markers; S-model dashed with small filled markers). Molecular "
+            f"translucent line with large open markers; S-model dashed with small filled markers; fast "
+            f"spectral Boltzmann solution dash-dot without markers). Molecular "
             f"models (colour and marker): {models}. H is binned on equiprobable cells of the equilibrium and "
             "corrected for the particle sampling bias.", unc])
         out[f"relaxation_anisotropy_{st}"] = "\n\n".join([
