@@ -151,3 +151,56 @@ def test_solve_tube_and_duct_points(capsys, tmp_path, geometry, extra, alpha, ex
         expect = free_molecular_flow_rate(2.0)
     assert summary["coefficients"]["G_P"] == pytest.approx(expect, rel=5e-3)
     assert read_result(out).coefficient("G_P") == summary["coefficients"]["G_P"]
+
+
+@pytest.mark.parametrize(
+    "argv,expected",
+    [
+        (["--method", "lattice"], "--method: unknown value 'lattice'; allowed values are dsmc, bgk, s_model, es_bgk, "
+                                  "fast_spectral"),
+        (["--molecular-model", "lj"], "--molecular-model: unknown value 'lj'"),
+        (["--initial-state", "hot"], "--initial-state: unknown value 'hot'"),
+        (["--n-particles", "50"], "--n-particles: got 50; allowed range is [100, 1e+08]"),
+        (["--n-velocity", "200"], "--n-velocity: got 200; allowed range is [8, 128]"),
+        (["--t-end", "0"], "--t-end: got 0; allowed range is (0, 10000]"),
+        (["--pressure", "-1"], "--pressure: got -1; allowed range is (0, 1e+09]"),
+        (["--initial-state", "two_beams", "--beam-separation", "5"], "--beam-separation: must lie in (0, 3.464)"),
+        (["--delta", "1"], "--delta: only for plane channel, tube or duct points, not with --family relaxation"),
+        (["--geometry", "tube"], "--geometry: only for plane channel, tube or duct points"),
+    ],
+)
+def test_bad_relaxation_options_give_one_line_and_exit_2(capsys, argv, expected):
+    code, err = run_cli(capsys, "solve", "--family", "relaxation", *argv)
+    assert code == 2
+    assert expected in err
+    assert err.count("\n") == 1 and err.startswith("knudsweep: error: ")
+
+
+def test_relaxation_option_without_the_family_is_refused(capsys):
+    code, err = run_cli(capsys, "solve", "--delta", "1", "--method", "dsmc")
+    assert code == 2 and err == "knudsweep: error: --method: only with --family relaxation\n"
+
+
+def test_solve_relaxation_point_fast_spectral_json_and_netcdf(capsys, tmp_path):
+    from solver.netcdf_io import read_result
+
+    out = tmp_path / "r.nc"
+    code = main(["solve", "--family", "relaxation", "--method", "fast_spectral", "--molecular-model", "maxwell",
+                 "--n-velocity", "24", "--t-end", "4", "--n-output", "9", "--output", str(out), "--json"])
+    summary = json.loads(capsys.readouterr().out)
+    assert code == 0 and summary["status"] == "converged"
+    assert summary["method"] == "fast_spectral" and summary["molecular_model"] == "maxwell"
+    # Maxwell molecules: anisotropy time exactly 2 tau_c (Truesdell & Muncaster 1980);
+    # the 24^3 grid's error is measured 2e-3, bar 1e-2
+    assert summary["coefficients"]["anisotropy_relaxation_time"] == pytest.approx(2.0, rel=1e-2)
+    assert summary["discretization"]["scheme"].startswith("fast spectral")
+    res = read_result(out)
+    assert res.coefficient("anisotropy_relaxation_time") == summary["coefficients"]["anisotropy_relaxation_time"]
+
+
+def test_solve_relaxation_point_dsmc_text(capsys):
+    code = main(["solve", "--family", "relaxation", "--n-particles", "1000", "--n-replicas", "3",
+                 "--t-end", "1", "--n-output", "3", "--h-bins-per-axis", "4"])
+    out = capsys.readouterr().out
+    assert code == 0 and out.startswith("status: converged")
+    assert "mean_collision_time_s = " in out

@@ -3,6 +3,7 @@
     knudsweep run --cores 2 [--configfile my-study.yaml] [any snakemake option or target]
     knudsweep solve --problem poiseuille --model bgk --delta 1.0 --alpha 0.9 --json
     knudsweep solve --geometry duct --aspect-ratio 4 --problem thermal_creep --delta 10
+    knudsweep solve --family relaxation --method fast_spectral --molecular-model hard_sphere --json
     knudsweep status config/config.yaml [--requeue-failed] [--requeue-outdated]
     knudsweep bench
 
@@ -267,9 +268,121 @@ def _check_output(path: Path) -> None:
         raise CliError(f"--output: folder {path.parent} is not writable")
 
 
+# Options of `knudsweep solve` per family: a flow option given with --family relaxation
+# (or the other way round) is refused rather than ignored.
+_FLOW_ONLY = ("aspect_ratio", "delta", "kn", "length", "alpha", "alpha_upper", "alpha_t", "alpha_n",
+              "alpha_t_upper", "alpha_n_upper", "n_space", "max_iter")
+_RELAXATION_ONLY = ("method", "initial_state", "molecular_model", "n_particles", "n_replicas", "t_end",
+                    "n_output", "seed", "h_bins_per_axis", "axis_temperature_ratios", "beam_separation",
+                    "beam_fraction", "bkw_start_time")
+
+
+def _schema_number(option: str, value, spec: dict):
+    """Check ``value`` against a schema entry (minimum / exclusiveMinimum / maximum / exclusiveMaximum)."""
+    lo_open = "exclusiveMinimum" in spec
+    hi_open = "exclusiveMaximum" in spec
+    lo = spec.get("exclusiveMinimum", spec.get("minimum", -math.inf))
+    hi = spec.get("exclusiveMaximum", spec.get("maximum", math.inf))
+    ok = math.isfinite(value) and (lo < value if lo_open else lo <= value) and (value < hi if hi_open else value <= hi)
+    if not ok:
+        raise CliError(f"{option}: got {value:g}; allowed range is {'(' if lo_open else '['}{lo:g}, {hi:g}"
+                       f"{')' if hi_open else ']'}")
+    return value
+
+
+def _relaxation_values(args) -> dict:
+    """Point values of one relaxation point, built by the family from a one-point section
+    (so the point is the one a study with these settings would solve), checked against the schema."""
+    from knudsweep.config import load_schema
+    from knudsweep.families.relaxation import FAMILY, METHODS, MODELS, STATE_DEFAULTS, STATES
+    from solver import gas as gasmod
+
+    for name in _FLOW_ONLY:
+        if getattr(args, name) not in (None, False):
+            raise CliError(f"--{name.replace('_', '-')}: only for plane channel, tube or duct points, "
+                           "not with --family relaxation")
+    if args.geometry != "plane_channel":
+        raise CliError("--geometry: only for plane channel, tube or duct points, not with --family relaxation")
+    args.method = args.method or "dsmc"
+    args.initial_state = args.initial_state or "anisotropic"
+    args.molecular_model = args.molecular_model or "vhs"
+    for option, value, allowed in (("--method", args.method, METHODS), ("--initial-state", args.initial_state, STATES),
+                                   ("--molecular-model", args.molecular_model, MODELS)):
+        if value not in allowed:
+            raise CliError(f"{option}: unknown value {value!r}; allowed values are {', '.join(allowed)}")
+    if args.gas not in gasmod.known_gases():
+        raise CliError(f"--gas: unknown gas {args.gas!r}; allowed values are {', '.join(gasmod.known_gases())}")
+    props = load_schema()["properties"]["relaxation"]["properties"]
+    run_spec = props["run"]["properties"]
+    state_spec = props["state_options"]["properties"]
+    pressure = _schema_number("--pressure", 100.0 if args.pressure is None else args.pressure,
+                              props["pressures"]["items"])
+    temperature = _schema_number("--temperature", args.temperature, props["temperatures"]["items"])
+    run = {}
+    for key, value in (("n_replicas", args.n_replicas), ("t_end", args.t_end), ("n_output", args.n_output),
+                       ("seed", args.seed), ("h_bins_per_axis", args.h_bins_per_axis),
+                       ("n_velocity", args.n_velocity)):
+        if value is not None:
+            run[key] = _schema_number(f"--{key.replace('_', '-')}", value, run_spec[key])
+    state = {}
+    if args.axis_temperature_ratios is not None:
+        for x in args.axis_temperature_ratios:
+            _schema_number("--axis-temperature-ratios", x, state_spec["axis_temperature_ratios"]["items"])
+        state["axis_temperature_ratios"] = list(args.axis_temperature_ratios)
+    for key in ("beam_separation", "beam_fraction", "bkw_start_time"):
+        value = getattr(args, key)
+        if value is not None:
+            state[key] = _schema_number(f"--{key.replace('_', '-')}", value, state_spec[key])
+    n_particles = 20000 if args.n_particles is None else args.n_particles
+    _schema_number("--n-particles", n_particles, props["n_particles"]["items"])
+    section = {"gases": [args.gas], "pressures": [pressure], "temperatures": [temperature],
+               "initial_states": [args.initial_state], "molecular_models": [args.molecular_model],
+               "methods": [args.method], "n_particles": [n_particles],
+               "state_options": {**STATE_DEFAULTS, **state}, "run": run}
+    try:
+        FAMILY.check_section(section)
+    except ValueError as exc:  # "<field>: ..." -> "--<field>: ..."
+        field, _, rest = str(exc).partition(":")
+        raise CliError(f"--{field.strip().replace('_', '-')}:{rest}") from None
+    return FAMILY.points(section)[0].values
+
+
+def _cmd_solve_relaxation(args) -> int:
+    from knudsweep.point_job import configure_numba
+
+    values = _relaxation_values(args)
+    if args.output:
+        _check_output(args.output)
+    configure_numba(args.threads)
+    from knudsweep.point_job import solve_point, solve_values
+
+    if args.output:
+        result = solve_point("relaxation", values, args.output, section={}, pid="cli")
+    else:
+        result, _, _ = solve_values("relaxation", values, {})
+    summary = result.summary()
+    for key in ("method", "gas", "initial_state", "molecular_model", "pressure", "temperature"):
+        summary[key] = values[key]
+    if args.output:
+        summary["output"] = str(args.output)
+    if args.json:
+        print(json.dumps(summary, sort_keys=True, default=str))
+    else:
+        print(f"status: {summary['status']} {summary['reason']}".rstrip())
+        print(f"wall time: {summary['wall_time_s']:.3g} s")
+        for name, value in summary["coefficients"].items():
+            print(f"{name} = {value:.6g}")
+    return 0 if result.status == "converged" else 1
+
+
 def cmd_solve(args) -> int:
     from knudsweep.point_job import configure_numba
 
+    if args.family == "relaxation":
+        return _cmd_solve_relaxation(args)
+    for name in _RELAXATION_ONLY:
+        if getattr(args, name) is not None:
+            raise CliError(f"--{name.replace('_', '-')}: only with --family relaxation")
     family, values = _solve_values(args)
     if args.output:
         _check_output(args.output)
@@ -397,7 +510,9 @@ def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="knudsweep", description="Parametric sweeps of rarefied-gas transport.")
     sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
-    s = sub.add_parser("solve", help="solve one point: plane channel, tube or duct")
+    s = sub.add_parser("solve", help="solve one point: plane channel, tube, duct or homogeneous relaxation")
+    s.add_argument("--family", default="flow", choices=["flow", "relaxation"],
+                   help="flow (plane channel, tube or duct; default) or relaxation (space-homogeneous gas)")
     s.add_argument("--geometry", default="plane_channel", choices=["plane_channel", "tube", "duct"],
                    help="plane_channel (default), tube or duct")
     s.add_argument("--aspect-ratio", type=float, help="duct width / height, [1, 50] (default 1)")
@@ -426,6 +541,22 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--threads", type=int, default=1, help="numba threads")
     s.add_argument("--output", type=Path, help="write the point as netCDF to this path")
     s.add_argument("--json", action="store_true", help="print coefficients, iterations and status as JSON")
+    r = s.add_argument_group("relaxation (with --family relaxation; --gas, --pressure [Pa, default 100], "
+                             "--temperature, --n-velocity, --threads, --output, --json apply too)")
+    r.add_argument("--method", help="dsmc, bgk, s_model, es_bgk or fast_spectral (default dsmc)")
+    r.add_argument("--initial-state", help="equilibrium, anisotropic, two_beams or bkw (default anisotropic)")
+    r.add_argument("--molecular-model", help="vhs, vss, hard_sphere or maxwell (default vhs)")
+    r.add_argument("--n-particles", type=int, help="particles per replica (dsmc), [100, 1e8], default 20000")
+    r.add_argument("--n-replicas", type=int, help="independent replicas (dsmc), [1, 4096], default 8")
+    r.add_argument("--t-end", type=float, help="end time in mean collision times, (0, 10000], default 10")
+    r.add_argument("--n-output", type=int, help="output times including t = 0, [2, 100001], default 41")
+    r.add_argument("--seed", type=int, help="seed of the point, [0, 4294967295], default 1")
+    r.add_argument("--h-bins-per-axis", type=int, help="H estimator cells per axis, [2, 64], default 8")
+    r.add_argument("--axis-temperature-ratios", type=float, nargs=3, metavar=("TX", "TY", "TZ"),
+                   help="anisotropic start: axis temperature ratios, each [0.01, 100], default 1.8 0.6 0.6")
+    r.add_argument("--beam-separation", type=float, help="two_beams start: relative beam speed, default 3")
+    r.add_argument("--beam-fraction", type=float, help="two_beams start: share of the +x beam, (0, 1), default 0.5")
+    r.add_argument("--bkw-start-time", type=float, help="bkw start: BKW time, >= 6 ln 2.5, default 6 ln 2.5")
     s.set_defaults(func=cmd_solve)
 
     sub.add_parser("run", help="run a sweep: snakemake with the safe local profile "
