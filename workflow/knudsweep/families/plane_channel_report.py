@@ -35,7 +35,8 @@ import numpy as np
 import pandas as pd
 
 from knudsweep.families import Table
-from knudsweep.families.plane_channel import COEFFICIENTS, MAIN_COEFFICIENT, wall_settings
+from knudsweep.families.plane_channel import (BOLTZMANN_MODELS, BOLTZMANN_PROBLEMS, COEFFICIENTS, MAIN_COEFFICIENT,
+                                              MODEL_EQUATIONS, wall_settings)
 
 SIGMA_P_DIFFUSE = 1.0162  # BGK viscous-slip coefficient, diffuse walls (from memory, unconfirmed)
 SIGMA_T_DIFFUSE_BGK = 0.7663  # BGK thermal-slip coefficient, diffuse walls (from memory, unconfirmed)
@@ -50,6 +51,46 @@ NOTES_COMMON = [
     "(solver.gas.pressure_from_delta; mu(T) from config/gases.yaml).",
     "status 'failed', 'missing' or 'corrupt': the coefficient columns are empty for that row.",
 ]
+
+
+BOLTZMANN_TEXT = {"boltzmann_hard_sphere": "linearized Boltzmann (hard spheres)"}
+# Marker of a linearized-Boltzmann series: a mid-size filled marker with a black edge, apart from the
+# open (BGK), small filled (S-model) and half-filled (ES-BGK) markers of knudsweep.plot_style.model_marker
+BOLTZMANN_MARKER = {"ms": 6.0, "mec": "black", "mew": 0.9}
+
+
+def model_text(model: str) -> str:
+    """Plain words of a model (knudsweep.plot_style.model_text; the Boltzmann models named here)."""
+    from knudsweep.plot_style import model_text as style_text
+
+    return BOLTZMANN_TEXT.get(model) or style_text(model)
+
+
+def model_marker(model: str) -> dict[str, Any]:
+    """Marker of a model (knudsweep.plot_style.model_marker; the Boltzmann models: BOLTZMANN_MARKER)."""
+    from knudsweep.plot_style import model_marker as style_marker
+
+    return dict(BOLTZMANN_MARKER) if model in BOLTZMANN_MODELS else style_marker(model)
+
+
+def model_error_pairs(section: dict[str, Any]) -> tuple[str | None, list[str], list[str]]:
+    """(Boltzmann model, model equations, coefficients) of the model-error view; (None, [], []) if the study
+    does not hold both kinds of model."""
+    lbe = [m for m in section["models"] if m in BOLTZMANN_MODELS]
+    eqs = [m for m in section["models"] if m in MODEL_EQUATIONS]
+    keys = [MAIN_COEFFICIENT[p] for p in section["problems"] if p in BOLTZMANN_PROBLEMS]
+    if not lbe or not eqs or not keys:
+        return None, [], []
+    return lbe[0], eqs, keys
+
+
+def model_error_ratio(g_model, e_model, g_ref, e_ref):
+    """Ratio G_model / G_ref and its discretisation error estimate |ratio| (|e_model / G_model| + |e_ref / G_ref|)
+    (first-order propagation, the two estimates added as bounds)."""
+    g_model, g_ref = np.asarray(g_model, float), np.asarray(g_ref, float)
+    ratio = g_model / g_ref
+    err = np.abs(ratio) * (np.abs(np.asarray(e_model, float) / g_model) + np.abs(np.asarray(e_ref, float) / g_ref))
+    return ratio, err
 
 
 def _slip_sigma(wall_row: dict[str, Any], diffuse_value: float) -> float:
@@ -98,7 +139,49 @@ def free_molecular_form(delta: np.ndarray, g: np.ndarray) -> np.ndarray:
 
 # ---------------------------------------------------------------- tables
 def table_names(section: dict[str, Any]) -> list[str]:
-    return [f"plane_channel_{p}" for p in section["problems"]]
+    names = [f"plane_channel_{p}" for p in section["problems"]]
+    if model_error_pairs(section)[0] is not None:
+        names.append("plane_channel_model_error")
+    return names
+
+
+def _model_error_table(ds, section: dict[str, Any]) -> Table:
+    """G_P, G_T of each model equation over the linearized Boltzmann value, per wall and delta."""
+    lbe, eqs, keys = model_error_pairs(section)
+    delta = ds["delta"].values.astype(float)
+    rows = []
+    for label in _walls(section):
+        cols: dict[str, np.ndarray] = {}
+        for key in keys:
+            problem = "poiseuille" if key == "G_P" else "thermal_creep"
+            sel = dict(problem=problem, wall=label)
+            g_ref = _values(ds, key, model=lbe, **sel)
+            e_ref = _values(ds, f"{key}_error_estimate", model=lbe, **sel)
+            cols[f"{key} {model_text(lbe)} [1]"] = g_ref
+            cols[f"{key} {model_text(lbe)} error estimate [1]"] = e_ref
+            cols[f"{key} {model_text(lbe)} status"] = ds["status"].sel(model=lbe, **sel).values
+            for m in eqs:
+                ratio, err = model_error_ratio(_values(ds, key, model=m, **sel),
+                                               _values(ds, f"{key}_error_estimate", model=m, **sel), g_ref, e_ref)
+                cols[f"{key} {model_text(m)} / Boltzmann [1]"] = ratio
+                cols[f"{key} {model_text(m)} / Boltzmann error estimate [1]"] = err
+        for j, d in enumerate(delta):
+            row = {"wall": label, "delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d)}
+            row.update({k: (v[j] if v.dtype.kind in "OUS" else float(v[j])) for k, v in cols.items()})
+            rows.append(row)
+    notes = [
+        NOTES_COMMON[0], NOTES_COMMON[1],
+        f"Model error of the kinetic model equations: each one's reduced flow rate divided by the solution of the "
+        f"{model_text(lbe)} equation (solver.plane_channel.boltzmann_driver) at the same delta and walls. delta is "
+        "defined with the gas's viscosity in both, so the difference is the error of the model's collision term; "
+        "the ratio tends to 1 as delta -> 0, slowly (like 1/ln delta) between plates, where the flow rates diverge "
+        "with a model-dependent constant.",
+        "error estimate columns: estimated discretisation errors (absolute), Richardson over a coarser solve "
+        "(solver.resolution); the ratio's estimate adds the two relative estimates. They do not include any "
+        "modelling error.",
+        "Empty cells: a point failed, is missing or corrupt (its status column says which for the Boltzmann value).",
+    ]
+    return Table(pd.DataFrame(rows), "Plane channel, model error against the linearized Boltzmann equation", notes)
 
 
 def _gas_columns(gas: str, delta: float, section: dict[str, Any], g: float, kind: str) -> dict[str, float]:
@@ -199,6 +282,8 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
             notes.append(f"{key} * sqrt(pi): ratio to the free-molecular value 1/sqrt(pi) for diffuse walls "
                          "(derived, check-values.md section 3), if the solver uses that normalisation.")
         tables[f"plane_channel_{problem}"] = Table(frame, f"Plane channel, {problem.replace('_', ' ')}", notes)
+    if model_error_pairs(section)[0] is not None:
+        tables["plane_channel_model_error"] = _model_error_table(ds, section)
     return tables
 
 
@@ -214,6 +299,8 @@ def figure_names(section: dict[str, Any]) -> list[str]:
     if "poiseuille" in section["problems"]:
         names.append("plane_channel_correction_vs_kn")
     names += [f"plane_channel_convergence_{p}" for p in section["problems"]]
+    if model_error_pairs(section)[0] is not None:
+        names.append("plane_channel_model_error_vs_delta")
     return names
 
 
@@ -257,8 +344,8 @@ def _legend_handles(ax, walls, models, refs: list[tuple[str, str]]):
         labels.append(ps.wall_text(lower, upper))
     if len(models) > 1:
         for model in models:
-            handles.append(ax.plot([], [], ls="none", marker="o", color="0.35", **ps.model_marker(model))[0])
-            labels.append(ps.model_text(model))
+            handles.append(ax.plot([], [], ls="none", marker="o", color="0.35", **model_marker(model))[0])
+            labels.append(model_text(model))
     for kind, text in refs:
         handles.append(ax.plot([], [], **ps.reference(kind))[0])
         labels.append(text)
@@ -290,7 +377,7 @@ def _coefficient_figure(ds, section, settings, problem):
             sel = dict(problem=problem, model=model, wall=label)
             g = _values(ds, key, **sel)
             n_failed += ps.mark_failed(ax, delta, ds["status"].sel(**sel).values, style)
-            if ps.plot_series(ax, delta, g, {**style, **ps.model_marker(model)}, logy=(key in ("G_P", "G_T"))):
+            if ps.plot_series(ax, delta, g, {**style, **model_marker(model)}, logy=(key in ("G_P", "G_T"))):
                 drawn = True
                 first = g if first is None else first
         if first is None:
@@ -351,11 +438,11 @@ def _coefficient_figure(ds, section, settings, problem):
             g0 = _values(ds, key, problem=problem, model=base, wall=label)
             for model in models[1:]:
                 g = _values(ds, key, problem=problem, model=model, wall=label)
-                ps.plot_series(dax, delta, 100.0 * (g - g0) / g0, {**ps.series_style(i), **ps.model_marker(model)},
+                ps.plot_series(dax, delta, 100.0 * (g - g0) / g0, {**ps.series_style(i), **model_marker(model)},
                                logy=False)
         dax.axhline(0.0, color=ps.REFERENCE_COLOR, lw=0.8, zorder=1)
-        dax.set_ylabel(f"{ps.model_text(models[1]) if len(models) == 2 else 'model'} $-$ "
-                       f"{ps.model_text(base)}\n[% of {ps.model_text(base)}]", fontsize="small")
+        dax.set_ylabel(f"{model_text(models[1]) if len(models) == 2 else 'model'} $-$ "
+                       f"{model_text(base)}\n[% of {model_text(base)}]", fontsize="small")
         dax.set_xlabel(ps.DELTA_LABEL)
     else:
         ax.set_xlabel(ps.DELTA_LABEL)
@@ -379,7 +466,7 @@ def _correction_figure(ds, section, settings):
             g = _values(ds, "G_P", problem="poiseuille", model=model, wall=label)
             order = np.argsort(kn)
             if ps.plot_series(ax, kn[order], (g / (delta / 6.0))[order],
-                              {**ps.series_style(i), **ps.model_marker(model)}):
+                              {**ps.series_style(i), **model_marker(model)}):
                 drawn = True
     ax.axhline(1.0, **ps.reference("continuum"))
     ax.set_xscale("log")
@@ -420,7 +507,7 @@ def _convergence_figure(ds, section, settings, problem):
             n = ds["iterations"].sel(problem=problem, model=model, wall=label).values.astype(float)
             ok = ds["status"].sel(problem=problem, model=model, wall=label).values == "converged"
             if ps.plot_series(ax, delta, np.where(ok & (n > 0), n, np.nan),
-                              {**ps.series_style(i), **ps.model_marker(model)}, smooth=False):
+                              {**ps.series_style(i), **model_marker(model)}, smooth=False):
                 drawn = True
     ax.set_xscale("log")
     ax.set_xlabel(ps.DELTA_LABEL)
@@ -452,12 +539,55 @@ def _convergence_figure(ds, section, settings, problem):
             ps.no_data(hax, "no histories")
         hax.xaxis.set_major_locator(MaxNLocator(integer=True, nbins=5))
         hax.set_xlabel("iteration")
-        hax.set_title(f"{ps.model_text(model)}, all walls", fontsize="small")
+        hax.set_title(f"{model_text(model)}, all walls", fontsize="small")
         if m == 0:
             hax.set_ylabel("relative change\nof the iterate")
     sm = plt.cm.ScalarMappable(norm=norm, cmap=cmap)
     fig.colorbar(sm, ax=[axes[m] for m in models], label=r"$\log_{10}\delta$", shrink=0.9)
     handles, labels = _legend_handles(ax, walls, models, [])
+    ps.bottom_legend(fig, handles, labels, ncol=2)
+    return fig
+
+
+def _model_error_figure(ds, section, settings):
+    """G_model / G_Boltzmann against delta, one panel per coefficient; bars: the ratio's error estimate."""
+    from knudsweep import plot_style as ps
+    from knudsweep.figures import new_figure
+
+    lbe, eqs, keys = model_error_pairs(section)
+    walls = _walls(section)
+    delta = ds["delta"].values.astype(float)
+    fig, axes = new_figure(settings, mosaic=[keys], scale=(1.0 if len(keys) == 1 else 1.6, 1.2), sharey=True)
+    for n, key in enumerate(keys):
+        ax = axes[key]
+        problem = "poiseuille" if key == "G_P" else "thermal_creep"
+        drawn = False
+        for i, label, lower, upper in _wall_entries(walls):
+            sel = dict(problem=problem, wall=label)
+            g_ref = _values(ds, key, model=lbe, **sel)
+            e_ref = _values(ds, f"{key}_error_estimate", model=lbe, **sel)
+            for m in eqs:
+                ratio, err = model_error_ratio(_values(ds, key, model=m, **sel),
+                                               _values(ds, f"{key}_error_estimate", model=m, **sel), g_ref, e_ref)
+                style = {**ps.series_style(i), **model_marker(m)}
+                if ps.plot_series(ax, delta, ratio, style, logy=False):
+                    drawn = True
+                    ok = np.isfinite(ratio) & np.isfinite(err)
+                    ax.errorbar(delta[ok], ratio[ok], yerr=err[ok], fmt="none", ecolor=style["color"], elinewidth=0.8,
+                                capsize=0, zorder=ps.DATA_Z)
+        ax.axhline(1.0, **ps.reference("continuum"))
+        ax.set_xscale("log")
+        ax.set_xlabel(ps.DELTA_LABEL)
+        if n == 0:
+            ax.set_ylabel("model equation / linearized Boltzmann")
+        ax.set_title(f"${key}$, {ps.problem_text(problem)}", fontsize="medium")
+        if not drawn:
+            ps.no_data(ax)
+    fig.suptitle(f"Plane channel: model equations against the {model_text(lbe)}", fontsize="medium")
+    handles, labels = _legend_handles(axes[keys[0]], walls, eqs, [("continuum", "equal to the Boltzmann value")])
+    if len(eqs) == 1:  # _legend_handles names the models only when there are several
+        handles.append(axes[keys[0]].plot([], [], ls="none", marker="o", color="0.35", **model_marker(eqs[0]))[0])
+        labels.append(model_text(eqs[0]))
     ps.bottom_legend(fig, handles, labels, ncol=2)
     return fig
 
@@ -470,6 +600,8 @@ def build_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict
         figs["plane_channel_correction_vs_kn"] = _correction_figure(ds, section, settings)
     for problem in section["problems"]:
         figs[f"plane_channel_convergence_{problem}"] = _convergence_figure(ds, section, settings, problem)
+    if model_error_pairs(section)[0] is not None:
+        figs["plane_channel_model_error_vs_delta"] = _model_error_figure(ds, section, settings)
     return figs
 
 
@@ -482,11 +614,13 @@ def _plain_wall(lower: dict, upper: dict | None) -> str:
 
 def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     """Report caption (reStructuredText) of every figure: what is shown, models, walls, uncertainty."""
-    from knudsweep.plot_style import model_text, problem_text
+    from knudsweep.plot_style import problem_text
     from knudsweep.report import relative_error_sentence, status_sentence
 
     walls = _walls(section)
     models = ", ".join(model_text(m) for m in section["models"])
+    if any(m in BOLTZMANN_MODELS for m in section["models"]):
+        models += " (mid-size filled markers with a black edge: the linearized Boltzmann equation)"
     wall_list = "; ".join(_plain_wall(lo, up) for lo, up in walls.values())
     delta = ds["delta"].values.astype(float)
     span = f"delta = {delta.min():g} to {delta.max():g} ({delta.size} values)"
@@ -531,6 +665,22 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
             relative_error_sentence(ds, "G_P", {"problem": "poiseuille"}, "G_P"),
             status_sentence(ds, {"problem": "poiseuille"}),
         ])
+    lbe, eqs, keys = model_error_pairs(section)
+    if lbe is not None:
+        eq_text = ", ".join(model_text(m) for m in eqs)
+        text = [
+            f"Model error of the kinetic model equations ({eq_text}): their reduced flow rates "
+            f"{' and '.join(keys)} divided by the solution of the {model_text(lbe)} equation at the same delta and "
+            f"walls, against delta ({span}); one panel per flow rate. Colour and marker: wall ({wall_list}); marker "
+            "fill: model equation. The dotted line at 1 is agreement; delta uses the gas's viscosity in every model, "
+            "so the ratios tend to 1 as delta -> 0 (slowly, like 1/ln delta, between plates). Error bars: the discretisation error estimates of "
+            "both solutions, added (usually smaller than the markers).",
+        ]
+        for key in keys:
+            problem = "poiseuille" if key == "G_P" else "thermal_creep"
+            text.append(relative_error_sentence(ds, key, {"problem": problem, "model": lbe}, f"{key} ({model_text(lbe)})"))
+        text.append(status_sentence(ds, {"model": lbe}))
+        out["plane_channel_model_error_vs_delta"] = "\n\n".join(text)
     tol = section["resolution"]["tol"]
     for problem in section["problems"]:
         out[f"plane_channel_convergence_{problem}"] = "\n\n".join([
