@@ -5,7 +5,7 @@ import pytest
 
 from knudsweep.families.relaxation import FAMILY, solver_labels
 from knudsweep.gather import gather_family
-from knudsweep.point_files import valid_records
+from knudsweep.batch_files import batch_records
 from knudsweep.tables import write_tables
 from solver.netcdf_io import write_result
 
@@ -47,7 +47,7 @@ def test_tiny_sweep_end_to_end(tmp_path, monkeypatch):
         assert res.status == "converged"
         files[p.pid] = str(tmp_path / "results" / "points" / f"{p.pid}.nc")
         write_result(res, files[p.pid], {"point_id": p.pid, "point_values": p.values})
-    ds = gather_family(FAMILY, SECTION, pts, valid_records(pts, files))
+    ds = gather_family(FAMILY, SECTION, pts, batch_records(pts, files))
     assert set(ds["status"].values.ravel()) == {"converged"}
     tau = ds["anisotropy_relaxation_time"].values.ravel()
     # Maxwell molecules: 2 tau_c (BGK exactly; DSMC with 3 x 3000 particles within 15 %)
@@ -86,7 +86,7 @@ def test_fast_spectral_points_table_and_figures(tmp_path, monkeypatch):
         assert res.status == "converged", res.convergence.reason
         files[p.pid] = str(tmp_path / "results" / "points" / f"{p.pid}.nc")
         write_result(res, files[p.pid], {"point_id": p.pid, "point_values": p.values})
-    ds = gather_family(FAMILY, SECTION_FS, pts, valid_records(pts, files))
+    ds = gather_family(FAMILY, SECTION_FS, pts, batch_records(pts, files))
     frame = FAMILY.tables(ds, SECTION_FS)["relaxation_times"].frame.set_index("method")
     err = frame["anisotropy time vs Boltzmann [relative]"]
     # Maxwell molecules: BGK and the Boltzmann equation both relax the stress at p/mu

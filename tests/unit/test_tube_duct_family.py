@@ -163,3 +163,10 @@ def test_missing_points_give_no_data_figures(tmp_path):
 def test_helpers():
     assert geometry_settings(SECTION)[1] == ("duct-A=2.0", "duct", 2.0)
     assert delta_values({"delta": {"start": 0.1, "stop": 10.0, "num": 3}}) == [0.1, 1.0, 10.0]
+
+
+def test_gathered_flow_rates_name_both_normalisations(gathered):
+    ds, _ = gathered
+    for name in ("G_P", "Q_P", "G_T", "Q_T"):
+        text = ds[name].attrs["long_name"]
+        assert "tube: " in text and "duct: per unit width" in text, name

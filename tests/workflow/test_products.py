@@ -7,6 +7,7 @@ job's verification step (no point left to solve is solved here).
 """
 
 import hashlib
+import json
 import math
 
 import numpy as np
@@ -113,6 +114,53 @@ def test_gather_grid_status_and_nan(sweep):
     assert np.isnan(ds["G_T"].sel(problem="poiseuille")).all()
     with xr.open_dataset(out) as root_ds:
         assert root_ds.attrs["study"] == "hand" and root_ds.attrs["families"] == "plane_channel"
+
+
+def test_sweep_file_follows_cf(sweep):
+    # CF-1.11: coordinate variables numeric and monotonic (section 1.3), text labels as auxiliary
+    # coordinates (6.1), flags with flag_values/flag_meanings (3.5), a declared _FillValue (2.5.1)
+    import netCDF4
+
+    plan, out, (failed, missing, _), root = sweep
+    with netCDF4.Dataset(str(out)) as nc:
+        assert nc.Conventions == "CF-1.11"
+        assert "gathered by knudsweep" in nc.history and nc.source.startswith("knudsweep solver")
+        g = nc.groups["plane_channel"]
+        for name, var in g.variables.items():
+            if name in g.dimensions:  # a coordinate variable
+                assert var.dtype.kind in "if" and np.all(np.diff(var[:]) > 0), name
+            assert "long_name" in var.ncattrs(), name
+        for dim in ("problem", "model", "wall"):
+            assert dim not in g.variables and g.variables[f"{dim}_label"].dimensions == (dim,)
+        status = g.variables["status"]
+        assert status.dtype == np.int8 and list(status.flag_values) == [0, 1, 2]
+        assert status.flag_meanings == "converged failed missing" and "units" not in status.ncattrs()
+        it = g.variables["iterations"]
+        assert it.dtype == np.int32 and it._FillValue == -2147483647
+        assert "-1" not in it.long_name
+        assert "coordinates" in g.variables["G_P"].ncattrs()
+        sym = g.variables["symmetric_walls"]
+        assert sym.dtype == np.int8 and list(sym.flag_values) == [0, 1] and list(sym[:]) == [1, 1]
+        assert sym.flag_meanings == "plates_differ plates_alike"
+    ds = open_sweep(out, "plane_channel")  # labels and status words come back
+    assert ds["status"].sel(**failed.index).item() == "failed"
+    assert ds["status"].sel(**missing.index).item() == "missing"
+    assert math.isnan(ds["iterations"].sel(**missing.index).item())
+    assert ds["iterations"].sel(**failed.index).item() > 0
+    assert json.loads(ds["discretization"].sel(**failed.index).item()) == {}
+
+
+def test_unordered_numeric_axis_becomes_a_label(tmp_path):
+    ds = xr.Dataset({"x": (("delta",), [1.0, 2.0, 3.0]), "status": (("delta",), ["converged", "failed", "missing"]),
+                     "iterations": (("delta",), [3.0, 5.0, np.nan])},
+                    coords={"delta": ("delta", [1.0, 0.1, 10.0], {"units": "1"})})
+    enc_ds, enc = gather_mod.to_cf(ds)
+    assert "delta" not in enc_ds.variables and "delta_label" in enc_ds.coords
+    back = gather_mod.from_cf(enc_ds)
+    assert list(back["delta"].values) == [1.0, 0.1, 10.0] and list(back["status"].values) == [
+        "converged", "failed", "missing"]
+    with pytest.raises(ValueError, match="status"):
+        gather_mod.to_cf(ds.assign(status=(("delta",), ["converged", "done", "missing"])))
 
 
 def test_corrupt_file_is_moved_aside_and_requeued(sweep):

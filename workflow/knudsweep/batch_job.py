@@ -21,7 +21,9 @@ For each point of the batch, in order:
    job has attempts left it fails after all other points are written, so
    Snakemake runs it again and only the crashed points are solved; on the last
    attempt it is recorded as failed with its reason and the batch completes.
-4. the batch file (:mod:`knudsweep.batch_files`) gets every point's record.
+4. the batch file (:mod:`knudsweep.batch_files`) gets every point's record,
+   with its discretization and, for a family with a ``series_dim``, its time
+   series (from the fresh result, or from the point file it reused).
 
 The kernels of the family are compiled before the first point is solved, once
 per numba cache: the first process to need them compiles under a lock on
@@ -86,6 +88,7 @@ def _injected_raise(pid: str) -> None:
 def solve_one(task: tuple) -> dict[str, Any]:
     """Solve one point and write its file; returns its record (``source`` solved, reused or crashed)."""
     family, pid, values, section, config_hash, attempt, root = task
+    from knudsweep.batch_files import complete_record
     from knudsweep.jobs import point_lock, with_injected_faults
     from knudsweep.point_files import read_point_record, record_from_result
     from knudsweep.point_job import solve_point
@@ -98,14 +101,14 @@ def solve_one(task: tuple) -> dict[str, Any]:
             record, _ = read_point_record(output, pid, values)
             if record is not None and not (record["status"] == "failed" and attempt > 1):
                 log.info("point %s was completed by another workflow meanwhile; kept %s", pid, output)
-                return {**record, "source": "reused"}
+                return {**complete_record(record, path=output), "source": "reused"}
             _injected_raise(pid)
             result = solve_point(family, dict(values), output, section=section, pid=pid,
                                  config_hash=config_hash, attempt=int(attempt))
             conv = result.convergence
             write_sidecar(output, {"status": conv.status, "status_reason": conv.reason, "point_id": pid,
                                    "iterations_used": int(conv.iterations), "code_version": __version__})
-        return {**record_from_result(result, pid), "source": "solved"}
+        return {**complete_record(record_from_result(result, pid), result=result), "source": "solved"}
     except Exception as exc:  # a crash of this point must not lose the others
         log.error("point %s crashed: %s: %s\n%s", pid, type(exc).__name__, exc, traceback.format_exc())
         return crashed_record(pid, f"{type(exc).__name__}: {exc}")
@@ -118,7 +121,7 @@ def crashed_record(pid: str, why: str) -> dict[str, Any]:
 
     return {"pid": pid, "status": "failed", "reason": f"crashed: {why}", "code_version": __version__,
             "iterations": -1, "wall_time": float("nan"), "residual": np.zeros(0), "coefficients": {},
-            "source": CRASHED}
+            "discretization": "", "source": CRASHED}
 
 
 def _worker_init(log_path: str | None) -> None:
@@ -191,10 +194,13 @@ def verify_points(points: dict[str, dict[str, Any]], *, attempt: int = 1, root: 
                   ) -> tuple[dict[str, dict[str, Any]], list[str]]:
     """Records of the points with a valid file (``source`` "reused") and the ids of those to solve.
 
+    A reused point's record is completed from its file for the batch file
+    (:func:`knudsweep.batch_files.complete_record`: discretization, time series).
     Corrupt files are moved aside (``<file>.corrupt``) with one warning; outdated
     ones stay until the new file replaces them (one info line); on ``attempt``
     >= 2 points recorded as failed are solved again.
     """
+    from knudsweep.batch_files import complete_record
     from knudsweep.point_files import OUTDATED, move_aside, read_point_record
 
     records: dict[str, dict[str, Any]] = {}
@@ -203,8 +209,11 @@ def verify_points(points: dict[str, dict[str, Any]], *, attempt: int = 1, root: 
         path = os.path.join(root, point_path(pid)) if root else point_path(pid)
         record, why = read_point_record(path, pid, values)
         if record is not None and not (record["status"] == "failed" and attempt > 1):
-            records[pid] = {**record, "source": "reused"}
-            continue
+            try:
+                records[pid] = {**complete_record(record, path=path), "source": "reused"}
+                continue
+            except Exception as exc:  # replaced or removed since the check: solve the point again
+                record, why = None, f"unreadable ({type(exc).__name__}: {exc})"
         if record is None and why.startswith(OUTDATED):
             log.info("point file %s is %s; solving the point again", path, why)
         elif record is None and why != "missing":

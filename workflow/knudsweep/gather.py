@@ -20,12 +20,22 @@ files) and gathers again.
 
 Time series: a family whose class sets ``series_dim`` (the relaxation family:
 ``"time"``) also gets every 1-D variable along that dimension of its converged
-points (H-function, anisotropy, moments with their replica spreads), read from
-the point files after the same check the batch job made (identity, checksum,
-version; :func:`knudsweep.point_files.read_point_record`).  The points share
-the grid of that dimension (it comes from study-wide run settings); a point
-whose grid differs is left NaN with a warning.  Figures then draw from
-``sweep.nc`` alone.
+points (H-function, anisotropy, moments with their replica spreads), from the
+batch files, which carry them (:mod:`knudsweep.batch_files`); gather never
+opens a point file.  The points share the grid of that dimension (it comes
+from study-wide run settings); a point whose grid differs is left NaN with a
+warning.  Figures then draw from ``sweep.nc`` alone.
+
+CF encoding (:func:`to_cf`, undone by :func:`open_sweep`): a CF coordinate
+variable is numeric and strictly monotonic (CF-1.11 section 1.3), so a
+dimension labelled by text (model, wall, problem, ...) or by numbers in no
+order gets an auxiliary coordinate ``<dim>_label`` instead (CF-1.11 section
+6.1, labels); ``status`` is a byte flag variable (0 converged, 1 failed,
+2 missing; ``flag_values``, ``flag_meanings``, CF-1.11 section 3.5);
+``iterations`` of a point without a file is the int32 ``_FillValue``.
+:func:`open_sweep` gives the labelled dimensions and the status words back.
+Every point's ``discretization`` (JSON, with each fit's note) is kept as a
+string variable.
 
 Provenance: the variable ``code_version`` records, per point, the solver version
 that computed it.
@@ -108,9 +118,12 @@ def gather_family(family, section: dict[str, Any], points, records: dict[str, di
     """Dataset of one family on its grid.
 
     ``points``: the family's :class:`knudsweep.families.Point` list; ``records``:
-    point id -> record (:mod:`knudsweep.point_files`) of the points that have one.
-    A family with ``series_dim`` also gets its time series from the point files
-    below ``root`` (:func:`gather_series`).
+    point id -> batch record (:mod:`knudsweep.batch_files`) of the points that
+    have one.  A family with ``series_dim`` also gets its time series from the
+    records (:func:`gather_series`).  A family may give ``coefficient_attrs(section)``
+    (name -> attributes) for coefficients whose meaning differs along the grid
+    (e.g. tube and duct flow rates); otherwise the first record's attributes are
+    used.  ``root`` is not used (kept for callers).
     """
     dims = family.gather_dims(section)
     names = list(dims)
@@ -120,7 +133,8 @@ def gather_family(family, section: dict[str, Any], points, records: dict[str, di
     status = np.full(shape, "missing", dtype=object)
     reason = np.full(shape, "no point file", dtype=object)
     code_version = np.full(shape, "", dtype=object)
-    iterations = np.full(shape, -1, dtype=np.int32)
+    discretization = np.full(shape, "", dtype=object)
+    iterations = np.full(shape, np.nan)
     wall_time = np.full(shape, np.nan)
     coef: dict[str, np.ndarray] = {}
     coef_attrs: dict[str, dict] = {}
@@ -134,7 +148,8 @@ def gather_family(family, section: dict[str, Any], points, records: dict[str, di
         status[idx] = rec["status"]
         reason[idx] = rec["reason"]
         code_version[idx] = rec["code_version"]
-        iterations[idx] = rec["iterations"]
+        discretization[idx] = rec.get("discretization", "")
+        iterations[idx] = rec["iterations"] if rec["iterations"] >= 0 else np.nan
         wall_time[idx] = rec["wall_time"]
         for name, (value, attrs) in rec["coefficients"].items():
             if name not in coef:
@@ -162,6 +177,8 @@ def gather_family(family, section: dict[str, Any], points, records: dict[str, di
             coords[cname] = (d, np.asarray(vals), cattrs)
     coords["iteration"] = ("iteration", iteration.astype(np.int32), {"units": "1", "long_name": "iteration number"})
 
+    coef_attrs.update({k: v for k, v in getattr(family, "coefficient_attrs", lambda _: {})(section).items()
+                       if k in coef_attrs})
     data_vars: dict[str, Any] = {
         name: (names, arr, coef_attrs[name]) for name, arr in sorted(coef.items())
     }
@@ -169,29 +186,29 @@ def gather_family(family, section: dict[str, Any], points, records: dict[str, di
     data_vars["reason"] = (names, reason.astype(str), {"long_name": "why a point failed or is missing"})
     data_vars["code_version"] = (names, code_version.astype(str), {
         "long_name": "solver version that computed the point (empty: no readable file)"})
-    data_vars["iterations"] = (names, iterations, {"units": "1", "long_name": "iterations used (-1: no file)"})
+    data_vars["discretization"] = (names, discretization.astype(str), {
+        "long_name": "grids, quadratures and fit settings actually used, with each fit's note (JSON; "
+                     "empty: no readable file)"})
+    data_vars["iterations"] = (names, iterations, {"units": "1", "long_name": "iterations used"})
     data_vars["wall_time"] = (names, wall_time, {"units": "s", "long_name": "solver wall-clock time"})
     data_vars["residual"] = (names + ["iteration"], residual, {"units": "1", "long_name": "relative change of the iterate per iteration (sampled)"})
     ds = xr.Dataset(data_vars=data_vars, coords=coords, attrs={"family": family.name})
     dim = getattr(family, "series_dim", None)
     if dim:
-        from knudsweep.plan import RESULTS
-
-        paths = {p.pid: Path(root) / RESULTS / p.relpath for p in points}
-        series = gather_series(family, section, points, records, paths, dim)
+        series = gather_series(family, section, points, records, dim)
         if series:
             ds = ds.assign_coords({dim: series.pop(dim)}).assign(series)
     return ds
 
 
 def gather_series(family, section: dict[str, Any], points, records: dict[str, dict[str, Any]],
-                  paths: dict[str, str | os.PathLike], dim: str) -> dict[str, Any]:
+                  dim: str) -> dict[str, Any]:
     """Variables along ``dim`` of the converged ``points``: ``{name: (dims, array, attrs)}`` plus the
-    ``dim`` coordinate, on the family's grid (NaN where a point has none)."""
-    import netCDF4
+    ``dim`` coordinate, on the family's grid (NaN where a point has none).
 
-    from knudsweep.point_files import read_point_record
-
+    The series come with the records (the batch files carry them); a converged
+    record without one (a batch file written without series) is skipped with a warning.
+    """
     dims = family.gather_dims(section)
     names = list(dims)
     shape = tuple(len(v) for v in dims.values())
@@ -204,31 +221,22 @@ def gather_series(family, section: dict[str, Any], points, records: dict[str, di
         rec = records.get(p.pid)
         if rec is None or rec["status"] != "converged":
             continue
-        ok, why = read_point_record(paths[p.pid], p.pid, p.values)
-        if ok is None:
-            log.warning("time series of %s not gathered: %s", p.pid, why)
+        series = rec.get("series")
+        if not series or series["dim"] != dim:
+            log.warning("time series of %s not gathered: its record has none", p.pid)
             continue
-        with netCDF4.Dataset(str(paths[p.pid]), "r") as nc:
-            nc.set_auto_mask(False)
-            if dim not in nc.variables:
-                continue
-            t = np.asarray(nc.variables[dim][:], dtype=float)
-            if coord is None:
-                coord = t
-                coord_attrs = {k: str(nc.variables[dim].getncattr(k)) for k in ("units", "long_name")
-                               if k in nc.variables[dim].ncattrs()}
-            elif t.shape != coord.shape or not np.allclose(t, coord, rtol=1e-12, atol=0.0):
-                log.warning("time series of %s not gathered: its %s grid differs from the other points'",
-                            p.pid, dim)
-                continue
-            idx = tuple(lookup[d][p.index[d]] for d in names)
-            for name, var in nc.variables.items():
-                if var.dimensions != (dim,) or name == dim:
-                    continue
-                if name not in arrays:
-                    arrays[name] = np.full(shape + (coord.size,), np.nan)
-                    attrs[name] = {k: str(var.getncattr(k)) for k in ("units", "long_name") if k in var.ncattrs()}
-                arrays[name][idx] = np.asarray(var[:], dtype=float)
+        t, t_attrs = series["coord"]
+        if coord is None:
+            coord, coord_attrs = np.asarray(t, dtype=float), dict(t_attrs)
+        elif t.shape != coord.shape or not np.allclose(t, coord, rtol=1e-12, atol=0.0):
+            log.warning("time series of %s not gathered: its %s grid differs from the other points'", p.pid, dim)
+            continue
+        idx = tuple(lookup[d][p.index[d]] for d in names)
+        for name, (vals, a) in series["vars"].items():
+            if name not in arrays:
+                arrays[name] = np.full(shape + (coord.size,), np.nan)
+                attrs[name] = dict(a)
+            arrays[name][idx] = vals
     if coord is None:
         return {}
     out: dict[str, Any] = {name: (names + [dim], arr, attrs[name]) for name, arr in sorted(arrays.items())}
@@ -250,9 +258,19 @@ def gather_study(plan, output: str | os.PathLike, workers: int = 1, root: str = 
         fam = get_family(fam_name)
         points = [p for p in plan.points.values() if p.family == fam_name]
         datasets[fam_name] = gather_family(fam, plan.study[fam_name], points, records, root=root_path)
+    import datetime as _dt
+    import platform
+
+    from solver.netcdf_io import CF_VERSION
+
+    now = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     write_sweep(datasets, output, {
-        "Conventions": "CF-1.11",
+        "Conventions": CF_VERSION,
         "title": f"knudsweep study {plan.name}",
+        "source": f"knudsweep solver {__version__}: linearized kinetic models and particle/deterministic "
+                  "relaxation, one point file per parameter point, gathered from the study's batch files",
+        "history": f"{now} gathered by knudsweep {__version__} (python {platform.python_version()}) from "
+                   f"{len(plan.batch_files())} batch files of study {plan.name}",
         "study": plan.name,
         "description": plan.study.get("description", ""),
         "config_hash": config_hash(plan.study),
@@ -276,7 +294,7 @@ def write_sweep(datasets: dict[str, xr.Dataset], output: str | os.PathLike, attr
         with atomic_output(output) as tmp:
             xr.Dataset(attrs=attrs).to_netcdf(tmp, mode="w", format="NETCDF4", engine="netcdf4")
             for name, ds in datasets.items():
-                enc = {v: {"zlib": True, "complevel": 4} for v in ds.data_vars if ds[v].dtype.kind == "f"}
+                ds, enc = to_cf(ds)
                 ds.to_netcdf(tmp, mode="a", group=name, format="NETCDF4", engine="netcdf4", encoding=enc)
     except Exception as exc:  # netCDF4 raises RuntimeError or OSError, xarray ValueError
         raise ProductWriteError(write_failure_line(output, exc)) from exc
@@ -300,7 +318,70 @@ def sweep_problem(path: str | os.PathLike, families: list[str]) -> str:
     return ""
 
 
+STATUS_WORDS = ("converged", "failed", "missing")  # status flag values 0, 1, 2
+LABEL_SUFFIX = "_label"
+INT_FILL = np.int32(-2147483647)  # netCDF's default fill value of int32 (NC_FILL_INT)
+
+
+def _is_cf_coordinate(values: np.ndarray) -> bool:
+    """Numeric, no missing value, strictly monotonic (CF-1.11 section 1.3)."""
+    if values.dtype.kind not in "iuf" or not np.all(np.isfinite(values)):
+        return False
+    d = np.diff(values.astype(float))
+    return bool(np.all(d > 0) or np.all(d < 0))
+
+
+def to_cf(ds: xr.Dataset) -> tuple[xr.Dataset, dict[str, dict]]:
+    """The family dataset as written (CF-1.11) and its encoding; :func:`open_sweep` undoes it.
+
+    Text or unordered dimension coordinates become ``<dim>_label`` auxiliary
+    coordinates; ``status`` becomes a byte flag variable; ``iterations`` an int32
+    with ``_FillValue``; float variables are compressed.
+    """
+    for d in list(ds.dims):
+        if d in ds.coords and not _is_cf_coordinate(np.asarray(ds[d].values)):
+            var = ds[d]
+            ds = ds.drop_vars(d).assign_coords({d + LABEL_SUFFIX: (d, var.values, var.attrs)})
+    if "status" in ds and ds["status"].dtype.kind in "OUS":
+        words = ds["status"].values.astype(str)
+        unknown = set(np.unique(words)) - set(STATUS_WORDS)
+        if unknown:
+            raise ValueError(f"status: unknown values {sorted(unknown)}; allowed are {', '.join(STATUS_WORDS)}")
+        codes = np.zeros(words.shape, dtype=np.int8)
+        for code, word in enumerate(STATUS_WORDS):
+            codes[words == word] = code
+        ds = ds.assign(status=(ds["status"].dims, codes, {
+            "long_name": "point status", "flag_values": np.arange(len(STATUS_WORDS), dtype=np.int8),
+            "flag_meanings": " ".join(STATUS_WORDS)}))
+    enc: dict[str, dict] = {v: {"zlib": True, "complevel": 4} for v in ds.variables if ds[v].dtype.kind == "f"}
+    if "iterations" in ds:
+        enc["iterations"] = {"dtype": "int32", "_FillValue": INT_FILL}
+    return ds, enc
+
+
+def from_cf(ds: xr.Dataset) -> xr.Dataset:
+    """Labelled dimensions and status words back from a dataset written by :func:`to_cf`."""
+    for name in list(ds.variables):
+        d = name[: -len(LABEL_SUFFIX)] if name.endswith(LABEL_SUFFIX) else None
+        if d and ds[name].dims == (d,) and d not in ds.variables:
+            var = ds[name]
+            ds = ds.drop_vars(name).assign_coords({d: (d, var.values, var.attrs)})
+    status = ds.get("status")
+    if status is not None and status.dtype.kind in "iu" and "flag_meanings" in status.attrs:
+        words = np.array(str(status.attrs["flag_meanings"]).split(), dtype=object)
+        values = np.asarray(status.attrs["flag_values"]).tolist()
+        lookup = np.full(max(values) + 1, "", dtype=object)
+        lookup[values] = words
+        ds = ds.assign(status=(status.dims, lookup[status.values].astype(str),
+                               {"long_name": "point status: " + ", ".join(words)}))
+    return ds
+
+
 def open_sweep(path: str | os.PathLike, family: str) -> xr.Dataset:
-    """Load the group of ``family`` from a sweep file (e.g. results/<study>/sweep.nc)."""
+    """Load the group of ``family`` from a sweep file (e.g. results/<study>/sweep.nc).
+
+    Dimensions are labelled (``ds.sel(model="bgk")``) and ``status`` holds the
+    words converged / failed / missing (see :func:`to_cf` for the file's encoding).
+    """
     with xr.open_dataset(path, group=family, engine="netcdf4") as ds:
-        return ds.load()
+        return from_cf(ds.load())

@@ -27,6 +27,8 @@ from __future__ import annotations
 import math
 from typing import Any
 
+import numpy as np
+
 from knudsweep.families import (Family, Point, check_axis_choice, delta_values, grid_label, make_wall_object,
                                  one_wall_label, reject_repeats, wall_params)
 from knudsweep.identity import canonical, format_exp, point_id, segment
@@ -255,7 +257,10 @@ class PlaneChannel(Family):
                     "alpha": ([acc(w[1], "alpha") for w in walls], {"units": "1", "long_name": "Maxwell accommodation coefficient (lower plate)"}),
                     "alpha_t": ([acc(w[1], "alpha_t") for w in walls], {"units": "1", "long_name": "Cercignani-Lampis tangential-momentum accommodation (lower plate)"}),
                     "alpha_n": ([acc(w[1], "alpha_n") for w in walls], {"units": "1", "long_name": "Cercignani-Lampis normal-energy accommodation (lower plate)"}),
-                    "symmetric_walls": ([int(w[2] is None) for w in walls], {"units": "1", "long_name": "1 if both plates have the same wall setting"}),
+                    "symmetric_walls": ([np.int8(w[2] is None) for w in walls], {
+                        "long_name": "whether both plates have the same wall setting",
+                        "flag_values": np.array([0, 1], dtype=np.int8),
+                        "flag_meanings": "plates_differ plates_alike"}),
                 },
             },
             "delta": {

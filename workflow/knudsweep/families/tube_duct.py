@@ -298,6 +298,20 @@ class TubeDuct(Family):
             },
         }
 
+    def coefficient_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
+        """Attributes of the gathered flow rates: one variable holds tube and duct values, each
+        geometry with its own normalisation (solver.tube, solver.duct), so both are named."""
+        out = {}
+        for name, what, drive, tube, duct in (
+                ("G_P", "mass", "pressure gradient X_P", "4 int u r dr", "(2/A) int int u dy dz"),
+                ("Q_P", "heat", "pressure gradient X_P", "-4 int q r dr", "-(2/A) int int q dy dz"),
+                ("G_T", "mass", "temperature gradient X_T", "4 int u r dr", "(2/A) int int u dy dz"),
+                ("Q_T", "heat", "temperature gradient X_T", "-4 int q r dr", "-(2/A) int int q dy dz")):
+            out[name] = {"units": "1", "long_name": (
+                f"reduced {what} flow rate per unit {drive}; tube: {tube} (r in units of the radius); "
+                f"duct: per unit width, {duct} (y, z in units of the height, A = width / height)")}
+        return out
+
     # ------------------------------------------------------------ tables
     def table_names(self, section: dict[str, Any]) -> list[str]:
         names = []
