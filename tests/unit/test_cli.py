@@ -23,9 +23,14 @@ def run_cli(capsys, *argv):
 @pytest.mark.parametrize(
     "argv,expected",
     [
-        (["--delta", "0"], "--delta: got 0; allowed range is (0, inf)"),
-        (["--delta", "-1"], "--delta: got -1; allowed range is (0, inf)"),
-        (["--kn", "-2"], "--kn: got -2; allowed range is (0, inf)"),
+        # one message per option, the limits actually applied (issue 12)
+        (["--delta", "0"], "--delta: got 0; allowed range is [0.0001, 10000]"),
+        (["--delta", "-1"], "--delta: got -1; allowed range is [0.0001, 10000]"),
+        (["--geometry", "tube", "--delta", "-1"], "--delta: got -1; allowed range is [0, 1000]"),
+        (["--kn", "-2"], "--kn: got -2; allowed range is [8.863e-05, 8862] (delta in [0.0001, 10000])"),
+        (["--kn", "1e5"], "--kn: got 100000; allowed range is [8.863e-05, 8862] (delta in [0.0001, 10000])"),
+        (["--delta", "1", "--temperature", "-5"], "--temperature: got -5; allowed range is (0, 10000]"),
+        (["--delta", "1", "--output", "no-such-folder/p.nc"], "--output: folder no-such-folder does not exist"),
         (["--delta", "1", "--alpha", "1.5"], "--alpha: got 1.5; allowed range is [0.01, 1]"),
         (["--delta", "1", "--alpha", "0"], "--alpha: got 0; allowed range is [0.01, 1]"),
         (["--delta", "1", "--alpha-upper", "2"], "--alpha-upper: got 2; allowed range is [0.01, 1]"),
@@ -72,13 +77,14 @@ def test_console_script_has_no_traceback():
     exe = Path(sys.executable).with_name("knudsweep")
     r = subprocess.run([str(exe), "solve", "--delta", "-3"], capture_output=True, text=True)
     assert r.returncode == 2
-    assert r.stderr == "knudsweep: error: --delta: got -3; allowed range is (0, inf)\n"
+    assert r.stderr == "knudsweep: error: --delta: got -3; allowed range is [0.0001, 10000]\n"
 
 
 def test_status_of_a_fresh_study_lists_missing_points(tmp_path, capsys):
     study = tmp_path / "s.yaml"
     study.write_text("study: s\nplane_channel: {problems: [poiseuille], models: [bgk], "
                      "walls: [{alpha: 1.0}], delta: [0.1, 1.0]}\n")
+    (tmp_path / "results").mkdir()
     assert main(["status", str(study), "--directory", str(tmp_path)]) == 0
     out = capsys.readouterr().out
     assert out.count("missing") >= 2 and "2 points: 0 done, 0 failed, 2 missing, 0 corrupt" in out
@@ -204,3 +210,53 @@ def test_solve_relaxation_point_dsmc_text(capsys):
     out = capsys.readouterr().out
     assert code == 0 and out.startswith("status: converged")
     assert "mean_collision_time_s = " in out
+
+
+def test_status_without_results_says_so(tmp_path, capsys):
+    study = tmp_path / "s.yaml"
+    study.write_text("study: s\nplane_channel: {problems: [poiseuille], models: [bgk], "
+                     "walls: [{alpha: 1.0}], delta: [0.1, 1.0]}\n")
+    assert main(["status", str(study), "--directory", str(tmp_path)]) == 0
+    out = capsys.readouterr().out
+    assert out.count("\n") == 1 and "2 points, none computed: there is no" in out and "missing" not in out
+
+
+def test_bare_command_lists_commands_and_version(capsys):
+    from solver import __version__
+
+    assert main([]) == 0
+    out = capsys.readouterr().out
+    assert all(cmd in out for cmd in ("solve", "run", "status", "bench"))
+    with pytest.raises(SystemExit) as info:
+        main(["--version"])
+    assert info.value.code == 0 and capsys.readouterr().out.strip() == f"knudsweep {__version__}"
+
+
+def test_solve_help_shows_defaults_and_the_one_of_rule(capsys):
+    with pytest.raises(SystemExit):
+        main(["solve", "--help"])
+    out = " ".join(capsys.readouterr().out.split())
+    assert "exactly one of --delta, --kn or --pressure" in out
+    assert "(default: 300.0)" in out and "(default: 1e-08)" in out and "(default: plane_channel)" in out
+    assert "(default: None)" not in out
+
+
+def test_failed_solve_prints_status_and_reason_only(capsys, tmp_path):
+    out = tmp_path / "p.nc"
+    code = main(["solve", "--delta", "10", "--no-accelerate", "--max-iter", "3", "--output", str(out)])
+    text = capsys.readouterr().out
+    assert code == 1 and text.startswith("status: failed\nreason: ") and "G_P" not in text
+    assert out.exists()  # the file records the failure
+    code = main(["solve", "--delta", "10", "--no-accelerate", "--max-iter", "3", "--json"])
+    summary = json.loads(capsys.readouterr().out)
+    assert code == 1 and summary["status"] == "failed" and summary["coefficients"] == {} and summary["reason"]
+
+
+def test_numba_cache_is_one_place_whatever_the_folder(tmp_path, monkeypatch):
+    from knudsweep.cli import numba_cache_dir
+
+    monkeypatch.delenv("NUMBA_CACHE_DIR", raising=False)
+    monkeypatch.chdir(tmp_path)
+    assert numba_cache_dir() == REPO / ".numba_cache"  # a source checkout: the repository's
+    monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "mine"))
+    assert numba_cache_dir() == tmp_path / "mine"

@@ -28,10 +28,21 @@ from pathlib import Path
 EXIT_USAGE = 2
 # Same bounds as config/schema.yaml (axis values at most 1e6).
 DELTA_MAX = 1.0e6
+TEMPERATURE_MAX = 10000.0  # K, the study schema's bound
 
 
 class CliError(ValueError):
     """A bad command-line value; the message names the option."""
+
+
+class _DefaultsFormatter(argparse.HelpFormatter):
+    """Help lines end with the default where the option has one and the text does not state it."""
+
+    def _get_help_string(self, action):
+        text = action.help or ""
+        if action.default not in (None, False, argparse.SUPPRESS) and "default" not in text and action.option_strings:
+            text += " (default: %(default)s)"
+        return text
 
 
 class _Parser(argparse.ArgumentParser):
@@ -91,6 +102,19 @@ def _solve_values(args) -> tuple[str, dict]:
     return "tube_duct", _tube_duct_values(args)
 
 
+def _kn_limits(delta_min: float, delta_max: float) -> tuple[float, float]:
+    """Knudsen numbers whose delta = sqrt(pi)/(2 Kn) lies in [delta_min, delta_max], rounded inwards
+    to 4 significant digits so that every value the message allows is accepted."""
+    low = math.sqrt(math.pi) / (2.0 * delta_max)
+    high = math.sqrt(math.pi) / (2.0 * delta_min) if delta_min > 0 else math.inf
+    scale = 10.0 ** (math.floor(math.log10(low)) - 3)
+    low = math.ceil(low / scale) * scale
+    if math.isfinite(high):
+        scale = 10.0 ** (math.floor(math.log10(high)) - 3)
+        high = math.floor(high / scale) * scale
+    return float(f"{low:.4g}"), float(f"{high:.4g}") if math.isfinite(high) else high
+
+
 def _delta(args, length_name: str, delta_min: float, delta_max: float) -> float:
     """delta from exactly one of --delta, --kn, --pressure (+ --length, --temperature, --gas).
 
@@ -99,17 +123,18 @@ def _delta(args, length_name: str, delta_min: float, delta_max: float) -> float:
     from solver import gas as gasmod
 
     span = f"[{delta_min:g}, {delta_max:g}]"
-    # Every value given is checked, used or not, against the allowed ranges.
+    # Every value given is checked, used or not, against the limits applied (one message per option).
     if args.delta is not None:
-        if delta_min > 0:
-            _positive("--delta", args.delta)
         if not (math.isfinite(args.delta) and delta_min <= args.delta <= delta_max):
             raise CliError(f"--delta: got {args.delta:g}; allowed range is {span}")
     if args.kn is not None:
-        _in_range("--kn", _positive("--kn", args.kn), 0, DELTA_MAX)
+        kn_low, kn_high = _kn_limits(delta_min, delta_max)
+        if not (math.isfinite(args.kn) and kn_low <= args.kn <= kn_high):
+            raise CliError(f"--kn: got {args.kn:g}; allowed range is [{kn_low:g}, {kn_high:g}"
+                           f"{']' if math.isfinite(kn_high) else ')'} (delta in {span})")
     _positive("--pressure", args.pressure)
     _positive("--length", args.length)
-    _in_range("--temperature", _positive("--temperature", args.temperature), 0, 10000)
+    _in_range("--temperature", args.temperature, 0, TEMPERATURE_MAX)
     given = [name for name in ("delta", "kn", "pressure") if getattr(args, name) is not None]
     if len(given) != 1:
         raise CliError("--delta: give exactly one of --delta, --kn, --pressure")
@@ -260,10 +285,9 @@ def _check_output(path: Path) -> None:
     path = Path(path)
     if path.is_dir():
         raise CliError(f"--output: {path} is a directory; give a file name such as {path / 'point.nc'}")
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise CliError(f"--output: cannot create folder {path.parent}: {exc.strerror or exc}") from None
+    if not path.parent.is_dir():
+        raise CliError(f"--output: folder {path.parent} does not exist; create it first "
+                       "(knudsweep does not create folders for --output)")
     if not os.access(path.parent, os.W_OK):
         raise CliError(f"--output: folder {path.parent} is not writable")
 
@@ -365,14 +389,31 @@ def _cmd_solve_relaxation(args) -> int:
         summary[key] = values[key]
     if args.output:
         summary["output"] = str(args.output)
+    return _print_summary(args, summary, result)
+
+
+def _print_summary(args, summary: dict, result, iterations: bool = False) -> int:
+    """Print the point's summary; a failed point prints its status and reason only, and gives 1.
+
+    The numbers of a failed point are not results: JSON carries ``"coefficients": {}``.
+    """
+    converged = result.status == "converged"
+    if not converged:
+        summary["coefficients"] = {}
     if args.json:
         print(json.dumps(summary, sort_keys=True, default=str))
+    elif not converged:
+        print(f"status: {summary['status']}")
+        print(f"reason: {summary['reason'] or 'not given'}")
+        if args.output:
+            print(f"the point file {args.output} records the failure")
     else:
-        print(f"status: {summary['status']} {summary['reason']}".rstrip())
-        print(f"wall time: {summary['wall_time_s']:.3g} s")
+        print(f"status: {summary['status']}")
+        line = f"wall time: {summary['wall_time_s']:.3g} s"
+        print(f"iterations: {summary['iterations']}  {line}" if iterations else line)
         for name, value in summary["coefficients"].items():
             print(f"{name} = {value:.6g}")
-    return 0 if result.status == "converged" else 1
+    return 0 if converged else 1
 
 
 def cmd_solve(args) -> int:
@@ -401,14 +442,7 @@ def cmd_solve(args) -> int:
     summary["geometry"] = values.get("geometry", "plane_channel")
     if args.output:
         summary["output"] = str(args.output)
-    if args.json:
-        print(json.dumps(summary, sort_keys=True, default=str))
-    else:
-        print(f"status: {summary['status']} {summary['reason']}".rstrip())
-        print(f"iterations: {summary['iterations']}  wall time: {summary['wall_time_s']:.3g} s")
-        for name, value in summary["coefficients"].items():
-            print(f"{name} = {value:.6g}")
-    return 0 if result.status == "converged" else 1
+    return _print_summary(args, summary, result, iterations=True)
 
 
 def cmd_status(args) -> int:
@@ -418,6 +452,12 @@ def cmd_status(args) -> int:
     from solver import __version__
 
     plan = StudyPlan(load_study(args.study))
+    results = Path(args.directory) / "results"
+    if not results.is_dir() and not args.json:
+        print(f"study {plan.name}: {len(plan.points)} points, none computed: there is no {results} "
+              f"(run the study first, e.g. `knudsweep run --configfile {args.study}` in the folder that "
+              "holds results/, or pass --directory)")
+        return 0
     for path in clean_stray_temporaries(plan, args.directory):
         print(f"removed stray temporary {path} (left by a killed writer)")
     rows = study_status(plan, args.directory)
@@ -507,26 +547,38 @@ def cmd_bench(args) -> int:
 
 
 def build_parser() -> argparse.ArgumentParser:
-    parser = _Parser(prog="knudsweep", description="Parametric sweeps of rarefied-gas transport.")
-    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+    from solver import __version__
 
-    s = sub.add_parser("solve", help="solve one point: plane channel, tube, duct or homogeneous relaxation")
+    parser = _Parser(prog="knudsweep", description="Parametric sweeps of rarefied-gas transport.",
+                     epilog="`knudsweep <command> --help` describes a command.")
+    parser.add_argument("--version", action="version", version=f"knudsweep {__version__}")
+    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser, title="commands",
+                                metavar="{solve,run,status,bench}")
+
+    s = sub.add_parser("solve", help="solve one point: plane channel, tube, duct or homogeneous relaxation",
+                       formatter_class=_DefaultsFormatter,
+                       description="Solve one point and print its coefficients (or write it with --output). "
+                                   "A flow point needs exactly one of --delta, --kn or --pressure (with "
+                                   "--length; --temperature and --gas apply). A failed point prints its "
+                                   "status and reason and exits with 1.")
     s.add_argument("--family", default="flow", choices=["flow", "relaxation"],
                    help="flow (plane channel, tube or duct; default) or relaxation (space-homogeneous gas)")
     s.add_argument("--geometry", default="plane_channel", choices=["plane_channel", "tube", "duct"],
-                   help="plane_channel (default), tube or duct")
+                   help="plane_channel, tube or duct")
     s.add_argument("--aspect-ratio", type=float, help="duct width / height, [1, 50] (default 1)")
     s.add_argument("--problem", default="poiseuille",
                    help="poiseuille, thermal_creep; plane channel also couette, heat_transfer")
     s.add_argument("--model", default="bgk", help="bgk, s_model, es_bgk; plane channel also boltzmann_hard_sphere "
                    "(linearized Boltzmann, poiseuille and thermal_creep, Maxwell walls)")
     s.add_argument("--gas", default="Ar", help="gas name from config/gases.yaml (used with --pressure)")
-    s.add_argument("--delta", type=float, help="rarefaction parameter, > 0 (tube, duct: >= 0, at most 1000)")
-    s.add_argument("--kn", type=float, help="Knudsen number, > 0 (delta = sqrt(pi)/(2 Kn))")
+    s.add_argument("--delta", type=float, help="rarefaction parameter: plane channel [1e-4, 1e4]; tube, duct "
+                   "[0, 1000], 0 = free-molecular limit (a study's log-spaced axis needs delta > 0)")
+    s.add_argument("--kn", type=float, help="Knudsen number, delta = sqrt(pi)/(2 Kn), within the delta range")
     s.add_argument("--pressure", type=float, help="pressure in Pa (needs --length, --temperature, --gas)")
     s.add_argument("--length", type=float, help="plate gap, tube radius or duct height in m (with --pressure)")
-    s.add_argument("--temperature", type=float, default=300.0, help="temperature in K (with --pressure), default 300")
-    s.add_argument("--wall-model", default="maxwell", choices=["maxwell", "cercignani_lampis"])
+    s.add_argument("--temperature", type=float, default=300.0, help="temperature in K (with --pressure), (0, 10000]")
+    s.add_argument("--wall-model", default="maxwell", choices=["maxwell", "cercignani_lampis"],
+                   help="gas-surface interaction law")
     s.add_argument("--alpha", type=float, help="Maxwell accommodation in [0.01, 1], default 1")
     s.add_argument("--alpha-upper", type=float, help="Maxwell accommodation of the upper plate, [0.01, 1]")
     s.add_argument("--alpha-t", type=float, help="Cercignani-Lampis tangential accommodation in [0.01, 2)")
@@ -536,7 +588,10 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--n-space", type=int, help="cells across the gap / radial or half-height nodes (default: solver's)")
     s.add_argument("--n-velocity", type=int, help="velocity nodes (default: solver's)")
     s.add_argument("--max-iter", type=int, help="iteration limit (default: solver's)")
-    s.add_argument("--tol", type=float, default=1e-8, help="convergence tolerance, (0, 0.1]")
+    tol = {g: _resolution_limits(g)["tol"] for g in ("plane_channel", "tube")}
+    s.add_argument("--tol", type=float, default=1e-8, help=(
+        f"convergence tolerance: plane channel [{tol['plane_channel'][0]:g}, {tol['plane_channel'][1]:g}], "
+        f"tube and duct [{tol['tube'][0]:g}, {tol['tube'][1]:g}]"))
     s.add_argument("--no-accelerate", action="store_true", help="switch off convergence acceleration")
     s.add_argument("--threads", type=int, default=1, help="numba threads")
     s.add_argument("--output", type=Path, help="write the point as netCDF to this path")
@@ -597,8 +652,30 @@ def _all_actions(parser, args):
             yield action
 
 
+def numba_cache_dir() -> Path:
+    """The one folder where numba keeps compiled kernels, whatever the current folder.
+
+    ``NUMBA_CACHE_DIR`` if set; else ``<repository>/.numba_cache`` when knudsweep
+    runs from a source checkout (the folder holding the Snakefile, also used by
+    the tests and benchmarks); else ``$XDG_CACHE_HOME/knudsweep/numba``
+    (``~/.cache/knudsweep/numba``).
+    """
+    if os.environ.get("NUMBA_CACHE_DIR"):
+        return Path(os.environ["NUMBA_CACHE_DIR"])
+    repo = Path(__file__).resolve().parents[2]
+    if (repo / "Snakefile").is_file() and (repo / "solver").is_dir():
+        return repo / ".numba_cache"
+    base = Path(os.environ.get("XDG_CACHE_HOME") or Path.home() / ".cache")
+    return base / "knudsweep" / "numba"
+
+
 def main(argv: list[str] | None = None) -> int:
     argv = sys.argv[1:] if argv is None else list(argv)
+    # before anything imports numba (it reads the variable once); Snakemake jobs inherit it
+    os.environ["NUMBA_CACHE_DIR"] = str(numba_cache_dir())
+    if not argv:
+        build_parser().print_help()
+        return 0
     if argv[:1] == ["run"]:
         try:
             return cmd_run(argv[1:])
