@@ -21,8 +21,20 @@ e.g. ``tube_duct/duct-A=4.0/thermal_creep/model=bgk/wall=maxwell-alpha=0.9/grid=
 Tables and figures are built from the gathered sweep by :func:`build_tables`
 and :func:`build_figures` below; physical conversions use ``solver.conductance``
 and ``solver.gas``; the reference curves come from ``solver.duct``
-(continuum series, first-order slip, free-molecular quadrature) and
-check-values.md sections 0.3 and 2.
+(continuum series, first-order slip, free-molecular quadrature).
+
+Sources of the constants (tables and captions cite the publication):
+* ``SIGMA_P_DIFFUSE`` = 1.0162 and ``SIGMA_T_DIFFUSE_BGK`` = 0.7663, viscous and
+  thermal slip of the BGK model with diffuse walls in units of ell = mu v0/p:
+  numerically exact BGK solutions of the viscous-slip and thermal-creep
+  half-space problems, Loyalka, Petrellis & Storvick, Phys. Fluids 18 (1975)
+  1094 (bibliographic data confirmed; the two numbers and the table that
+  holds them are from memory, unconfirmed; the same sigma_P follows from
+  Cercignani's 1.1466 lambda_eq x sqrt(pi)/2 = 1.01615).  They set reference
+  curves and ratio columns only, never a pass bar.
+* (2 - alpha)/alpha on the free-molecular tube flow rate (Smoluchowski):
+  exact at delta = 0 for the long tube (from memory, unconfirmed), approximate
+  elsewhere; no source was at hand for Cercignani-Lampis walls.
 """
 
 from __future__ import annotations
@@ -41,9 +53,9 @@ MODELS = ("bgk", "s_model", "es_bgk")
 MAIN_COEFFICIENT = {"poiseuille": "G_P", "thermal_creep": "G_T"}
 
 SQRT_PI = math.sqrt(math.pi)
-G_FM_TUBE = 8.0 / (3.0 * SQRT_PI)  # Knudsen 1909; check-values 0.3 [derived]
-SIGMA_P_DIFFUSE = 1.0162  # BGK viscous slip, diffuse walls (check-values 2, from memory, unconfirmed)
-SIGMA_T_DIFFUSE_BGK = 0.7663  # BGK thermal slip, diffuse walls (check-values 2, from memory, unconfirmed)
+G_FM_TUBE = 8.0 / (3.0 * SQRT_PI)  # Knudsen, Ann. Phys. 28 (1909) 75, long-tube conductance [derived]
+SIGMA_P_DIFFUSE = 1.0162  # BGK viscous slip, diffuse walls (Loyalka et al. 1975; value unconfirmed, see above)
+SIGMA_T_DIFFUSE_BGK = 0.7663  # BGK thermal slip, diffuse walls (Loyalka et al. 1975; value unconfirmed, see above)
 
 
 # ---------------------------------------------------------------- section helpers
@@ -416,9 +428,10 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
             "For non-diffuse walls the factor includes the accommodation effect.",
             "Continuum reference, no slip: Hagen-Poiseuille C = pi a^4 p / (8 mu L) (G_P = delta/4); duct: series of White, "
             "Viscous Fluid Flow (2006) eq. 3-48 (solver.duct.continuum_flow_rate).",
-            f"Slip reference: first order, sigma_P = {SIGMA_P_DIFFUSE} (BGK, diffuse; check-values section 2, from memory, "
-            "unconfirmed) times (2 - alpha)/alpha (Maxwell 1879, approximate; alpha_t for Cercignani-Lampis walls, "
-            "common practice, no source); tube delta/4 + sigma_P, duct solver.duct.slip_flow_rate.",
+            f"Slip reference: first order, sigma_P = {SIGMA_P_DIFFUSE} (BGK, diffuse walls; Loyalka, Petrellis & "
+            "Storvick, Phys. Fluids 18 (1975) 1094) times (2 - alpha)/alpha (Maxwell, Phil. Trans. R. Soc. 170 (1879) "
+            "231, approximate; alpha_t for Cercignani-Lampis walls, common practice, no source); tube delta/4 + "
+            "sigma_P, duct solver.duct.slip_flow_rate.",
         ]
         tables["tube_duct_conductance"] = Table(pd.DataFrame(rows), "Tube and duct: conductance and correction factors", notes)
     if "thermal_creep" in section["problems"]:
@@ -449,10 +462,11 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                             })
         notes = NOTES_COMMON + [
             f"temperature {t:g} K, tube radius {c['radius']:g} m, duct height {c['height']:g} m.",
-            "G_T / G_P = d ln p / d ln T at zero net flow (check-values section 6); 1/2 in the free-molecular limit "
-            "(Knudsen 1909), -> 0 in the continuum.",
-            f"G_T / (sigma_T/delta): ratio to first-order thermal slip, sigma_T = {SIGMA_T_DIFFUSE_BGK} (BGK, diffuse; "
-            "check-values section 2, from memory, unconfirmed); BGK with diffuse walls only.",
+            "G_T / G_P = d ln p / d ln T at zero net flow (Sharipov & Seleznev, J. Phys. Chem. Ref. Data 27 (1998) "
+            "657); 1/2 in the free-molecular limit (p ~ sqrt(T): Maxwell, Phil. Trans. R. Soc. 170 (1879) 231; Knudsen 1909), "
+            "-> 0 in the continuum.",
+            f"G_T / (sigma_T/delta): ratio to first-order thermal slip, sigma_T = {SIGMA_T_DIFFUSE_BGK} (BGK, diffuse "
+            "walls; Loyalka, Petrellis & Storvick, Phys. Fluids 18 (1975) 1094); BGK with diffuse walls only.",
         ]
         tables["tube_duct_thermal_creep"] = Table(pd.DataFrame(rows), "Tube and duct: thermal creep", notes)
     return tables
@@ -727,7 +741,7 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
             if key == "G_P":
                 text.append(
                     f"References (thin dark grey): no-slip continuum and first-order slip for delta >= "
-                    f"{SLIP_MIN_DELTA:g} (sigma_P = {SIGMA_P_DIFFUSE} for diffuse walls, from memory, unconfirmed, "
+                    f"{SLIP_MIN_DELTA:g} (sigma_P = {SIGMA_P_DIFFUSE} for diffuse walls, Loyalka et al. 1975, "
                     "times (2 - alpha)/alpha, alpha_t for Cercignani-Lampis walls, approximate); free molecular for "
                     f"delta <= {FREE_MOLECULAR_FIG_MAX_DELTA:g}: Knudsen's 8/(3 sqrt(pi)) for the tube, the quadrature "
                     "of solver.duct for ducts, times Smoluchowski's (2 - alpha)/alpha, for Maxwell walls only (no "
