@@ -17,6 +17,12 @@ Chem. Ref. Data 27 (1998) 657: M' = (a p / v0) [G_P (a/p)(-dp/dx) + G_T (a/T) dT
 * thermal slip: ``G_T = sigma_T / delta`` with sigma_T = 0.7663 (BGK, diffuse;
   Sone's K1 = -0.38316, from memory, unconfirmed); only for the BGK model with
   diffuse walls, otherwise not drawn/tabulated;
+* sources: tables and captions cite Loyalka, Petrellis & Storvick, Phys.
+  Fluids 18 (1975) 1094 (numerically exact BGK viscous slip and thermal creep;
+  bibliographic data confirmed, the two numbers and their table from memory,
+  unconfirmed) and Cercignani & Daneri, J. Appl. Phys. 34 (1963) 3509 for the
+  log form (bibliographic data from memory, unconfirmed).  These set reference
+  curves and ratio columns only, never a pass bar;
 * free molecular: the infinite channel has no finite free-molecular G_P (it
   grows like -(1/sqrt(pi)) ln delta as delta -> 0; the form is Cercignani's, from
   memory, unconfirmed).  The reference used is that asymptotic *form* with its
@@ -265,10 +271,11 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
             notes += [
                 "G_P / (delta/6): ratio to the continuum (no-slip Navier-Stokes) value delta/6.",
                 "G_P / G_slip: ratio to first-order slip flow, delta/6 + sigma_P for equal plates, "
-                f"sigma_P = {SIGMA_P_DIFFUSE} (BGK, diffuse; Sone's k0, from memory, unconfirmed) "
+                f"sigma_P = {SIGMA_P_DIFFUSE} (BGK, diffuse walls; Loyalka, Petrellis & Storvick, Phys. Fluids 18 "
+                "(1975) 1094) "
                 "times (2 - alpha)/alpha (Maxwell 1879, approximate; alpha_t for Cercignani-Lampis walls).",
                 "G_P / G_fm,asymptotic: ratio to the free-molecular asymptotic form "
-                "-(1/sqrt(pi)) ln delta + c (Cercignani; from memory, unconfirmed) with c matched "
+                "-(1/sqrt(pi)) ln delta + c (Cercignani & Daneri, J. Appl. Phys. 34 (1963) 3509) with c matched "
                 "to the computed G_P at the smallest delta of this sweep; diffuse walls only and only "
                 f"if that delta <= {FM_MATCH_MAX_DELTA}; given for delta <= {FM_SHOW_MAX_DELTA} only. The infinite channel has no finite "
                 "free-molecular flow rate, so this is a shape reference (ratio 1 at the smallest delta).",
@@ -276,11 +283,12 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
         if key == "G_T":
             notes.append(
                 f"G_T / (sigma_T/delta): ratio to first-order thermal slip, sigma_T = {SIGMA_T_DIFFUSE_BGK} "
-                "(BGK, diffuse; Sone's K1, from memory, unconfirmed); BGK with diffuse walls only."
+                "(BGK, diffuse walls; Loyalka, Petrellis & Storvick, Phys. Fluids 18 (1975) 1094); BGK with diffuse "
+                "walls only."
             )
         if key in ("shear_stress", "heat_flux"):
             notes.append(f"{key} * sqrt(pi): ratio to the free-molecular value 1/sqrt(pi) for diffuse walls "
-                         "(derived, check-values.md section 3), if the solver uses that normalisation.")
+                         "(derived from the free-molecular wall fluxes), if the solver uses that normalisation.")
         tables[f"plane_channel_{problem}"] = Table(frame, f"Plane channel, {problem.replace('_', ' ')}", notes)
     if model_error_pairs(section)[0] is not None:
         tables["plane_channel_model_error"] = _model_error_table(ds, section)
@@ -643,7 +651,7 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
             text.append(
                 "References (thin dark grey, drawn only where they apply): no-slip continuum delta/6 and first-order "
                 f"slip delta/6 + sigma_P for delta >= {SLIP_MIN_DELTA:g} (sigma_P = {SIGMA_P_DIFFUSE} for diffuse "
-                "walls, BGK, Sone's k0, from memory and unconfirmed, times Maxwell's (2 - alpha)/alpha); the "
+                "walls, BGK, Loyalka, Petrellis & Storvick 1975, times Maxwell's (2 - alpha)/alpha); the "
                 "free-molecular asymptotic form -((2 - alpha)/alpha) ln(delta)/sqrt(pi) + c for delta <= "
                 f"{FREE_MOLECULAR_FIG_MAX_DELTA:g}, with c matched to the computed value at the smallest delta (a "
                 "shape reference, not an independent limit; the (2 - alpha)/alpha factor is approximate, no source).")
@@ -651,8 +659,8 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
             text.append(
                 "References: first-order thermal slip sigma_T/delta for delta >= "
                 f"{SLIP_MIN_DELTA:g} with sigma_T matched to the computed value at the largest delta (a shape "
-                f"reference; for BGK with diffuse walls Sone's K1 gives sigma_T = {SIGMA_T_DIFFUSE_BGK}, from memory, "
-                "unconfirmed), and the free-molecular form with half the slope of G_P, matched at the smallest delta.")
+                f"reference; for BGK with diffuse walls sigma_T = {SIGMA_T_DIFFUSE_BGK}, Loyalka, Petrellis & Storvick "
+                "1975), and the free-molecular form with half the slope of G_P, matched at the smallest delta.")
         text.append(relative_error_sentence(ds, key, {"problem": problem}, key))
         text.append(status_sentence(ds, {"problem": problem}))
         out[name] = "\n\n".join(text)
