@@ -5,6 +5,25 @@ segment is ``name=value`` built from canonical values only, so the same point
 requested by two studies maps to the same file and float noise never creates a
 new one.
 
+Segments (the layout below ``results/points/``; README text)
+    * ``grid=ns<n>-nv<n>-tol<tol>``: resolution of a flow point: ``ns`` cells
+      across the gap (tube: radial nodes, duct: half-height nodes), ``nv``
+      velocity nodes, ``auto`` = the solver's default for the point's delta,
+      ``tol`` the convergence tolerance; ``grid=acc<a>-tol<tol>``: the
+      resolution is chosen by the error-estimate ladder until the estimate is
+      below the accuracy target ``a``.
+    * ``wall=maxwell-alpha=0.9``, ``wall=cercignani_lampis-alpha_t=0.9-alpha_n=0.5``:
+      wall law and its accommodation coefficients (plane channel with two
+      different plates: lower and upper setting joined).
+    * ``run=t<t_end>-o<n>-k<k>-R<r>-s<seed>`` (relaxation): end time in mean
+      collision times, number of output times including t = 0, H-function
+      cells per velocity axis (k^3 cells), independent replicas, random seed.
+    * ``solver=dsmc-N<particles>`` or ``solver=<model equation>-nv<n>``
+      (relaxation): method and its resolution (particles per replica, or
+      velocity nodes per axis).
+    * ``delta=1.0e+00``, ``p=1.0e+02`` (Pa), ``T=300.0`` (K), ``gas=Ar``,
+      ``model=...``: the values themselves (formats below).
+
 Canonical values
     Every float is rounded to ``SIGNIFICANT_DIGITS`` = 6 significant digits
     (``float(format(x, ".6g"))``) before it is used anywhere: in paths, in the
