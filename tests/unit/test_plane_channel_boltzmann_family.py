@@ -170,3 +170,33 @@ def test_missing_points_give_no_data(tmp_path):
     assert texts.count("no converged points") == 2
     for f in figs.values():
         plt.close(f)
+
+
+@pytest.mark.parametrize(
+    "argv, expected",
+    [
+        (["--problem", "couette"], "--problem: model boltzmann_hard_sphere solves poiseuille, thermal_creep only, got 'couette'"),
+        (["--wall-model", "cercignani_lampis"], "--wall-model: model boltzmann_hard_sphere takes maxwell only, got 'cercignani_lampis'"),
+        (["--geometry", "tube"], "--model: unknown value 'boltzmann_hard_sphere'; allowed values are bgk, s_model, es_bgk for --geometry tube"),
+        (["--n-velocity", "30"], "--n-velocity: got 30; with --model boltzmann_hard_sphere it counts speed nodes, allowed range is [4, 24]"),
+    ],
+)
+def test_cli_refuses_what_the_boltzmann_model_cannot_do(capsys, argv, expected):
+    from knudsweep.cli import main
+
+    with pytest.raises(SystemExit) as info:
+        main(["solve", "--model", "boltzmann_hard_sphere", "--delta", "1", *argv])
+    assert info.value.code == 2 and capsys.readouterr().err == f"knudsweep: error: {expected}\n"
+
+
+def test_cli_solves_a_boltzmann_point(capsys):
+    import json
+
+    from knudsweep.cli import main
+
+    code = main(["solve", "--model", "boltzmann_hard_sphere", "--problem", "thermal_creep", "--delta", "1",
+                 "--n-space", "16", "--n-velocity", "4", "--json"])
+    out = json.loads(capsys.readouterr().out)
+    assert code == 0 and out["status"] == "converged" and out["parameters"]["model"] == "boltzmann_hard_sphere"
+    direct = solve_plane_channel_boltzmann("thermal_creep", delta=1.0, n_space=16, n_velocity=4)
+    assert out["coefficients"]["G_T"] == direct.coefficient("G_T")
