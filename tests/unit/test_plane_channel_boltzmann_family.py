@@ -70,10 +70,11 @@ def test_point_cost_of_the_boltzmann_model():
     pts = {(p.values["model"], p.values["delta"]): p for p in FAMILY.points(SECTION) if p.values["problem"] == "poiseuille"}
     lbe = FAMILY.point_cost(pts["boltzmann_hard_sphere", 1.0].values)
     bgk = FAMILY.point_cost(pts["bgk", 1.0].values)
-    # measured 0.2-0.4 s for these tiny LBE points against milliseconds for BGK
-    assert 0.1 < lbe < 2.0 and lbe > 20 * bgk
+    # tiny LBE points take tens of milliseconds, BGK ones a few
+    assert 0.02 < lbe < 0.2 and lbe > 10 * bgk
     default = {**pts["boltzmann_hard_sphere", 1.0].values, "n_space": None, "n_velocity": None}
-    assert 0.7 < FAMILY.point_cost({**default, "delta": 100.0}) / 3.0 < 1.5  # measured 3.0 s (bench_boltzmann_channel.py)
+    # measured 0.57-0.82 s at delta = 100 (benchmarks/bench_boltzmann_channel.py); the planner needs a factor 2
+    assert 0.5 < FAMILY.point_cost({**default, "delta": 100.0}) / 0.7 < 2.0
 
 
 def test_model_error_ratio_propagates_relative_estimates():

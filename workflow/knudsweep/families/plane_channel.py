@@ -58,10 +58,12 @@ MAIN_COEFFICIENT = {
 
 # Measured seconds per default-grid point, solve plus point file (see point_cost).
 PLANE_POINT_SECONDS = 0.008
-# Linearized Boltzmann point: fixed part (iteration on 8 speeds x 32 directions) plus a part per cell;
-# measured 1.5, 1.5, 2.7, 3.0 s at delta 0.1, 1, 10, 100 (64, 64, 138, 298 cells, benchmarks/bench_boltzmann_channel.py)
-BOLTZMANN_POINT_SECONDS = 1.2
-BOLTZMANN_SECONDS_PER_CELL = 0.006
+# Linearized Boltzmann point (solve plus the coarse solve of the estimate): a fixed part plus a part per cell;
+# measured 0.07-0.23, 0.15-0.6, 0.6-0.8 s at delta 0.1-1, 10, 100 (64, 138, 298 cells; 8 speeds x 32
+# directions; benchmarks/bench_boltzmann_channel.py, one thread), after the ~1 s operator build of a
+# worker's first point
+BOLTZMANN_POINT_SECONDS = 0.1
+BOLTZMANN_SECONDS_PER_CELL = 0.002
 
 
 def wall_label(lower: dict[str, Any], upper: dict[str, Any] | None) -> str:
