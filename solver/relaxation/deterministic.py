@@ -304,11 +304,16 @@ class GridRecord:
     sum f ln(f/M_d) w, and the x-marginal interpolated to the HIST_* bins.
     """
 
-    def __init__(self, grid: VelocityGrid, m_eq: np.ndarray, edges: np.ndarray, n_output: int):
+    def __init__(self, grid: VelocityGrid, m_eq: np.ndarray, edges: np.ndarray, n_output: int,
+                 axis_overlaps=None):
         self.grid = grid
         self.v = grid.nodes()
         self.m_eq = m_eq
+        # O[i, a]: share of node i's weight in H cell a, f constant on each grid cell; or
+        # ``axis_overlaps(moments)`` -> [O_x, O_y, O_z] recomputed at each output time
         self.overlap = axis_overlap(grid.axis, grid.spacing, edges)
+        self.axis_overlaps = axis_overlaps
+        self.q_axes: np.ndarray | None = None
         self.q_eq = binned_probabilities_grid(m_eq, grid.n, grid.weight, self.overlap)
         self.mom = np.zeros(N_GRID_MOMENTS)
         self.rec = np.zeros((n_output, N_GRID_MOMENTS))
@@ -323,11 +328,26 @@ class GridRecord:
         g, n, w = self.grid, self.grid.n, self.grid.weight
         _grid_moments(f, self.v, w, self.mom)
         self.rec[k] = self.mom
-        self.h_bin[k] = binned_divergence_grid(f, n, w, self.overlap, self.q_eq)
+        if self.axis_overlaps is None:
+            self.h_bin[k] = binned_divergence_grid(f, n, w, self.overlap, self.q_eq)
+        else:
+            if self.q_axes is None:  # the equilibrium's cells from its own moments
+                _grid_moments(self.m_eq, self.v, w, self.mom)
+                self.q_axes = self._probabilities(self.m_eq, self.axis_overlaps(self.mom))
+                _grid_moments(f, self.v, w, self.mom)
+            p = self._probabilities(f, self.axis_overlaps(self.mom))
+            q = self.q_axes
+            nz = p > 0.0
+            self.h_bin[k] = float(np.sum(p[nz] * np.log(p[nz] / q[nz])))
         self.h_fine[k] = _relative_entropy_grid(f, self.m_eq, w)
         marginal = f.reshape(n, n, n).sum(axis=(1, 2)) * g.spacing**2
         self.dist[k] = np.interp(self.centres, g.axis, marginal, left=0.0, right=0.0)
         self.extremes(f)
+
+    def _probabilities(self, f: np.ndarray, overlaps) -> np.ndarray:
+        n = self.grid.n
+        p = np.einsum("ijl,ia,jb,lc->abc", f.reshape(n, n, n), *overlaps, optimize=True).ravel()
+        return p / p.sum()
 
     def extremes(self, f: np.ndarray) -> None:
         """Track min f and max f (also between output times)."""

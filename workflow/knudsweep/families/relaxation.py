@@ -40,8 +40,8 @@ them there, see ``series_dim``); a sweep without them gives "no data" panels.
 
 from __future__ import annotations
 
+import functools
 import math
-
 from typing import Any
 
 import numpy as np
@@ -188,12 +188,29 @@ class Relaxation(Family):
     def point_cost(self, values: dict[str, Any]) -> float:
         """Seconds per point, measured on the demo settings (t_end 10, 41 outputs): DSMC 0.28 s for
         8 replicas of 2e4 particles (linear in particles x replicas x t_end); on a 32^3 grid BGK
-        0.04 s and S-model / ES-BGK 2 s (cubic in n_velocity)."""
+        0.04 s and S-model / ES-BGK 2 s (cubic in n_velocity).  Fast spectral: see
+        :func:`_fast_spectral_cost`."""
         t = values["t_end"] / 10.0
         if values["method"] == "dsmc":
             return 0.05 + 0.28 * t * values["n_particles"] * values["n_replicas"] / 160000.0
+        if values["method"] == BOLTZMANN:
+            return _fast_spectral_cost(values)
         grid = (values["n_velocity"] / 32.0) ** 3
         return 0.05 + (0.04 if values["method"] == "bgk" else 2.0) * t * grid
+
+    def peak_memory_mb(self, section: dict[str, Any]) -> tuple[float, str]:
+        """The fast spectral multipliers dominate (16 r M N^2 (N/2+1) bytes); other methods stay small."""
+        if BOLTZMANN not in section["methods"]:
+            return 0.0, ""
+        _, run = _options(section)
+        n = int(run["n_velocity"])
+        best = (0.0, "")
+        for gas in section.get("gases", ["Ar"]):
+            for model in section.get("molecular_models", ["vhs"]):
+                mb = _fast_spectral_size(model, gas, n)[2] / 1e6
+                if mb > best[0]:
+                    best = (mb, f"fast_spectral, {gas}, {model}, n_velocity = {n}")
+        return best
 
     def warm_up(self) -> None:
         from solver.relaxation import solve_relaxation
@@ -317,6 +334,37 @@ class Relaxation(Family):
 
     def figures(self, ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
         return _relaxation_figures(ds, section, settings, self.figure_names(section))
+
+
+@functools.lru_cache(maxsize=64)
+def _fast_spectral_size(model: str, gas: str, n: int) -> tuple[int, int, float]:
+    from solver.gas import get_gas
+    from solver.relaxation.cross_sections import molecular_model
+    from solver.relaxation.fast_spectral import operator_size
+
+    return operator_size(molecular_model(model, get_gas(gas)), n)
+
+
+# Fast spectral cost per point (one core), measured with benchmarks/bench_fast_spectral.py on the
+# shared 2-core machine: per collision evaluation SEC_PER_TRANSFORM per inverse FFT of 32^3 points
+# (2 r M + 2 of them) plus SEC_PER_EVAL_REST for the projection and records; build BUILD_S_PER_TERM
+# per multiplier pair r M.  Measured 2026-12: VHS argon (r = 4, M = 50) 7.3 s, hard spheres
+# (r = 1) 2.5 s for the default point (t_end 10, 41 outputs, dt 0.25, N = 32).
+SEC_PER_TRANSFORM = 1.5e-4
+SEC_PER_EVAL_REST = 4e-3
+BUILD_S_PER_TERM = 3e-3
+
+
+def _fast_spectral_cost(values: dict[str, Any]) -> float:
+    from solver.relaxation.solve import DEFAULT_TIME_STEP
+
+    n = int(values["n_velocity"])
+    rank, m, _ = _fast_spectral_size(values["molecular_model"], values["gas"], n)
+    interval = values["t_end"] / (values["n_output"] - 1)
+    steps = (values["n_output"] - 1) * max(1, math.ceil(interval / DEFAULT_TIME_STEP[BOLTZMANN] - 1e-9))
+    size = (n / 32.0) ** 3 * math.log(n) / math.log(32.0)
+    per_eval = (SEC_PER_TRANSFORM * (2 * rank * m + 2) + SEC_PER_EVAL_REST) * size
+    return 0.3 + BUILD_S_PER_TERM * rank * m * (n / 32.0) ** 3 + 3 * steps * per_eval
 
 
 def _time_columns() -> list[tuple[str, str]]:
