@@ -9,7 +9,9 @@
 2. scipy.fft against numpy.fft for the batched inverse transforms at those sizes.
 3. One relaxation point at default settings (anisotropic start, t_end 10,
    41 outputs, dt 0.25, N = 32) beside a DSMC point (20000 particles, 8 replicas,
-   the family defaults).  Target for the deterministic point: <= 10 s on one core.
+   the family defaults), wall and CPU seconds beside the family's cost model
+   (knudsweep.families.relaxation.point_cost).  Target for the deterministic
+   point: <= 10 s on one core.
 """
 
 from __future__ import annotations
@@ -88,21 +90,25 @@ def main() -> None:
     if args.quick:
         return
     print()
-    print("one relaxation point, anisotropic start, VHS argon, t_end 10, 41 outputs")
-    model = molecular_model("vhs", argon)
-    state = make_initial_state("anisotropic")
-    grid = det.make_grid(32, fs.spectral_half_width(state))
-    start = time.perf_counter()
-    fs.run_fast_spectral(model, state, grid, 0.25, 1, 41, equiprobable_edges(8))
-    t_fs = time.perf_counter() - start
+    print("one relaxation point at default settings: anisotropic start, argon, t_end 10, 41 outputs,")
+    print("fast spectral N = 32, dt 0.25 (the whole solve_relaxation: build, run, records, fits);")
+    print("CPU seconds are the process time (the wall time grows when other jobs share the cores)")
     solve_relaxation(method="dsmc", n_particles=1000, n_replicas=1, t_end=0.2, n_output=2, h_bins_per_axis=4)
-    start = time.perf_counter()
-    solve_relaxation(method="dsmc", molecular_model="vhs")
-    t_dsmc = time.perf_counter() - start
-    print(f"{'method':<28} {'seconds':>8} {'target':>7}")
-    print(f"{'fast spectral N=32, dt=0.25':<28} {t_fs:>8.1f} {TARGET_S:>7.0f}")
-    print(f"{'DSMC 20000 x 8 replicas':<28} {t_dsmc:>8.1f} {'':>7}")
+    solve_relaxation(method="fast_spectral", n_velocity=8, velocity_half_width=7.0, t_end=0.25, n_output=2)
+    from knudsweep.families.relaxation import FAMILY
 
+    section = {"gases": ["Ar"], "pressures": [100.0], "temperatures": [300.0], "initial_states": ["anisotropic"],
+               "methods": ["fast_spectral", "dsmc"], "n_particles": [20000]}
+    print(f"{'method':<32} {'wall s':>7} {'CPU s':>7} {'model s':>8} {'target':>7}")
+    for name in ("hard_sphere", "vhs"):
+        for method in ("fast_spectral", "dsmc"):
+            wall, cpu = time.perf_counter(), time.process_time()
+            solve_relaxation(method=method, molecular_model=name)
+            wall, cpu = time.perf_counter() - wall, time.process_time() - cpu
+            values = FAMILY.points({**section, "molecular_models": [name], "methods": [method]})[0].values
+            label = f"{method} {name}" + (" N=32" if method != "dsmc" else " 20000 x 8")
+            target = f"{TARGET_S:>7.0f}" if method != "dsmc" else f"{'':>7}"
+            print(f"{label:<32} {wall:>7.1f} {cpu:>7.1f} {FAMILY.point_cost(values):>8.1f} {target}")
 
 if __name__ == "__main__":
     main()

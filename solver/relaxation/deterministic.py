@@ -245,7 +245,10 @@ def conservative_target(g: np.ndarray, v: np.ndarray, w: float, target: np.ndarr
         resid = moments - target
         if np.all(np.abs(resid) <= tol * scale * 10.0):
             return gd
-        step = np.linalg.solve(jac, resid)
+        try:
+            step = np.linalg.solve(jac, resid)
+        except np.linalg.LinAlgError:  # f too poorly resolved for the five moments
+            break
         a -= step
         if not np.all(np.isfinite(a)):
             break
@@ -339,7 +342,10 @@ class GridRecord:
             q = self.q_axes
             nz = p > 0.0
             self.h_bin[k] = float(np.sum(p[nz] * np.log(p[nz] / q[nz])))
-        self.h_fine[k] = _relative_entropy_grid(f, self.m_eq, w)
+        try:
+            self.h_fine[k] = _relative_entropy_grid(f, self.m_eq, w)
+        except ZeroDivisionError:  # f > 0 where M_d underflows to 0: H is infinite (point fails)
+            self.h_fine[k] = math.inf
         marginal = f.reshape(n, n, n).sum(axis=(1, 2)) * g.spacing**2
         self.dist[k] = np.interp(self.centres, g.axis, marginal, left=0.0, right=0.0)
         self.extremes(f)

@@ -219,7 +219,10 @@ def solve_relaxation(
     elif method == "fast_spectral":
         half_width = fs.spectral_half_width(state) if velocity_half_width is None else velocity_half_width
         grid = det.make_grid(n_velocity, half_width)
-        data = fs.run_fast_spectral(model, state, grid, dt, steps_per_output, n_output, edges)
+        try:
+            data = fs.run_fast_spectral(model, state, grid, dt, steps_per_output, n_output, edges)
+        except det.NewtonFailure as exc:  # the start cannot be normalised on this grid
+            return _failed(parameters, discretization, times, tau_c, t_wall, str(exc))
         min_f, max_f = data.pop("min_distribution"), data.pop("max_distribution")
         discretization.update(n_velocity=grid.n, velocity_half_width=grid.half_width,
                               scheme="fast spectral (Mouhot & Pareschi 2006), " + fs.SCHEME,

@@ -214,6 +214,20 @@ def test_binned_h_of_the_start_matches_the_closed_form():
     assert abs(d["h_function"][0, 0] / exact - 1.0) < 3e-3
 
 
+def test_unresolved_points_fail_with_a_reason(monkeypatch):
+    from solver.relaxation import solve as solve_mod
+
+    # 12^3 in the wide spectral box cannot carry the start's five moments: failed, not an exception
+    r = solve_mod.solve_relaxation(method="fast_spectral", molecular_model="hard_sphere", n_velocity=12,
+                                   t_end=0.5, n_output=2)
+    assert r.status == "failed" and "Newton did not converge" in r.convergence.reason
+    # negative values beyond the bar (here lowered below the measured -7.8e-4 of max f on 16^3)
+    monkeypatch.setattr(solve_mod, "MAX_NEGATIVE_FRACTION", 1e-5)
+    r = solve_mod.solve_relaxation(method="fast_spectral", molecular_model="hard_sphere", n_velocity=16,
+                                   t_end=1.0, n_output=3)
+    assert r.status == "failed" and r.convergence.reason.startswith("distribution not resolved: min f")
+
+
 # ---------------------------------------------------------------- slow checks
 
 
