@@ -345,12 +345,14 @@ def _fast_spectral_size(model: str, gas: str, n: int) -> tuple[int, int, float]:
     return operator_size(molecular_model(model, get_gas(gas)), n)
 
 
-# Fast spectral cost per point (one core), measured with benchmarks/bench_fast_spectral.py on the
-# shared 2-core machine: per collision evaluation SEC_PER_TRANSFORM per inverse FFT of 32^3 points
-# (2 r M + 2 of them) plus SEC_PER_EVAL_REST for the projection and records; build BUILD_S_PER_TERM
-# per multiplier pair r M.  Measured 2026-12: VHS argon (r = 4, M = 50) 7.3 s, hard spheres
-# (r = 1) 2.5 s for the default point (t_end 10, 41 outputs, dt 0.25, N = 32).
-SEC_PER_TRANSFORM = 1.5e-4
+# Fast spectral cost per point (one core): per collision evaluation SEC_PER_TRANSFORM per inverse
+# FFT of 32^3 points (2 r M + 2 of them, N^3 log N for other N) plus SEC_PER_EVAL_REST for the
+# projection and records; build BUILD_S_PER_TERM per multiplier pair r M.  Measured with
+# benchmarks/bench_fast_spectral.py on the shared 2-core machine, default point (anisotropic
+# start, t_end 10, 41 outputs, dt 0.25, N = 32): VHS argon (r = 4, M = 50) 11.9 s wall / 11.8 s
+# CPU (model 11.8 s), hard spheres (r = 1) 3.6 s / 3.5 s (model 3.6 s); 0.26 s and 0.065 s per
+# SSP-RK3 step, build 0.66 s and 0.41 s.
+SEC_PER_TRANSFORM = 2.2e-4
 SEC_PER_EVAL_REST = 4e-3
 BUILD_S_PER_TERM = 3e-3
 
