@@ -494,12 +494,12 @@ def _legend(fig, ax, section, with_fit: bool):
 
             handles.append((Patch(color="0.4", alpha=0.3, lw=0), ax.plot([], [], color="0.35", lw=1.3)[0]))
             if BOLTZMANN in section["methods"]:
-                labels.append(f"DSMC mean; band: Boltzmann curve ±{BAND_SE:g} standard errors of the DSMC mean")
+                labels.append(f"DSMC mean; band: Boltzmann ±{BAND_SE:g} DSMC std. errors")
             else:
                 labels.append("DSMC, band: ±1 standard error of the replica mean")
         elif method == BOLTZMANN:
             handles.append(ax.plot([], [], color="0.35", **BOLTZMANN_LINE)[0])
-            labels.append("Boltzmann equation, fast spectral")
+            labels.append("Boltzmann (fast spectral)")
         else:
             handles.append(ax.plot([], [], color="0.35", marker="o", **ps.model_line(method),
                                    **ps.model_marker(method))[0])
