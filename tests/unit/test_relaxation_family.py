@@ -97,8 +97,14 @@ def test_fast_spectral_points_table_and_figures(tmp_path, monkeypatch):
     assert np.isnan(err["dsmc"]) and np.isnan(err["fast_spectral"])
     figs = FAMILY.figures(ds, SECTION_FS, {"width": 5, "height": 3.5})
     ax = figs["relaxation_h_anisotropic"].axes[0]
-    # the DSMC band is drawn about the Boltzmann curve: its upper edge minus the curve is 2 standard errors
+    # the DSMC band is drawn about the Boltzmann curve: centred on it, half-width 2 standard errors
+    where = {"gas": "Ar", "initial_state": "anisotropic", "molecular_model": "maxwell", "pressure": 100.0,
+             "temperature": 300.0}
+    ref = ds["h_function"].sel(solver="fast_spectral-nv24", **where).values
+    se = ds["h_function_std"].sel(solver="dsmc-N3000", **where).values / np.sqrt(3)
     band = ax.collections[0].get_paths()[0].vertices
-    assert band.size and np.isfinite(band).all()
+    at_t1 = np.sort(band[np.isclose(band[:, 0], ds["time"].values[1]), 1])
+    assert at_t1[0] == pytest.approx(ref[1] - 2.0 * se[1], rel=1e-9)
+    assert at_t1[-1] == pytest.approx(ref[1] + 2.0 * se[1], rel=1e-9)
     for fig in figs.values():
         plt.close(fig)
