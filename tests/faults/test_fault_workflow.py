@@ -26,6 +26,7 @@ from pathlib import Path
 import pytest
 import xarray as xr
 
+from knudsweep.gather import open_sweep
 from knudsweep.cli import main
 from knudsweep.config import load_study
 from knudsweep.jobs import FAULT_HOLD_ENV, FAULT_WRITE_LIMIT_ENV
@@ -145,7 +146,7 @@ def test_five_random_sigkills_then_resume_lose_nothing(reference, tmp_path, caps
         seen_tmp += sum(f.name.endswith(".tmp") for f in hidden)
         sweep = workdir / plan.sweep_file
         if sweep.exists():
-            with xr.open_dataset(sweep, group="plane_channel") as ds:
+            with open_sweep(sweep, "plane_channel") as ds:
                 ds.load()
     smk(workdir, study, "--unlock")
     smk(workdir, study, "--rerun-incomplete")
@@ -160,8 +161,8 @@ def test_five_random_sigkills_then_resume_lose_nothing(reference, tmp_path, caps
             lost += 1
         diffs = same_point_content(workdir / f, ref / f)
         assert not diffs, (f, diffs)
-    with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as a, \
-            xr.open_dataset(ref / plan.sweep_file, group="plane_channel") as b:
+    with open_sweep(workdir / plan.sweep_file, "plane_channel") as a, \
+            open_sweep(ref / plan.sweep_file, "plane_channel") as b:
         for name in ("G_P", "Q_P", "status", "iterations", "code_version"):
             assert (a[name].values == b[name].values).all(), name
     for table in plan.table_files():
@@ -231,7 +232,7 @@ def test_corrupt_and_outdated_points_are_detected_and_only_they_recomputed(refer
     # nothing left to do
     r = smk(workdir, study)
     assert not batch_lines(r.stdout + r.stderr)
-    with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
+    with open_sweep(workdir / plan.sweep_file, "plane_channel") as ds:
         assert (ds["status"] == "converged").all()
         # provenance: every gathered point names the solver version that computed it
         assert set(ds["code_version"].values.ravel()) == {_version()}
@@ -288,7 +289,7 @@ def test_full_disk_fails_only_that_point_cleanly_and_it_is_retried(reference, tm
         assert r.returncode == 0, out[-3000:]
         assert [b["crashed"] for b in batch_lines(out)] == [len(victims), len(victims)], batch_lines(out)
         batch_log = "".join(p.read_text() for p in (workdir / "logs" / "disk" / "batches").rglob("*.log"))
-        with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
+        with open_sweep(workdir / plan.sweep_file, "plane_channel") as ds:
             reasons = [str(x) for x in ds["reason"].values.ravel()]
         for v in victims:
             final = workdir / plan.point_file(v)

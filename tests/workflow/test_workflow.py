@@ -15,6 +15,7 @@ from pathlib import Path
 import pytest
 import xarray as xr
 
+from knudsweep.gather import open_sweep
 from knudsweep.config import load_study
 from knudsweep.plan import StudyPlan
 from knudsweep.status import study_status
@@ -44,7 +45,7 @@ def test_tiny_study_end_to_end(tiny_run):
                                       "failed": 0, "crashed": 0}]
     for f in plan.point_files() + plan.batch_files() + plan.table_files() + plan.figure_files() + [plan.sweep_file]:
         assert (workdir / f).is_file(), f
-    with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
+    with open_sweep(workdir / plan.sweep_file, "plane_channel") as ds:
         assert list(ds["status"].values.ravel()) == ["converged"] * 3
         assert ds["G_P"].notnull().all()
     point = read_result(workdir / plan.point_files()[0])
@@ -100,7 +101,7 @@ def test_failing_point_is_recorded_and_others_finish(tmp_path):
     assert states["delta=1.0e-01"].state == "converged"
     assert states["delta=1.0e+01"].state == "failed"
     assert states["delta=1.0e+01"].reason
-    with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
+    with open_sweep(workdir / plan.sweep_file, "plane_channel") as ds:
         failed = ds.sel(delta=10.0).squeeze()
         assert str(failed["status"].values) == "failed" and bool(failed["G_P"].isnull())
     table = (workdir / plan.table_files()[0]).read_text()
@@ -147,8 +148,8 @@ def test_kill_mid_batch_then_resume_solves_only_unfinished_points(tmp_path):
     assert {f: (f.stat().st_ino, f.stat().st_mtime_ns) for f in done} == inodes  # never rewritten
     for f in files:
         assert not same_point_content(f, ref / f.relative_to(tmp_path / "w")), f
-    with xr.open_dataset(tmp_path / "w" / plan.sweep_file, group="plane_channel") as a, \
-            xr.open_dataset(ref / plan.sweep_file, group="plane_channel") as b:
+    with open_sweep(tmp_path / "w" / plan.sweep_file, "plane_channel") as a, \
+            open_sweep(ref / plan.sweep_file, "plane_channel") as b:
         for name in ("G_P", "Q_P", "G_P_error_estimate", "residual", "iterations", "status"):
             assert a[name].identical(b[name]), name
 
@@ -187,7 +188,7 @@ def test_a_crashing_and_a_failing_point_are_recorded_and_the_batch_is_written(tm
     # failed one, whose limits a higher attempt raises (here by a factor of 1, so it fails again)
     assert [(x["solved"], x["reused"], x["crashed"]) for x in lines] == [(2, 0, 1), (1, 1, 1)], lines
     plan = StudyPlan(load_study(study))
-    with xr.open_dataset(workdir / plan.sweep_file, group="plane_channel") as ds:
+    with open_sweep(workdir / plan.sweep_file, "plane_channel") as ds:
         s = {float(d): (str(ds["status"].sel(delta=d).item()), str(ds["reason"].sel(delta=d).item()))
              for d in ds["delta"].values}
         assert bool(ds["G_P"].sel(delta=0.1).notnull().all())
