@@ -53,6 +53,13 @@ of Shu & Osher, J. Comput. Phys. 77 (1988) 439 (third order; tested in
 tests/verification/test_relaxation_fast_spectral.py).  Negative values of f
 (Gibbs oscillations of the truncated Fourier series in the tails) are not
 removed; the smallest value is returned as ``min_distribution``.
+
+Records (shared with the model equations, :class:`deterministic.GridRecord`):
+moments, grid H, x-marginal; the binned H on equiprobable cells uses cell
+shares of each node with f/g interpolated locally against the Gaussian g of
+the current axis temperature (:func:`gaussian_axis_overlap`), because the
+wide box of this method leaves the cold axes of an anisotropic start barely
+resolved (h ~ sigma) for a piecewise-constant cell rule.
 """
 
 from __future__ import annotations
