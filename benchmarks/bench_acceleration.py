@@ -38,7 +38,7 @@ os.environ.setdefault("NUMBA_CACHE_DIR", str(REPO / ".numba_cache"))
 import numba  # noqa: E402
 import numpy as np  # noqa: E402
 
-from solver.plane_channel import solve_plane_channel  # noqa: E402
+from knudsweep.solver.plane_channel import solve_plane_channel  # noqa: E402
 
 DELTAS = (0.01, 1.0, 10.0, 100.0, 1000.0)
 TOL = 1e-8
@@ -78,13 +78,13 @@ def plane_heat(delta, accelerate, max_iter=None):
 
 
 def tube(delta, accelerate, max_iter=None):
-    from solver.tube import solve_tube
+    from knudsweep.solver.tube import solve_tube
 
     return solve_tube("poiseuille", delta=delta, accelerate=accelerate, tol=TOL, max_iter=max_iter)
 
 
 def duct(delta, accelerate, max_iter=None):
-    from solver.duct import solve_duct
+    from knudsweep.solver.duct import solve_duct
 
     return solve_duct("poiseuille", delta=delta, aspect_ratio=2.0, accelerate=accelerate, tol=TOL, max_iter=max_iter)
 

@@ -13,8 +13,8 @@ import time
 
 import numba
 
-from solver.plane_channel import solve_plane_channel
-from solver.plane_channel.boltzmann_driver import solve_plane_channel_boltzmann
+from knudsweep.solver.plane_channel import solve_plane_channel
+from knudsweep.solver.plane_channel.boltzmann_driver import solve_plane_channel_boltzmann
 
 DELTAS = (0.1, 1.0, 10.0, 100.0)
 

@@ -26,13 +26,13 @@ import numba  # noqa: E402
 import numpy as np  # noqa: E402
 import scipy.fft as sfft  # noqa: E402
 
-from solver import gas  # noqa: E402
-from solver.relaxation import deterministic as det  # noqa: E402
-from solver.relaxation import fast_spectral as fs  # noqa: E402
-from solver.relaxation import solve_relaxation  # noqa: E402
-from solver.relaxation.cross_sections import molecular_model  # noqa: E402
-from solver.relaxation.h_function import equiprobable_edges  # noqa: E402
-from solver.relaxation.initial_states import initial_density_on_grid, make_initial_state  # noqa: E402
+from knudsweep.solver import gas  # noqa: E402
+from knudsweep.solver.relaxation import deterministic as det  # noqa: E402
+from knudsweep.solver.relaxation import fast_spectral as fs  # noqa: E402
+from knudsweep.solver.relaxation import solve_relaxation  # noqa: E402
+from knudsweep.solver.relaxation.cross_sections import molecular_model  # noqa: E402
+from knudsweep.solver.relaxation.h_function import equiprobable_edges  # noqa: E402
+from knudsweep.solver.relaxation.initial_states import initial_density_on_grid, make_initial_state  # noqa: E402
 
 TARGET_S = 10.0
 

@@ -8,7 +8,7 @@ Prints figures and ratios, asserts nothing.  Run from the repository root:
 1. Dry-run time of a 10,000-point grid (DAG building only) and the time to
    expand the grid and cut it into batches in the package.
 2. Gather time for 1,000 and 10,000 synthetic points (point files written with
-   solver.netcdf_io, then checked and collected into batch files of 200 points
+   knudsweep.solver.netcdf_io, then checked and collected into batch files of 200 points
    as batch jobs do), serial and with 2 worker processes.
 (The workflow against its solver, with real solves: bench_sweep_throughput.py.)
 """
@@ -32,8 +32,8 @@ os.environ.setdefault("NUMBA_CACHE_DIR", str(REPO / ".numba_cache"))
 from knudsweep.config import validate_study  # noqa: E402
 from knudsweep.gather import gather_study  # noqa: E402
 from knudsweep.plan import StudyPlan  # noqa: E402
-from solver.netcdf_io import write_result  # noqa: E402
-from solver.result import ConvergenceRecord, Quantity, SolverResult  # noqa: E402
+from knudsweep.solver.netcdf_io import write_result  # noqa: E402
+from knudsweep.solver.result import ConvergenceRecord, Quantity, SolverResult  # noqa: E402
 
 
 def smk(workdir: Path, study: Path, *args: str) -> float:

@@ -12,7 +12,7 @@ import argparse
 
 import numba
 
-from solver.plane_channel import solve_plane_channel
+from knudsweep.solver.plane_channel import solve_plane_channel
 
 DELTAS = (0.01, 1.0, 10.0, 100.0, 1000.0)
 PLAIN_UP_TO = 100.0

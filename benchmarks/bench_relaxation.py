@@ -22,7 +22,7 @@ os.environ.setdefault("NUMBA_CACHE_DIR", os.path.join(os.path.dirname(__file__),
 
 import numba  # noqa: E402
 
-from solver.relaxation import solve_relaxation  # noqa: E402
+from knudsweep.solver.relaxation import solve_relaxation  # noqa: E402
 
 TARGET = 1e7
 REPEATS = 3

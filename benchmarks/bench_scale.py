@@ -1,7 +1,7 @@
 """Scale of the study layer: a 10,000-point plane-channel study without solving it.
 
 Prints: plan expansion time, Snakemake dry-run time (DAG of the batch jobs),
-time to write the synthetic point files (solver.netcdf_io from hand-built
+time to write the synthetic point files (knudsweep.solver.netcdf_io from hand-built
 SolverResults, no solve), `knudsweep status` time (first call: reads every
 file's attributes and writes the status sidecars; later calls: sidecars only),
 and gather time with peak memory (tracemalloc peak of the main process;
@@ -47,7 +47,7 @@ def study(n_points: int) -> dict:
 
 
 def synthetic_result(problem: str, delta: float, failed: bool):
-    from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+    from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
 
     y = np.linspace(-0.5, 0.5, 40)
     coef = {"poiseuille": "G_P", "thermal_creep": "G_T", "couette": "shear_stress",
@@ -66,7 +66,7 @@ def synthetic_result(problem: str, delta: float, failed: bool):
 
 def _write_batch(args):
     root, items = args
-    from solver.netcdf_io import write_result
+    from knudsweep.solver.netcdf_io import write_result
 
     for pid, problem, delta, path, failed, values in items:
         write_result(synthetic_result(problem, delta, failed), Path(root) / path,

@@ -17,9 +17,9 @@ import time
 
 import numba
 
-from solver.duct import solve_duct
-from solver.tube import solve_tube
-from solver.walls import CercignaniLampisWall
+from knudsweep.solver.duct import solve_duct
+from knudsweep.solver.tube import solve_tube
+from knudsweep.solver.walls import CercignaniLampisWall
 
 
 def _estimate(res, tol):

@@ -1,7 +1,7 @@
 """knudsweep numerics: kinetic solvers for rarefied-gas transport and relaxation.
 
 Pure numerics only: no workflow, no plotting.  Every solver returns a
-:class:`solver.result.SolverResult`; :mod:`solver.netcdf_io` writes it.
+:class:`knudsweep.solver.result.SolverResult`; :mod:`knudsweep.solver.netcdf_io` writes it.
 """
 
 __version__ = "0.3.0"

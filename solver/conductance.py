@@ -1,7 +1,7 @@
 """Physical conductance, non-linear pressure-driven flow and thermal transpiration.
 
-Reduced flow rates G_P(delta), G_T(delta) of the long tube (``solver.tube``)
-or rectangular duct (``solver.duct``) are turned into SI quantities.
+Reduced flow rates G_P(delta), G_T(delta) of the long tube (``knudsweep.solver.tube``)
+or rectangular duct (``knudsweep.solver.duct``) are turned into SI quantities.
 
 Local relation (check-values 0.2; Sharipov & Seleznev, J. Phys. Chem. Ref.
 Data 27 (1998) 657), valid for a long channel where p and T change little over
@@ -37,8 +37,8 @@ from scipy.integrate import solve_ivp
 from scipy.interpolate import PchipInterpolator
 from scipy.optimize import brentq
 
-from solver import gas as gasmod
-from solver.walls import MaxwellWall
+from knudsweep.solver import gas as gasmod
+from knudsweep.solver.walls import MaxwellWall
 
 __all__ = [
     "FlowRateTable",
@@ -125,12 +125,12 @@ def compute_table(
         raise ValueError(f"geometry: must be one of {', '.join(GEOMETRIES)}, got {geometry!r}")
     deltas = np.geomspace(1e-3, 1e3, 13) if deltas is None else np.asarray(deltas, float)
     if geometry == "tube":
-        from solver.tube import solve_tube as _solve
+        from knudsweep.solver.tube import solve_tube as _solve
 
         kw = {}
         slope = 0.25
     else:
-        from solver.duct import continuum_flow_rate, solve_duct as _solve
+        from knudsweep.solver.duct import continuum_flow_rate, solve_duct as _solve
 
         kw = {"aspect_ratio": float(aspect_ratio)}
         slope = continuum_flow_rate(1.0, aspect_ratio)

@@ -16,7 +16,7 @@ tanh(n pi A / 2) / n^5] (laminar flow in a rectangular duct: White, *Viscous
 Fluid Flow*, 3rd ed. 2006, eq. 3-48; Shah & London 1978), see
 :func:`continuum_flow_rate`.
 
-Equations and moments are those of ``solver.tube`` (reduced functions Phi1,
+Equations and moments are those of ``knudsweep.solver.tube`` (reduced functions Phi1,
 Phi3 after integrating out c_x; in-plane velocity c (cos theta, sin theta)).
 
 Method
@@ -53,14 +53,14 @@ optically thick cells) and the second is the Navier-Stokes momentum balance
 e - (sigma/delta) de/dn_in = 0.  A is factorised once (scipy.sparse LU).
 ES-BGK: the shear stress in the gain lags one sweep; its change r_tau adds
 -(e/(1-e)) div r_tau / (nu delta) to R (the plane channel's treatment,
-``solver.plane_channel.kernels._synthetic_step``).
+``knudsweep.solver.plane_channel.kernels._synthetic_step``).
 
 Walls re-emit what arrived in the previous sweep, a lag of specular
 reflection.  Two measures (Poiseuille, A = 2, BGK, tol 1e-8):
 * the specular part of the wall inflow is corrected along with u
   (``_correct_inflow``): alpha = 0.1 at delta = 1000 went from 107 to 15
   iterations;
-* the accelerated iteration is Anderson-mixed (``solver.anderson``, 16
+* the accelerated iteration is Anderson-mixed (``knudsweep.solver.anderson``, 16
   differences) over the moments and the wall inflow: alpha = 0.3 went from
   > 300 iterations (delta >= 1) to 20-38.
 Near the free-molecular limit the lag remains: the bounce operator has its
@@ -81,9 +81,9 @@ from scipy.integrate import quad
 from scipy.optimize import brentq
 from scipy.sparse.linalg import splu
 
-from solver.anderson import AndersonMixer
-from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
-from solver.tube import (
+from knudsweep.solver.anderson import AndersonMixer
+from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+from knudsweep.solver.tube import (
     check_common,
     check_estimate_options,
     nested_ladder,
@@ -94,7 +94,7 @@ from solver.tube import (
     speed_rule,
     tangential_accommodation,
 )
-from solver.walls import CercignaniLampisWall, MaxwellWall
+from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
 __all__ = [
     "solve_duct",
@@ -110,7 +110,7 @@ MAX_ASPECT_RATIO = 50.0
 MAX_DELTA = 1.0e3  # upper end of the accepted delta range (see default_sizes)
 WALL_CELL = 0.1  # first cell at the wall, in free paths (see _clustered)
 MAX_CELL = 2.0  # largest cell, in units of the uniform spacing (see _clustered)
-_MIX_DEPTH = 16  # Anderson history (solver.anderson) of the accelerated iteration
+_MIX_DEPTH = 16  # Anderson history (knudsweep.solver.anderson) of the accelerated iteration
 _MIX_MEMORY = 200_000_000  # bytes for that history; fine grids get a shorter one
 UNCOLLIDED_DELTA = 4.0  # delta at which half of the uncollided part is analytic (uncollided_weight)
 _ACCEL_SLIP = 1.0162  # BGK diffuse slip (check-values 2, from memory); used only in the correction
@@ -519,10 +519,10 @@ class _WallReemission:
     """Wall inflow of the next sweep from the distribution arriving in the previous one.
 
     Maxwell: (1 - alpha) x the mirrored arriving value (the diffuse part carries
-    no c_x-odd perturbation).  Cercignani-Lampis: as in ``solver.tube``
-    (:class:`solver.tube._TubeCLWall`), Psi1 = Phi1 and Psi3 = Phi3 - (3/2) Phi1
+    no c_x-odd perturbation).  Cercignani-Lampis: as in ``knudsweep.solver.tube``
+    (:class:`knudsweep.solver.tube._TubeCLWall`), Psi1 = Phi1 and Psi3 = Phi3 - (3/2) Phi1
     are reflected with (1 - alpha_t) and (1 - alpha_t)^3 times the in-plane
-    kernel :func:`solver.tube.inplane_cl_kernel`, here a matrix from the
+    kernel :func:`knudsweep.solver.tube.inplane_cl_kernel`, here a matrix from the
     arriving to the re-emitted discrete ordinates (the same at every node of
     a flat wall).  Quadrants: 0 (+y,+z), 1 (-y,+z), 2 (+y,-z), 3 (-y,-z).
     """
@@ -799,7 +799,7 @@ def default_sizes(delta: float, aspect_ratio: float) -> tuple[int, int, int, int
 
 
 # Error reduction per ladder step assumed by the Richardson estimate
-# (solver.resolution).  Measured (A = 2, BGK, diffuse, delta = 1, G_P) on
+# (knudsweep.solver.resolution).  Measured (A = 2, BGK, diffuse, delta = 1, G_P) on
 # 7 -> 13 -> 25 -> 49 -> 97 nodes: 2.7 to 3.3 per step (second-order upwind,
 # first order next to the walls; the speed error, ~6e-4 of G_P at 12 speeds,
 # falls more slowly).
@@ -874,7 +874,7 @@ def solve_duct(
               quadrant = n_velocity / 2).
     accuracy : relative accuracy asked of G and Q, in [1e-6, 0.1]; the
               resolution then climbs :func:`resolution_ladder` until the
-              Richardson estimate (solver.resolution) is below it (n_space,
+              Richardson estimate (knudsweep.solver.resolution) is below it (n_space,
               n_velocity must be None; iteration tol min(tol, accuracy/100)).
               Not reached on the finest level: status "failed" with the reason.
     error_estimate : without accuracy, also solve at one coarser step (half
@@ -980,7 +980,7 @@ def _solve_duct_once(problem, delta, a_r, km, wall, n_space, n_velocity, max_ite
 
     # state of the iteration: the moments the sweep reads and, unless the walls
     # are diffuse, the wall inflow (re-emission of what arrived in the previous
-    # sweep).  Anderson mixing of this state (solver.anderson) removes most of
+    # sweep).  Anderson mixing of this state (knudsweep.solver.anderson) removes most of
     # the wall lag of specular reflection, which the synthetic correction does
     # not see, and the oscillation of the lagged ES-BGK stress.
     inflow = walls.inflow(phi1, phi3, at_walls)

@@ -19,8 +19,8 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
-from solver import __version__
-from solver.result import ConvergenceRecord, Quantity, SolverResult
+from knudsweep.solver import __version__
+from knudsweep.solver.result import ConvergenceRecord, Quantity, SolverResult
 
 CF_VERSION = "CF-1.11"
 _ATTR_PREFIX = "param_"

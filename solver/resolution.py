@@ -66,7 +66,7 @@ class ResolutionChoice:
     def record(self) -> dict:
         """Plain-data summary for a result's discretization record."""
         return {
-            "error_estimate_method": "Richardson, consecutive resolutions (solver.resolution)",
+            "error_estimate_method": "Richardson, consecutive resolutions (knudsweep.solver.resolution)",
             "error_estimate_ratio": float(self.ratio),
             "relative_error_estimate": float(self.relative_estimate),
             "accuracy_target": self.target,
@@ -181,7 +181,7 @@ def result_values(res) -> dict[str, float]:
 
 def attach_estimate(res, choice: ResolutionChoice | None, how: str) -> None:
     """Add "<name>_error_estimate" coefficients (NaN if ``choice`` is None) and the record to ``res``."""
-    from solver.result import Quantity
+    from knudsweep.solver.result import Quantity
 
     for name in list(result_values(res)):
         err = choice.error_estimate[name] if choice is not None else float("nan")
@@ -236,7 +236,7 @@ def solve_with_estimate(
     """
     import time
 
-    from solver.result import CONVERGED, FAILED
+    from knudsweep.solver.result import CONVERGED, FAILED
 
     if accuracy is None:
         res = run(n_space, n_velocity, tol)

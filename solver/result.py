@@ -2,7 +2,7 @@
 
 A result is plain data: named coordinates, named profiles on those coordinates,
 named scalar coefficients, the parameters of the point, the discretization used
-and a convergence record.  It knows nothing about files; ``solver.netcdf_io``
+and a convergence record.  It knows nothing about files; ``knudsweep.solver.netcdf_io``
 turns it into a CF netCDF file.
 """
 

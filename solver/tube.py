@@ -11,7 +11,7 @@ Maxwellian (f = f_M (1 + h)) obeys, for the pressure gradient X_P = -(a/p) dp/dx
     c_perp . grad h + nu delta h = nu delta [2 c_x u + model term] + c_x            (poiseuille)
     c_perp . grad h + nu delta h = nu delta [2 c_x u + model term] - c_x (c^2 - 5/2) (thermal creep)
 
-(nu = collision-frequency factor of the model, ``solver.kinetic_models``).  The
+(nu = collision-frequency factor of the model, ``knudsweep.solver.kinetic_models``).  The
 streaming operator does not touch c_x, so c_x is integrated out exactly: with
 w(c_x) = exp(-c_x^2)/sqrt(pi) the two reduced functions
 
@@ -71,12 +71,12 @@ from scipy.interpolate import CubicSpline
 from scipy.linalg import lu_factor, lu_solve
 from scipy.special import i0e
 
-from solver.kinetic_models import get_model
-from solver.quadrature import half_range_hermite, log_linear_half_range
-from solver.resolution import attach_estimate, check_estimate_options  # noqa: F401  (re-exported for solver.duct)
-from solver.resolution import solve_with_estimate as _shared_solve_with_estimate
-from solver.result import FAILED, CONVERGED, ConvergenceRecord, Quantity, SolverResult
-from solver.walls import CercignaniLampisWall, MaxwellWall
+from knudsweep.solver.kinetic_models import get_model
+from knudsweep.solver.quadrature import half_range_hermite, log_linear_half_range
+from knudsweep.solver.resolution import attach_estimate, check_estimate_options  # noqa: F401  (re-exported for knudsweep.solver.duct)
+from knudsweep.solver.resolution import solve_with_estimate as _shared_solve_with_estimate
+from knudsweep.solver.result import FAILED, CONVERGED, ConvergenceRecord, Quantity, SolverResult
+from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
 __all__ = ["solve_tube", "PROBLEMS", "TubeGrid", "resolution_ladder"]
 
@@ -172,7 +172,7 @@ def speed_rule(n_speed: int, delta: float):
     """In-plane speed rule for int_0^inf c exp(-c^2) g(c) dc: nodes c_k, weights (sum 1/2).
 
     delta = 0 or >= GRADED_BELOW: half-range Hermite rule with n_speed nodes
-    (``solver.quadrature``), weights times c.  0 < delta < GRADED_BELOW: the
+    (``knudsweep.solver.quadrature``), weights times c.  0 < delta < GRADED_BELOW: the
     factor exp(-nu delta s / c) of a ray of length s varies on every scale
     c ~ delta s < 1, so a composite rule (:func:`log_linear_half_range`, from
     max(min(1e-3, delta/10), 1e-7) to 1) whose every panel narrows as n_speed
@@ -647,7 +647,7 @@ def _sizes(n_space, n_velocity, delta):
 # discretization error estimate and accuracy target (shared with the duct solver)
 # --------------------------------------------------------------------------
 # Error reduction per ladder step assumed by the Richardson estimate
-# (solver.resolution).  Measured for the tube, BGK, diffuse wall, G_P and Q_P at
+# (knudsweep.solver.resolution).  Measured for the tube, BGK, diffuse wall, G_P and Q_P at
 # delta = 0.1 and 10 on (21, 12) -> (41, 16) -> (81, 32): 11 to 12 per step
 # (space error dominates; long characteristics with a cubic source).  6 keeps
 # the estimate about twice the actual error, on the safe side.
@@ -702,7 +702,7 @@ def resolution_ladder(delta: float) -> list[tuple[int, int]]:
 
 
 def solve_with_estimate(run, n_space, n_velocity, *, tol, accuracy, error_estimate, ladder, assumed_ratio, t_start):
-    """Tube/duct entry to the shared driver :func:`solver.resolution.solve_with_estimate`.
+    """Tube/duct entry to the shared driver :func:`knudsweep.solver.resolution.solve_with_estimate`.
 
     The coarse level of the estimate is :func:`coarser_level` (half the spatial
     intervals, 3/4 of the speed nodes).
@@ -738,7 +738,7 @@ def solve_tube(
             half circle = 1.5 n_velocity, even).
     accuracy : relative accuracy asked of G and Q, in [1e-6, 0.1]; the
             resolution then climbs :func:`resolution_ladder` until the
-            Richardson estimate (solver.resolution) is below it (n_space,
+            Richardson estimate (knudsweep.solver.resolution) is below it (n_space,
             n_velocity must be None; iteration tol min(tol, accuracy/100)).
             Not reached on the finest level: status "failed" with the reason.
     error_estimate : without accuracy, also solve at one coarser step (half

@@ -1,6 +1,6 @@
 """Linearised rarefied-gas flows between parallel plates (discrete-velocity method).
 
-    from solver.plane_channel import solve_plane_channel
+    from knudsweep.solver.plane_channel import solve_plane_channel
     res = solve_plane_channel("poiseuille", delta=1.0)
     res.coefficient("G_P")
 
@@ -10,7 +10,7 @@ grid, velocity sets, defaults), ``kernels`` (numba sweeps and iteration),
 ``driver`` (checked entry point).
 """
 
-from solver.plane_channel.driver import solve_plane_channel
-from solver.plane_channel.problems import PROBLEMS
+from knudsweep.solver.plane_channel.driver import solve_plane_channel
+from knudsweep.solver.plane_channel.problems import PROBLEMS
 
 __all__ = ["PROBLEMS", "solve_plane_channel"]

@@ -41,11 +41,11 @@ import time
 
 import numpy as np
 
-from solver.plane_channel import grids, kernels
-from solver.plane_channel import linearized_boltzmann as lb
-from solver.resolution import check_estimate_options, solve_with_estimate
-from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
-from solver.walls import MaxwellWall
+from knudsweep.solver.plane_channel import grids, kernels
+from knudsweep.solver.plane_channel import linearized_boltzmann as lb
+from knudsweep.solver.resolution import check_estimate_options, solve_with_estimate
+from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+from knudsweep.solver.walls import MaxwellWall
 
 PROBLEMS = ("poiseuille", "thermal_creep")
 MOLECULES = ("hard_sphere",)
@@ -131,7 +131,7 @@ def solve_plane_channel_boltzmann(
     problem : "poiseuille" or "thermal_creep".
     delta : rarefaction parameter p a / (mu v0), a = gap, in [1e-2, 1e3].
     molecule : "hard_sphere".
-    lower_wall, upper_wall : solver.walls.MaxwellWall (upper None: same as lower).
+    lower_wall, upper_wall : knudsweep.solver.walls.MaxwellWall (upper None: same as lower).
     n_space : cells across the gap (default grids.default_n_space).
     n_velocity : speed nodes n_speed in [4, 24]; directions and Legendre order
         follow from it (``velocity_level``).

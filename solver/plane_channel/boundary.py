@@ -37,7 +37,7 @@ from __future__ import annotations
 import numpy as np
 from scipy.special import i0e
 
-from solver.walls import CercignaniLampisWall, MaxwellWall
+from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
 
 def diffuse_matrix(c: np.ndarray, w: np.ndarray) -> np.ndarray:

@@ -7,16 +7,16 @@ import time
 
 import numpy as np
 
-from solver.kinetic_models import get_model
-from solver.plane_channel import grids, kernels
-from solver.plane_channel.boundary import wall_operators
-from solver.plane_channel.problems import PROBLEMS, build_tables, coefficients_and_profiles
-from solver.resolution import check_estimate_options, solve_with_estimate
-from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
-from solver.walls import CercignaniLampisWall, MaxwellWall
+from knudsweep.solver.kinetic_models import get_model
+from knudsweep.solver.plane_channel import grids, kernels
+from knudsweep.solver.plane_channel.boundary import wall_operators
+from knudsweep.solver.plane_channel.problems import PROBLEMS, build_tables, coefficients_and_profiles
+from knudsweep.solver.resolution import check_estimate_options, solve_with_estimate
+from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
 DELTA_RANGE = (1e-4, 1e4)
-# model names of the linearized Boltzmann equation -> molecule of solver.plane_channel.boltzmann_driver
+# model names of the linearized Boltzmann equation -> molecule of knudsweep.solver.plane_channel.boltzmann_driver
 BOLTZMANN_MODELS = {"boltzmann_hard_sphere": "hard_sphere"}
 # relative change per iteration: below 1e-14 it is round-off of the double-precision sweep
 TOL_RANGE = (1e-14, 1e-2)
@@ -134,11 +134,11 @@ def solve_plane_channel(
     ----------
     problem : "poiseuille", "thermal_creep", "couette" or "heat_transfer".
     delta : rarefaction parameter p a / (mu v0), a = gap, in [1e-4, 1e4].
-    model : kinetic model, "bgk", "s_model" or "es_bgk" (solver.kinetic_models), or
+    model : kinetic model, "bgk", "s_model" or "es_bgk" (knudsweep.solver.kinetic_models), or
         "boltzmann_hard_sphere": the linearized Boltzmann equation
         (``boltzmann_driver``; poiseuille and thermal_creep, Maxwell walls,
         delta in [1e-3, 1e3], n_velocity = speed nodes in [4, 24]).
-    lower_wall, upper_wall : solver.walls.MaxwellWall / CercignaniLampisWall;
+    lower_wall, upper_wall : knudsweep.solver.walls.MaxwellWall / CercignaniLampisWall;
         upper_wall None means the same as lower_wall.
     n_space : cells across the gap (default from delta, grids.default_n_space).
     n_velocity : positive half-range velocity nodes (default from delta).
@@ -149,7 +149,7 @@ def solve_plane_channel(
         kernels._synthetic_step).
     accuracy : relative accuracy asked of every coefficient, in [1e-6, 0.1];
         the resolution is then chosen by climbing grids.resolution_ladder
-        until the Richardson estimate (solver.resolution) is below it
+        until the Richardson estimate (knudsweep.solver.resolution) is below it
         (n_space / n_velocity must be None).  The iteration tolerance is
         tightened to min(tol, accuracy / 100).  Not reached on the finest
         allowed grid: status "failed" with the reason.
@@ -206,7 +206,7 @@ def solve_plane_channel(
 def _solve_boltzmann(problem, model, delta, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol, accelerate,
                      accuracy, error_estimate) -> SolverResult:
     """The linearized Boltzmann equation (``boltzmann_driver``): Poiseuille and thermal creep, Maxwell walls."""
-    from solver.plane_channel import boltzmann_driver
+    from knudsweep.solver.plane_channel import boltzmann_driver
 
     if problem not in boltzmann_driver.PROBLEMS:
         raise ValueError(f"problem: model {model} solves {', '.join(boltzmann_driver.PROBLEMS)} only, got {problem!r}")

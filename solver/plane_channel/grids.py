@@ -27,7 +27,7 @@ import math
 
 import numpy as np
 
-from solver.quadrature import graded_half_range, half_range_hermite
+from knudsweep.solver.quadrature import graded_half_range, half_range_hermite
 
 GRADED_BELOW = 5.0
 MIN_SPACE, MAX_SPACE = 8, 4000

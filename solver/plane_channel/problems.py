@@ -2,7 +2,7 @@
 
 Units: y in units of the gap a (walls at y = -1/2, +1/2), velocities in v0,
 delta = p a / (mu v0); d = collision_factor * delta (``kinetic_models``).
-Linearisation f = f_M (1 + h).  Model gain terms: see ``solver.kinetic_models``.
+Linearisation f = f_M (1 + h).  Model gain terms: see ``knudsweep.solver.kinetic_models``.
 
 Odd problems (h odd in c_x):  h = c_x [2 Phi(y, c_y) + (c_x^2 + c_z^2 - 2) Psi(y, c_y)]
 
@@ -53,7 +53,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from solver.kinetic_models import KineticModel
+from knudsweep.solver.kinetic_models import KineticModel
 
 PROBLEMS = ("poiseuille", "thermal_creep", "couette", "heat_transfer")
 SQRT_PI = math.sqrt(math.pi)

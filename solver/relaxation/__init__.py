@@ -6,6 +6,6 @@ grid) solvers, the exact BKW solution, H-function estimators and
 relaxation-time fits.  Entry point: :func:`solve_relaxation`.
 """
 
-from solver.relaxation.solve import METHODS, solve_relaxation
+from knudsweep.solver.relaxation.solve import METHODS, solve_relaxation
 
 __all__ = ["METHODS", "solve_relaxation"]

@@ -38,7 +38,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from solver.gas import GasData
+from knudsweep.solver.gas import GasData
 
 MOLECULAR_MODELS = ("vhs", "vss", "hard_sphere", "maxwell")
 

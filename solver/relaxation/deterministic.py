@@ -17,7 +17,7 @@ S-model and ES-BGK):
             B 19 (2000) 813): stress relaxes at p/mu, heat flux at Pr p/mu
 
 p/mu in reduced units is the molecular model's collision_time_factor (see
-:mod:`solver.relaxation.cross_sections`).
+:mod:`knudsweep.solver.relaxation.cross_sections`).
 
 Conservation on the grid.  Following Mieussens, J. Comput. Phys. 162 (2000)
 429, the target is made conservative on the grid: the discrete target is
@@ -47,7 +47,7 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
-from solver.relaxation.h_function import (
+from knudsweep.solver.relaxation.h_function import (
     _relative_entropy_grid,
     axis_overlap,
     binned_divergence_grid,
@@ -361,7 +361,7 @@ class GridRecord:
         self.max_f = max(self.max_f, float(f.max()))
 
     def result(self) -> dict:
-        """The dictionary that :func:`solver.relaxation.solve` assembles (one 'replica')."""
+        """The dictionary that :func:`knudsweep.solver.relaxation.solve` assembles (one 'replica')."""
         rec = self.rec
         rho = rec[:, 0:1]
         temp = np.concatenate([rec[:, 5:8], rec[:, 8:11]], axis=1) / rho

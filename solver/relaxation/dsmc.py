@@ -16,7 +16,7 @@ candidate is then accepted with probability 1; the number of such events is
 reported, it measures the small bias this causes).  For Maxwell molecules
 sigma c_r is a constant, which is then the exact majorant (every candidate
 collides).  Candidate pairs come from one 64-bit random output
-(:func:`solver.relaxation.rng.distinct_pair`).
+(:func:`knudsweep.solver.relaxation.rng.distinct_pair`).
 
 Scattering.  VHS: isotropic in the centre-of-mass frame, the direction drawn
 by Marsaglia's method (Ann. Math. Stat. 43 (1972) 645).  VSS (Koura &
@@ -28,7 +28,7 @@ v_cm +- g'/2 with |g'| = |g|, so momentum and energy are conserved in each
 collision to round-off.
 
 Random numbers: each replica owns a xoshiro256** generator state
-(:mod:`solver.relaxation.rng`) spawned from the point seed by numpy's
+(:mod:`knudsweep.solver.relaxation.rng`) spawned from the point seed by numpy's
 SeedSequence and runs wholly on one thread, so a replica depends only on the
 seed and its index, not on the number of threads.
 """
@@ -40,9 +40,9 @@ import math
 import numpy as np
 from numba import njit, prange
 
-from solver.relaxation.h_function import _binned_divergence_particles
-from solver.relaxation.initial_states import _sample_initial
-from solver.relaxation.rng import distinct_pair, replica_states, uniform
+from knudsweep.solver.relaxation.h_function import _binned_divergence_particles
+from knudsweep.solver.relaxation.initial_states import _sample_initial
+from knudsweep.solver.relaxation.rng import distinct_pair, replica_states, uniform
 
 # Columns of the per-output moment record.
 COL_UX, COL_UY, COL_UZ = 0, 1, 2

@@ -2,7 +2,7 @@
 
     df/dt = Q(f, f),   Q = int_R3 int_S2 B(|g|, cos chi) [f(v') f(v*') - f(v) f(v*)] dsigma dv*     (1)
 
-in the reduced units of :mod:`solver.relaxation.cross_sections` (n = 1, velocity
+in the reduced units of :mod:`knudsweep.solver.relaxation.cross_sections` (n = 1, velocity
 sqrt(kT/m), time in mean collision times), with the same VHS/VSS cross-section
 as the particle solver (hard spheres and Maxwell molecules as special cases):
 
@@ -19,7 +19,7 @@ Comp. 75 (2006) 1833, eqs. (2.4) and (3.10)-(3.16).  In Carleman's form
 
 (y = v' - v, |x| = |g| cos(chi/2)), both |x|, |y| truncated at R, on the
 periodic box [-L, L]**3 with the velocity grid of
-:mod:`solver.relaxation.deterministic`.  Writing x = rho e, y = rho' e' the
+:mod:`knudsweep.solver.relaxation.deterministic`.  Writing x = rho e, y = rho' e' the
 kernel enters through G(rho, rho') = rho rho' Bt.  For hard spheres G is a
 product (Mouhot & Pareschi's case).  For other VHS/VSS molecules G is
 non-separable; here it is replaced by its truncated singular-value expansion
@@ -72,9 +72,9 @@ import scipy.fft as sfft
 from numba import njit
 from scipy.special import j0
 
-from solver.relaxation import deterministic as det
-from solver.relaxation.cross_sections import MolecularModel
-from solver.relaxation.initial_states import InitialState, initial_density_on_grid
+from knudsweep.solver.relaxation import deterministic as det
+from knudsweep.solver.relaxation.cross_sections import MolecularModel
+from knudsweep.solver.relaxation.initial_states import InitialState, initial_density_on_grid
 
 # Defaults (accuracy studied in tests/verification/test_relaxation_fast_spectral.py).
 DEFAULT_TRUNCATION = 0.6   # R / L
@@ -281,7 +281,7 @@ def run_fast_spectral(model: MolecularModel, state: InitialState, grid: det.Velo
                       keep_distribution: bool = False, **operator_options) -> dict:
     """Relax ``state`` under eq. (1); records at n_output times, ``steps`` steps of ``dt`` apart.
 
-    Returns the dictionary of the model-equation path of :func:`solver.relaxation.solve`
+    Returns the dictionary of the model-equation path of :func:`knudsweep.solver.relaxation.solve`
     (temperature tensor, <c^4>, heat flux, binned and grid H, x-marginal, drifts,
     min_distribution), so the result assembles the same way.
     """

@@ -28,7 +28,7 @@ Estimates:
   standard error) or below min_fraction of its start.
 * :func:`fit_two_exponentials` -- y = C exp(-r t) + D exp(-q t) with q fixed.
   For Maxwell molecules the fourth moment M4 = <c^4> obeys exactly (derived in
-  :mod:`solver.relaxation.moments` from the Maxwell-molecule collision
+  :mod:`knudsweep.solver.relaxation.moments` from the Maxwell-molecule collision
   integral; cf. Truesdell & Muncaster 1980)
 
       dM4/dt = -r4 (M4 - 15) - r4 tr(sigma^2),   r4 = (2/3) p/mu,

@@ -10,7 +10,7 @@ that it relaxes to the standard Maxwellian.
                   the rest at -w s (zero total momentum), both at the beam
                   temperature T_b = 1 - w (1 - w) s**2 / 3 (energy closes)
     bkw           the BKW distribution (Bobylev 1975; Krook & Wu 1976), eq. in
-                  :mod:`solver.relaxation.bkw`, at K = K(t_start)
+                  :mod:`knudsweep.solver.relaxation.bkw`, at K = K(t_start)
 
 Particle states are sampled by :func:`_sample_initial` (numba; uses the
 replica's generator state) and then shifted and scaled so that the sample
@@ -26,8 +26,8 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
-from solver.relaxation.bkw import BKW_FIRST_TIME, bkw_k
-from solver.relaxation.rng import normal, uniform
+from knudsweep.solver.relaxation.bkw import BKW_FIRST_TIME, bkw_k
+from knudsweep.solver.relaxation.rng import normal, uniform
 
 INITIAL_STATES = ("equilibrium", "anisotropic", "two_beams", "bkw")
 KIND_CODE = {"equilibrium": 0, "anisotropic": 1, "two_beams": 2, "bkw": 3}
@@ -196,7 +196,7 @@ def initial_density_on_grid(state: InitialState, vx: np.ndarray, vy: np.ndarray,
         b2 = np.exp(-0.5 * ((vx + w * s) ** 2 + perp) / tb)
         return norm * (w * b1 + (1.0 - w) * b2)
     if state.name == "bkw":
-        from solver.relaxation.bkw import bkw_density
+        from knudsweep.solver.relaxation.bkw import bkw_density
 
         return bkw_density(np.sqrt(v2), state.params[0])
     raise ValueError(f"initial_state: unknown {state.name!r}")

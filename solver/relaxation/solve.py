@@ -2,14 +2,14 @@
 
 A gas at pressure p and (equilibrium) temperature T starts from a
 non-equilibrium velocity distribution and relaxes to the Maxwellian.  The
-particle method (DSMC, :mod:`solver.relaxation.dsmc`) and the fast spectral
-method (:mod:`solver.relaxation.fast_spectral`, deterministic) solve the
+particle method (DSMC, :mod:`knudsweep.solver.relaxation.dsmc`) and the fast spectral
+method (:mod:`knudsweep.solver.relaxation.fast_spectral`, deterministic) solve the
 Boltzmann equation for the chosen molecular model; the model-equation methods
-(:mod:`solver.relaxation.deterministic`) solve the BGK, S-model or ES-BGK
+(:mod:`knudsweep.solver.relaxation.deterministic`) solve the BGK, S-model or ES-BGK
 equation, whose relaxation frequency is set by the same molecular model's
 p/mu.  Everything runs in reduced units (n = 1, velocity sqrt(kT/m), time in
 mean collision times tau_c); tau_c in seconds follows from the gas viscosity
-at T (:mod:`solver.relaxation.cross_sections`).
+at T (:mod:`knudsweep.solver.relaxation.cross_sections`).
 """
 
 from __future__ import annotations
@@ -20,13 +20,13 @@ from typing import Any
 
 import numpy as np
 
-from solver import gas as gasmod
-from solver.relaxation import deterministic as det
-from solver.relaxation import dsmc
-from solver.relaxation import fast_spectral as fs
-from solver.relaxation.bkw import BKW_FIRST_TIME
-from solver.relaxation.cross_sections import MOLECULAR_MODELS, check_model, molecular_model
-from solver.relaxation.fitting import (
+from knudsweep.solver import gas as gasmod
+from knudsweep.solver.relaxation import deterministic as det
+from knudsweep.solver.relaxation import dsmc
+from knudsweep.solver.relaxation import fast_spectral as fs
+from knudsweep.solver.relaxation.bkw import BKW_FIRST_TIME
+from knudsweep.solver.relaxation.cross_sections import MOLECULAR_MODELS, check_model, molecular_model
+from knudsweep.solver.relaxation.fitting import (
     KIND_E_FOLDING,
     KIND_EXPONENTIAL,
     KIND_TWO_EXPONENTIAL,
@@ -39,15 +39,15 @@ from solver.relaxation.fitting import (
     late_rate,
     nan_fit,
 )
-from solver.relaxation.deterministic import HIST_BINS, HIST_LO, HIST_WIDTH
-from solver.relaxation.h_function import equiprobable_edges, sampling_bias
-from solver.relaxation.initial_states import (
+from knudsweep.solver.relaxation.deterministic import HIST_BINS, HIST_LO, HIST_WIDTH
+from knudsweep.solver.relaxation.h_function import equiprobable_edges, sampling_bias
+from knudsweep.solver.relaxation.initial_states import (
     InitialState,
     grid_half_width,
     initial_density_on_grid,
     make_initial_state,
 )
-from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
 
 METHODS = ("dsmc", "bgk", "s_model", "es_bgk", "fast_spectral")
 # Default time step per method (mean collision times).  DSMC 0.1 and model
@@ -425,7 +425,7 @@ def _relaxation_fits(times, state, aniso, heat_x, m4):
     decay is not exponential), plus the initial rate and the late rate.
     <c^4> - 15: with an initial anisotropy, C exp(-r t) + D exp(-q t) with
     q = 2 x the anisotropy rate (exact for Maxwell molecules and ES-BGK, see
-    :mod:`solver.relaxation.moments`); otherwise one exponential.
+    :mod:`knudsweep.solver.relaxation.moments`); otherwise one exponential.
     """
     fits: dict[str, DecayFit] = {}
     extra: dict[tuple[str, str], DecayFit] = {}

@@ -2,7 +2,7 @@
 
 Point files and batch files carry ``content_sha256``: a SHA-256 over every
 variable's bytes and the attributes that give the numbers their meaning
-(solver.netcdf_io.content_digest). Without it, a flipped bit in the stored
+(knudsweep.solver.netcdf_io.content_digest). Without it, a flipped bit in the stored
 G_P (1.5383 becoming 1.0383) was gathered as converged.
 """
 

@@ -19,9 +19,9 @@ from knudsweep.cli import main
 from knudsweep.config import validate_study
 from knudsweep.plan import StudyPlan
 from knudsweep.status import (clean_stray_temporaries, sidecar_path, stray_temporaries, study_status)
-from solver import __version__
-from solver.netcdf_io import write_result
-from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+from knudsweep.solver import __version__
+from knudsweep.solver.netcdf_io import write_result
+from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
 
 from fault_helpers import check_complete, wait_for
 
@@ -30,8 +30,8 @@ SEED = 7
 WRITER = textwrap.dedent('''
     import sys, numpy as np
     from pathlib import Path
-    from solver.netcdf_io import to_dataset, write_dataset
-    from solver.result import ConvergenceRecord, Quantity, SolverResult
+    from knudsweep.solver.netcdf_io import to_dataset, write_dataset
+    from knudsweep.solver.result import ConvergenceRecord, Quantity, SolverResult
     out = Path(sys.argv[1])
     rng = np.random.default_rng(int(sys.argv[2]))
     # 2 M random floats: zlib cannot shrink them, so each write spends ~0.1-0.3 s inside HDF5

@@ -19,7 +19,7 @@ from knudsweep import cli
 from knudsweep.config import StudyConfigError, key_path, load_study, validate_study
 from knudsweep.families.plane_channel import MODELS, PROBLEMS
 from knudsweep.plan import StudyPlan
-from solver.gas import known_gases
+from knudsweep.solver.gas import known_gases
 
 BASE = {
     "study": "fuzz",

@@ -108,7 +108,7 @@ tube_duct:
 
 def test_a_point_that_cannot_fit_in_memory_is_refused_with_its_estimate(tmp_path):
     # used to die in the job with "Unable to allocate 149 GiB"; the estimate is
-    # 20 bytes per unknown of the distribution (solver.duct.DUCT_BYTES_PER_UNKNOWN, measured)
+    # 20 bytes per unknown of the distribution (knudsweep.solver.duct.DUCT_BYTES_PER_UNKNOWN, measured)
     message = _message(tmp_path, DUCT)
     assert message.startswith("tube_duct.resolution: one point needs about ")
     assert "duct-A=50.0, delta = 1000" in message and "execution.mem_mb_per_point = 1000 MB" in message
@@ -148,7 +148,7 @@ def test_axis_temperature_ratios_out_of_range_are_refused(tmp_path, ratios):
 
 
 def test_axis_ratio_check_in_the_solver_names_the_field():
-    from solver.relaxation.initial_states import make_initial_state
+    from knudsweep.solver.relaxation.initial_states import make_initial_state
 
     with pytest.raises(ValueError, match="axis_temperature_ratios: need three finite numbers > 0 whose largest"):
         make_initial_state("anisotropic", (1e308, 1e308, 1e308), 2.0, 0.5, 6.0)

@@ -32,7 +32,7 @@ from knudsweep.config import load_study
 from knudsweep.jobs import FAULT_HOLD_ENV, FAULT_WRITE_LIMIT_ENV
 from knudsweep.plan import StudyPlan
 from knudsweep.status import study_status
-from solver.netcdf_io import read_result, write_result
+from knudsweep.solver.netcdf_io import read_result, write_result
 
 from fault_helpers import (batch_lines, check_complete, job_counts, kill_tree, point_folder_files, same_point_content,
                            smk, smk_cmd, solved_in, start_workflow, wait_for, write_study)
@@ -246,7 +246,7 @@ def test_corrupt_and_outdated_points_are_detected_and_only_they_recomputed(refer
 
 
 def _version():
-    from solver import __version__
+    from knudsweep.solver import __version__
 
     return __version__
 

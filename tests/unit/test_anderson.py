@@ -1,4 +1,4 @@
-"""Anderson mixing (solver.anderson) on linear fixed-point problems with known solutions.
+"""Anderson mixing (knudsweep.solver.anderson) on linear fixed-point problems with known solutions.
 
 Reference: Walker & Ni, SIAM J. Numer. Anal. 49 (2011) 1715 -- without
 dropped differences, Anderson mixing of x = M x + b is GMRES on (I - M) x = b,
@@ -8,7 +8,7 @@ so it converges in at most n + 1 steps in exact arithmetic for n unknowns.
 import numpy as np
 import pytest
 
-from solver.anderson import AndersonMixer
+from knudsweep.solver.anderson import AndersonMixer
 
 
 def run(M, b, depth, steps):

@@ -12,7 +12,7 @@ from knudsweep.batch_files import (BATCH_LAYOUT, SERIES_COORD, complete_record, 
 from knudsweep.families.relaxation import FAMILY
 from knudsweep.gather import gather_family
 from knudsweep.point_files import read_point_record, record_from_result
-from solver.netcdf_io import write_result
+from knudsweep.solver.netcdf_io import write_result
 
 SECTION = {
     "gases": ["Ar"], "pressures": [100.0], "temperatures": [300.0], "initial_states": ["two_beams"],

@@ -119,13 +119,13 @@ def test_solve_one_point_json_and_netcdf(tmp_path):
     assert summary["status"] == "converged" and summary["iterations"] > 0
     assert summary["delta"] == pytest.approx(1.0, rel=1e-5)  # sqrt(pi)/(2 Kn)
     assert summary["wall"] == "maxwell-alpha=0.9"
-    from solver.netcdf_io import read_result
+    from knudsweep.solver.netcdf_io import read_result
 
     assert read_result(out).coefficient("G_P") == summary["coefficients"]["G_P"]
 
 
 def test_solve_from_pressure_uses_the_gas(capsys):
-    from solver.gas import delta_from_pressure
+    from knudsweep.solver.gas import delta_from_pressure
 
     code = main(["solve", "--pressure", "2000", "--length", "2e-6", "--temperature", "300", "--gas", "He",
                  "--n-space", "16", "--n-velocity", "8", "--tol", "1e-6", "--json"])
@@ -139,8 +139,8 @@ def test_solve_from_pressure_uses_the_gas(capsys):
     ("duct", ["--aspect-ratio", "2"], 1.0, "duct-A=2.0"),
 ])
 def test_solve_tube_and_duct_points(capsys, tmp_path, geometry, extra, alpha, expected):
-    from solver.duct import free_molecular_flow_rate
-    from solver.netcdf_io import read_result
+    from knudsweep.solver.duct import free_molecular_flow_rate
+    from knudsweep.solver.netcdf_io import read_result
 
     out = tmp_path / "p.nc"
     code = main(["solve", "--geometry", geometry, *extra, "--delta", "0", "--alpha", str(alpha),
@@ -188,7 +188,7 @@ def test_relaxation_option_without_the_family_is_refused(capsys):
 
 
 def test_solve_relaxation_point_fast_spectral_json_and_netcdf(capsys, tmp_path):
-    from solver.netcdf_io import read_result
+    from knudsweep.solver.netcdf_io import read_result
 
     out = tmp_path / "r.nc"
     code = main(["solve", "--family", "relaxation", "--method", "fast_spectral", "--molecular-model", "maxwell",
@@ -222,7 +222,7 @@ def test_status_without_results_says_so(tmp_path, capsys):
 
 
 def test_bare_command_lists_commands_and_version(capsys):
-    from solver import __version__
+    from knudsweep.solver import __version__
 
     assert main([]) == 0
     out = capsys.readouterr().out

@@ -15,7 +15,7 @@ from knudsweep.config import (
     validate_study,
 )
 from knudsweep.families import REGISTRY
-from solver.gas import known_gases
+from knudsweep.solver.gas import known_gases
 
 REPO = Path(__file__).resolve().parents[2]
 
@@ -215,9 +215,9 @@ def test_plane_channel_resolution_limits_are_the_solvers():
     # one source of limits: the schema states the plane-channel solver's own bounds, so a
     # study the check accepts is never refused by the solver later
     from knudsweep.config import load_schema
-    from solver.plane_channel.driver import TOL_RANGE
-    from solver.plane_channel.grids import MAX_SPACE, MIN_SPACE
-    from solver.quadrature import MAX_NODES
+    from knudsweep.solver.plane_channel.driver import TOL_RANGE
+    from knudsweep.solver.plane_channel.grids import MAX_SPACE, MIN_SPACE
+    from knudsweep.solver.quadrature import MAX_NODES
 
     res = load_schema()["properties"]["plane_channel"]["properties"]["resolution"]["properties"]
     assert (res["n_space"]["minimum"], res["n_space"]["maximum"]) == (MIN_SPACE, MAX_SPACE)

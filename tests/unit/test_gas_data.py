@@ -1,8 +1,8 @@
-"""Gas data (config/gases.yaml via solver.gas) against independent references."""
+"""Gas data (config/gases.yaml via knudsweep.solver.gas) against independent references."""
 
 import pytest
 
-from solver.gas import get_gas, known_gases, viscosity, vhs_reference_viscosity
+from knudsweep.solver.gas import get_gas, known_gases, viscosity, vhs_reference_viscosity
 
 # CRC Handbook of Chemistry and Physics, "Viscosity of Gases" (M. L. Huber,
 # A. H. Harvey), values at 300 K in micro-pascal seconds (check-values.md

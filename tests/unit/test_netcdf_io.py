@@ -1,4 +1,4 @@
-"""solver.netcdf_io: round trip of a SolverResult and atomic writes."""
+"""knudsweep.solver.netcdf_io: round trip of a SolverResult and atomic writes."""
 
 import os
 
@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 import xarray as xr
 
-from solver import netcdf_io
-from solver.netcdf_io import read_result, write_result
-from solver.result import FAILED, ConvergenceRecord, Quantity, SolverResult
+from knudsweep.solver import netcdf_io
+from knudsweep.solver.netcdf_io import read_result, write_result
+from knudsweep.solver.result import FAILED, ConvergenceRecord, Quantity, SolverResult
 
 
 def sample_result(status="converged"):

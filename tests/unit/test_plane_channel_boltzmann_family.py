@@ -2,7 +2,7 @@
 solve, gather, the model-error table and figure, on a tiny sweep.
 
 The gathered dataset is built the way the core builds it (each point solved by the family, written with
-solver.netcdf_io.write_result, gathered with knudsweep.gather.gather_family).  Grids are coarse; the
+knudsweep.solver.netcdf_io.write_result, gathered with knudsweep.gather.gather_family).  Grids are coarse; the
 physics of the operator is tested in tests/verification/test_plane_channel_boltzmann.py.
 """
 
@@ -14,10 +14,10 @@ from knudsweep.families.plane_channel_report import model_error_pairs, model_err
 from knudsweep.gather import gather_family
 from knudsweep.point_files import valid_records
 from knudsweep.tables import write_tables
-from solver.netcdf_io import write_result
-from solver.plane_channel.boltzmann_driver import solve_plane_channel_boltzmann
-from solver.plane_channel.driver import BOLTZMANN_MODELS, solve_plane_channel
-from solver.walls import MaxwellWall
+from knudsweep.solver.netcdf_io import write_result
+from knudsweep.solver.plane_channel.boltzmann_driver import solve_plane_channel_boltzmann
+from knudsweep.solver.plane_channel.driver import BOLTZMANN_MODELS, solve_plane_channel
+from knudsweep.solver.walls import MaxwellWall
 
 SECTION = {
     "problems": ["poiseuille", "thermal_creep"],
@@ -57,7 +57,7 @@ def test_check_section_refuses_what_the_boltzmann_solver_cannot_do(change, key):
 
 
 def test_solver_dispatch_refuses_other_problems_and_walls():
-    from solver.walls import CercignaniLampisWall
+    from knudsweep.solver.walls import CercignaniLampisWall
 
     with pytest.raises(ValueError, match=r"^problem: model boltzmann_hard_sphere solves poiseuille, thermal_creep only"):
         solve_plane_channel("heat_transfer", delta=1.0, model="boltzmann_hard_sphere")

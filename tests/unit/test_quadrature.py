@@ -14,8 +14,8 @@ import pytest
 from scipy.integrate import quad
 from scipy.special import gamma, gammaincc, roots_hermite
 
-from solver.kinetic_models import MODEL_NAMES, get_model
-from solver.quadrature import (
+from knudsweep.solver.kinetic_models import MODEL_NAMES, get_model
+from knudsweep.solver.quadrature import (
     full_range,
     graded_half_range,
     half_range_hermite,

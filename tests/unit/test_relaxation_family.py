@@ -7,7 +7,7 @@ from knudsweep.families.relaxation import FAMILY, solver_labels
 from knudsweep.gather import gather_family
 from knudsweep.batch_files import batch_records
 from knudsweep.tables import write_tables
-from solver.netcdf_io import write_result
+from knudsweep.solver.netcdf_io import write_result
 
 SECTION = {
     "gases": ["Ar"],

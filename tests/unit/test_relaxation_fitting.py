@@ -1,8 +1,8 @@
-"""Relaxation-time estimates (solver.relaxation.fitting) and the Maxwell-molecule moment equations.
+"""Relaxation-time estimates (knudsweep.solver.relaxation.fitting) and the Maxwell-molecule moment equations.
 
 Synthetic signals with known rates check that each estimate recovers its
 rate and that the stated uncertainty (statistical plus window part) covers
-the actual error.  The moment equations of solver.relaxation.moments are
+the actual error.  The moment equations of knudsweep.solver.relaxation.moments are
 checked by Monte Carlo over collision pairs, independently of the particle
 solver.
 """
@@ -12,7 +12,7 @@ import math
 import numpy as np
 import pytest
 
-from solver.relaxation.fitting import (
+from knudsweep.solver.relaxation.fitting import (
     e_folding_time,
     exponential_rate_jackknife,
     fit_decay,
@@ -20,7 +20,7 @@ from solver.relaxation.fitting import (
     initial_rate,
     late_rate,
 )
-from solver.relaxation.moments import maxwell_fourth_moment_deviation, maxwell_rates, vss_mean_sin2_chi
+from knudsweep.solver.relaxation.moments import maxwell_fourth_moment_deviation, maxwell_rates, vss_mean_sin2_chi
 
 T = np.linspace(0.0, 12.0, 49)
 

@@ -6,11 +6,11 @@ import numba
 import numpy as np
 import pytest
 
-from solver.netcdf_io import read_result, write_result
-from solver.relaxation import solve_relaxation
-from solver.relaxation.dsmc import _collide, _scatter
-from solver.relaxation.fitting import fit_decay
-from solver.relaxation.rng import replica_states
+from knudsweep.solver.netcdf_io import read_result, write_result
+from knudsweep.solver.relaxation import solve_relaxation
+from knudsweep.solver.relaxation.dsmc import _collide, _scatter
+from knudsweep.solver.relaxation.fitting import fit_decay
+from knudsweep.solver.relaxation.rng import replica_states
 
 SMALL = dict(method="dsmc", gas="Ar", pressure=10.0, temperature=300.0, n_particles=4000,
              n_replicas=3, t_end=2.0, n_output=5, seed=1)

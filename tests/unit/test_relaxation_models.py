@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from scipy import integrate
 
-from solver import gas as gasmod
-from solver.relaxation.bkw import (
+from knudsweep.solver import gas as gasmod
+from knudsweep.solver.relaxation.bkw import (
     BKW_FIRST_TIME,
     bkw_density,
     bkw_even_moment,
@@ -15,9 +15,9 @@ from solver.relaxation.bkw import (
     bkw_k,
     bkw_marginal,
 )
-from solver.relaxation.cross_sections import MolecularModel, check_model, molecular_model
-from solver.relaxation.initial_states import _sample_initial, make_initial_state
-from solver.relaxation.rng import replica_states
+from knudsweep.solver.relaxation.cross_sections import MolecularModel, check_model, molecular_model
+from knudsweep.solver.relaxation.initial_states import _sample_initial, make_initial_state
+from knudsweep.solver.relaxation.rng import replica_states
 
 
 def test_hard_sphere_collision_time_matches_free_path_conversion():
@@ -37,7 +37,7 @@ def test_maxwell_molecule_p_over_mu_is_one_half():
 
 @pytest.mark.parametrize("name", gasmod.known_gases())
 def test_vhs_collision_time_equals_gas_module(name):
-    # Same quantity two ways: Bird 1994 eq. 4.76 in solver.gas, and
+    # Same quantity two ways: Bird 1994 eq. 4.76 in knudsweep.solver.gas, and
     # (7-2w)(5-2w)/30 mu/p here; algebraically identical, so round-off only.
     g = gasmod.get_gas(name)
     model = molecular_model("vhs", g)

@@ -1,7 +1,7 @@
 """Tube/duct family of the study layer: points, identity, tables and figures on a tiny sweep.
 
 The gathered dataset is built the way the core builds it: each point solved by
-the family, written with solver.netcdf_io.write_result, then gathered with
+the family, written with knudsweep.solver.netcdf_io.write_result, then gathered with
 knudsweep.gather.gather_family.  Sizes are tiny (coarse grids); the physics of
 the solvers is tested in tests/verification.
 """
@@ -15,7 +15,7 @@ from knudsweep.families.tube_duct import FAMILY, delta_values, geometry_settings
 from knudsweep.gather import gather_family
 from knudsweep.point_files import valid_records
 from knudsweep.tables import write_tables
-from solver.netcdf_io import write_result
+from knudsweep.solver.netcdf_io import write_result
 
 SECTION = {
     "geometries": [{"shape": "tube"}, {"shape": "duct", "aspect_ratio": 2.0}],
@@ -83,8 +83,8 @@ def gathered(tmp_path_factory):
 
 
 def test_gathered_values_and_solve(gathered):
-    from solver.duct import solve_duct
-    from solver.walls import CercignaniLampisWall
+    from knudsweep.solver.duct import solve_duct
+    from knudsweep.solver.walls import CercignaniLampisWall
 
     ds, _ = gathered
     assert set(ds["status"].values.ravel()) == {"converged"}
@@ -107,8 +107,8 @@ def test_tables(gathered, tmp_path):
     for col in ("conductance [L s^-1]", "conductance [m^3 s^-1]", "C / C_free-molecular [1]", "C / C_continuum [1]", "pressure [Pa]"):
         assert col in cond.columns
     row = cond[(cond["geometry"] == "tube") & (cond["gas"] == "Ar") & (cond["wall"] == "maxwell-alpha=1.0")].iloc[0]
-    # C / C_fm equals the free-molecular Knudsen conductance ratio of solver.conductance
-    from solver.conductance import knudsen_tube_conductance
+    # C / C_fm equals the free-molecular Knudsen conductance ratio of knudsweep.solver.conductance
+    from knudsweep.solver.conductance import knudsen_tube_conductance
 
     c_fm = knudsen_tube_conductance("Ar", 300.0, 1e-3, 1.0)
     assert row["free-molecular conductance, diffuse [m^3 s^-1]"] == pytest.approx(c_fm, rel=1e-12)

@@ -1,4 +1,4 @@
-"""Shared check of the discretization error estimates (solver.resolution).
+"""Shared check of the discretization error estimates (knudsweep.solver.resolution).
 
 An estimate is honest when the actual error against a much finer reference
 solve of the same equations is at most HONEST times the estimate.  The factor 3

@@ -5,8 +5,8 @@ import math
 import numpy as np
 import pytest
 
-from solver import gas as gasmod
-from solver.conductance import (
+from knudsweep.solver import gas as gasmod
+from knudsweep.solver.conductance import (
     compute_table,
     conductance,
     flow_at_pressure_ratio,

@@ -1,6 +1,6 @@
 """Long rectangular duct: continuum series, plane-channel limit, Onsager, acceleration.
 
-Normalisation (solver.duct): height H is the length scale, width W = A H,
+Normalisation (knudsweep.solver.duct): height H is the length scale, width W = A H,
 M / W = (H p / v0)[G_P X_P + G_T X_T].
 """
 
@@ -9,9 +9,9 @@ import pytest
 import scipy.sparse as sp
 from scipy.sparse.linalg import spsolve
 
-from solver.duct import continuum_flow_rate, free_molecular_flow_rate, slip_flow_rate, solve_duct
-from solver.plane_channel import solve_plane_channel
-from solver.walls import CercignaniLampisWall, MaxwellWall
+from knudsweep.solver.duct import continuum_flow_rate, free_molecular_flow_rate, slip_flow_rate, solve_duct
+from knudsweep.solver.plane_channel import solve_plane_channel
+from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
 SMALL = {"n_space": 13, "n_velocity": 8}
 
@@ -145,11 +145,11 @@ def test_acceleration_bounded_iterations_duct_models(model):
 def test_acceleration_bounded_iterations_duct_low_accommodation(alpha, delta):
     # Walls re-emit what arrived in the previous sweep, so specular reflection
     # lags.  Anderson mixing of the moments and the wall inflow
-    # (solver.anderson) and the correction of the specular inflow
+    # (knudsweep.solver.anderson) and the correction of the specular inflow
     # (duct._correct_inflow) cut alpha = 0.3 from > 300 iterations (delta >= 1)
     # to 13-39 and alpha = 0.1 at delta = 1000 from > 300 to 15-20 (measured,
     # three models).  Near delta = 0 alpha = 0.1 still takes 64-88: no bound
-    # is asked there (see the solver.duct docstring).
+    # is asked there (see the knudsweep.solver.duct docstring).
     res = solve_duct("poiseuille", delta=delta, aspect_ratio=2.0, wall=MaxwellWall(alpha), tol=1e-8,
                      error_estimate=False, n_space=13 if delta < 1000 else None)
     assert res.status == "converged"
@@ -283,7 +283,7 @@ def _free_molecular_maxwell_by_unfolding(aspect, alpha, n=100, n_theta=360):
 
     At delta = 0 the drive accumulates along a ray since the molecule's last
     diffuse emission, and a specular reflection keeps c_x, so the diffuse-wall
-    relation of :func:`solver.duct.free_molecular_flow_rate`,
+    relation of :func:`knudsweep.solver.duct.free_molecular_flow_rate`,
     u(P) = (1/(4 sqrt(pi))) int s(P, theta) dtheta, holds with s replaced by the
     expected unfolded distance back to that emission,
     E[s] = sum_k alpha (1 - alpha)^k t_k, t_k the k-th wall crossing of the

@@ -1,11 +1,11 @@
 """Rectangular duct: free-molecular closed form, default-grid accuracy and honesty of the error estimate.
 
-Normalisation (solver.duct): height H is the length scale, width W = A H,
+Normalisation (knudsweep.solver.duct): height H is the length scale, width W = A H,
 G = (2/A) int int u dy dz per unit width.
 
 Closed form (derived here, as the issue text asks).  With diffuse walls at
 delta = 0 the flow velocity is u(P) = (1/(4 sqrt(pi))) int_0^{2 pi} s(P, theta)
-dtheta, s the distance from P back to the wall (solver.duct docstring of
+dtheta, s the distance from P back to the wall (knudsweep.solver.duct docstring of
 free_molecular_flow_rate).  Over the cross-section, int int s dA = int l^2/2 db
 over the chords of one direction, and summed over directions
 
@@ -27,7 +27,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from solver.duct import free_molecular_flow_rate, solve_duct
+from knudsweep.solver.duct import free_molecular_flow_rate, solve_duct
 
 from estimate_checks import HONEST  # noqa: E402
 
@@ -74,7 +74,7 @@ def test_closed_form_against_direct_quadrature(aspect):
 
 @pytest.mark.parametrize("aspect", ASPECTS)
 def test_closed_form_matches_chord_quadrature_of_the_solver_module(aspect):
-    # solver.duct.free_molecular_flow_rate integrates the chord-length
+    # knudsweep.solver.duct.free_molecular_flow_rate integrates the chord-length
     # distribution by scipy.quad (epsrel 1e-12): agreement to rounding
     assert free_molecular_flow_rate(aspect) == pytest.approx(free_molecular_closed_form(aspect), rel=1e-11)
 
@@ -100,7 +100,7 @@ def _default_solve(problem, delta, aspect):
 @pytest.mark.parametrize("aspect", ASPECTS)
 def test_default_grid_free_molecular_within_target_and_estimate_honest(aspect):
     # The uncollided part is integrated over the angle analytically
-    # (solver.duct._uncollided_moments), so at delta = 0 only the trapezoid
+    # (knudsweep.solver.duct._uncollided_moments), so at delta = 0 only the trapezoid
     # rule over the cross-section remains: measured -0.06 % (A = 1) and
     # -0.03 % (A >= 4) on the default grid, estimate 0.08 / 0.03-0.04 %.
     # Before, the discrete ordinates missed the grazing rays: -0.3 % (A = 1)

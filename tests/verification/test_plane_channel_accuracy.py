@@ -1,6 +1,6 @@
 """Discretization error estimates and resolution from an accuracy target.
 
-Generic part (solver.resolution): on a sequence with an exactly known error,
+Generic part (knudsweep.solver.resolution): on a sequence with an exactly known error,
 G_k = G + C h_k^p with h_k = 2^-k, Richardson's estimate |G_k - G_{k-1}| /
 (2^p - 1) is exact (Richardson, Phil. Trans. R. Soc. A 210 (1911) 307).
 
@@ -15,8 +15,8 @@ import math
 
 import pytest
 
-from solver.plane_channel import grids, solve_plane_channel
-from solver.resolution import ResolutionChoice, check_accuracy, choose_resolution, estimate_error
+from knudsweep.solver.plane_channel import grids, solve_plane_channel
+from knudsweep.solver.resolution import ResolutionChoice, check_accuracy, choose_resolution, estimate_error
 
 from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
 

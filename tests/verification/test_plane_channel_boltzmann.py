@@ -1,4 +1,4 @@
-"""Plane channel with the linearized Boltzmann equation (hard spheres), solver.plane_channel.boltzmann_driver.
+"""Plane channel with the linearized Boltzmann equation (hard spheres), knudsweep.solver.plane_channel.boltzmann_driver.
 
 Published tables.  The hard-sphere channel tables of Ohwada, Sone & Aoki,
 Phys. Fluids A 1 (1989) 2042, the slip coefficients of Ohwada, Sone & Aoki,
@@ -30,11 +30,11 @@ import math
 import numpy as np
 import pytest
 
-from solver.plane_channel import grids
-from solver.plane_channel import linearized_boltzmann as lb
-from solver.plane_channel import solve_plane_channel
-from solver.plane_channel.boltzmann_driver import solve_plane_channel_boltzmann as solve_lbe
-from solver.walls import CercignaniLampisWall, MaxwellWall
+from knudsweep.solver.plane_channel import grids
+from knudsweep.solver.plane_channel import linearized_boltzmann as lb
+from knudsweep.solver.plane_channel import solve_plane_channel
+from knudsweep.solver.plane_channel.boltzmann_driver import solve_plane_channel_boltzmann as solve_lbe
+from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 from tests.verification.estimate_checks import assert_estimate_honest
 
 # Sone (2007): not read in the book here; values as reproduced in secondary sources (module docstring)

@@ -10,7 +10,7 @@ import math
 
 import pytest
 
-from solver.plane_channel import grids, solve_plane_channel
+from knudsweep.solver.plane_channel import grids, solve_plane_channel
 
 
 def gp(delta, **kw):
@@ -102,7 +102,7 @@ def test_accelerated_heat_transfer_iterations_bounded(model, delta):
 @pytest.mark.parametrize("walls", [(0.3, 0.3), (1.0, 0.2), ("cl", "cl")])
 @pytest.mark.parametrize("delta", [1.0, 1000.0])
 def test_accelerated_heat_transfer_bounded_other_walls(walls, delta):
-    from solver.walls import CercignaniLampisWall, MaxwellWall
+    from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
     make = lambda a: CercignaniLampisWall(0.5, 0.7) if a == "cl" else MaxwellWall(a)  # noqa: E731
     res = solve_plane_channel(
@@ -139,7 +139,7 @@ def test_acceleration_gives_the_plain_result_delta_100_slow():
 @pytest.mark.parametrize("walls", [(0.3, 0.3), (1.0, 0.3)])
 @pytest.mark.parametrize("delta", [1.0, 1000.0])
 def test_accelerated_iterations_bounded_low_accommodation(walls, delta):
-    from solver.walls import MaxwellWall
+    from knudsweep.solver.walls import MaxwellWall
 
     res = solve_plane_channel(
         "poiseuille", delta=delta, lower_wall=MaxwellWall(walls[0]), upper_wall=MaxwellWall(walls[1]),
@@ -153,7 +153,7 @@ def test_accelerated_iterations_bounded_low_accommodation(walls, delta):
 
 @pytest.mark.parametrize("problem", ["poiseuille", "couette", "heat_transfer"])
 def test_acceleration_gives_the_plain_result_low_accommodation(problem):
-    from solver.walls import MaxwellWall
+    from knudsweep.solver.walls import MaxwellWall
 
     kw = dict(delta=10.0, lower_wall=MaxwellWall(0.3), upper_wall=MaxwellWall(0.3), tol=1e-10, error_estimate=False)
     plain = solve_plane_channel(problem, **kw)

@@ -9,8 +9,8 @@ import math
 import numpy as np
 import pytest
 
-from solver.plane_channel import solve_plane_channel
-from solver.walls import MaxwellWall
+from knudsweep.solver.plane_channel import solve_plane_channel
+from knudsweep.solver.walls import MaxwellWall
 
 INV_SQRT_PI = 1 / math.sqrt(math.pi)
 # BGK diffuse slip and jump coefficients, Sone's k0 = -1.01619, d1 = 1.30272

@@ -8,10 +8,10 @@ obeying reciprocity (Maxwell, Cercignani-Lampis), also with unequal walls.
 import numpy as np
 import pytest
 
-from solver.plane_channel import solve_plane_channel
-from solver.plane_channel.boundary import cercignani_lampis_normal_matrix
-from solver.quadrature import half_range_hermite
-from solver.walls import CercignaniLampisWall, MaxwellWall
+from knudsweep.solver.plane_channel import solve_plane_channel
+from knudsweep.solver.plane_channel.boundary import cercignani_lampis_normal_matrix
+from knudsweep.solver.quadrature import half_range_hermite
+from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
 WALLS = {
     "diffuse": (MaxwellWall(1.0), None),

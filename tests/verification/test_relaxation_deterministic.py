@@ -14,8 +14,8 @@ import math
 import numpy as np
 import pytest
 
-from solver.relaxation import solve_relaxation
-from solver.relaxation.deterministic import PRANDTL, discrete_target, make_grid
+from knudsweep.solver.relaxation import solve_relaxation
+from knudsweep.solver.relaxation.deterministic import PRANDTL, discrete_target, make_grid
 
 BEAMS = dict(initial_state="two_beams", beam_separation=2.5, beam_fraction=0.3)
 

@@ -11,7 +11,7 @@ Sources (check-values.md Sec. 5; "from memory, unconfirmed" there):
   Sec. 5.21; Bird 1994 Sec. 1.5 and 4.2.
 
 - <c^4> of Maxwell molecules: dM4/dt = -(M4 - 15)/3 - tr(sigma^2)/3, relaxation
-  time 3 tau_c = (3/2) mu/p (derived in solver.relaxation.moments; rate as in
+  time 3 tau_c = (3/2) mu/p (derived in knudsweep.solver.relaxation.moments; rate as in
   Truesdell & Muncaster 1980); the heat flux relaxes in 3 tau_c as well.
 
 Statistical tolerances use the replica standard error; with R replicas the
@@ -25,13 +25,13 @@ import math
 import numpy as np
 import pytest
 
-from solver import gas as gasmod
-from solver.gas import BOLTZMANN, GasData
-from solver.relaxation import solve_relaxation
-from solver.relaxation.bkw import BKW_FIRST_TIME, bkw_fourth_moment, bkw_marginal
-from solver.relaxation.fitting import KIND_E_FOLDING, KIND_TWO_EXPONENTIAL
-from solver.relaxation.moments import maxwell_fourth_moment_deviation
-from solver.relaxation.solve import HIST_BINS, HIST_LO, HIST_WIDTH
+from knudsweep.solver import gas as gasmod
+from knudsweep.solver.gas import BOLTZMANN, GasData
+from knudsweep.solver.relaxation import solve_relaxation
+from knudsweep.solver.relaxation.bkw import BKW_FIRST_TIME, bkw_fourth_moment, bkw_marginal
+from knudsweep.solver.relaxation.fitting import KIND_E_FOLDING, KIND_TWO_EXPONENTIAL
+from knudsweep.solver.relaxation.moments import maxwell_fourth_moment_deviation
+from knudsweep.solver.relaxation.solve import HIST_BINS, HIST_LO, HIST_WIDTH
 
 
 def _bin_averages(t):
@@ -132,7 +132,7 @@ def test_hard_sphere_collision_rate_in_si_units():
 
 def test_h_noise_scales_like_one_over_n():
     # At equilibrium the binned relative H fluctuates with standard deviation
-    # sqrt(2(B-1))/(2N) (chi-square, see solver.relaxation.h_function).  With
+    # sqrt(2(B-1))/(2N) (chi-square, see knudsweep.solver.relaxation.h_function).  With
     # 32 replicas x 4 nearly independent times per N the log-amplitude has a
     # standard error ~0.06 and the fitted slope ~0.03, so the 10 % band is > 3 sd.
     ns = np.array([2000, 4000, 8000, 16000, 32000])
@@ -177,7 +177,7 @@ def _covers(r, name, exact, max_rel_u):
 def test_maxwell_fourth_moment_two_beams_follows_the_moment_equation():
     # Two beams s = 3, w = 1/2: y0 = M4(0) - 15 = -3.375 and S0 = tr(sigma^2) = 3.375
     # (moments of the start, exact since the sample is rescaled); eq. (3) of
-    # solver.relaxation.moments gives y(t) = -5.0625 exp(-t/3) + 1.6875 exp(-t).
+    # knudsweep.solver.relaxation.moments gives y(t) = -5.0625 exp(-t/3) + 1.6875 exp(-t).
     r = _maxwell("two_beams")
     t = r.coords["time"].value
     se = r.profiles["fourth_moment_std"].value / 4.0

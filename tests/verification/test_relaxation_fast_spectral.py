@@ -21,13 +21,13 @@ import math
 import numpy as np
 import pytest
 
-from solver import gas
-from solver.relaxation import deterministic as det
-from solver.relaxation import fast_spectral as fs
-from solver.relaxation.bkw import BKW_FIRST_TIME, bkw_density, bkw_fourth_moment
-from solver.relaxation.cross_sections import MolecularModel, molecular_model
-from solver.relaxation.h_function import _relative_entropy_grid, equiprobable_edges
-from solver.relaxation.initial_states import initial_density_on_grid, make_initial_state
+from knudsweep.solver import gas
+from knudsweep.solver.relaxation import deterministic as det
+from knudsweep.solver.relaxation import fast_spectral as fs
+from knudsweep.solver.relaxation.bkw import BKW_FIRST_TIME, bkw_density, bkw_fourth_moment
+from knudsweep.solver.relaxation.cross_sections import MolecularModel, molecular_model
+from knudsweep.solver.relaxation.h_function import _relative_entropy_grid, equiprobable_edges
+from knudsweep.solver.relaxation.initial_states import initial_density_on_grid, make_initial_state
 
 MAXWELL = MolecularModel("maxwell", 1.0, 1.0)
 ARGON = gas.get_gas("Ar")
@@ -184,7 +184,7 @@ def test_bad_options_raise():
 
 
 def test_output_dictionary_matches_the_model_equation_path():
-    from solver.relaxation.solve import _run_model_equation
+    from knudsweep.solver.relaxation.solve import _run_model_equation
 
     grid = det.make_grid(16, 10.0)
     state = make_initial_state("anisotropic")
@@ -215,7 +215,7 @@ def test_binned_h_of_the_start_matches_the_closed_form():
 
 
 def test_unresolved_points_fail_with_a_reason(monkeypatch):
-    from solver.relaxation import solve as solve_mod
+    from knudsweep.solver.relaxation import solve as solve_mod
 
     # 12^3 in the wide spectral box cannot carry the start's five moments: failed, not an exception
     r = solve_mod.solve_relaxation(method="fast_spectral", molecular_model="hard_sphere", n_velocity=12,
@@ -269,7 +269,7 @@ def test_bkw_grid_study_to_forty():
 
 
 def _dsmc_and_spectral(model_name):
-    from solver.relaxation import solve_relaxation
+    from knudsweep.solver.relaxation import solve_relaxation
 
     common = dict(molecular_model=model_name, initial_state="anisotropic", t_end=10.0, n_output=41)
     ds = solve_relaxation(method="dsmc", n_particles=200_000, n_replicas=16, seed=7, **common)
@@ -280,8 +280,8 @@ def _dsmc_and_spectral(model_name):
 
 def _late_time_on(window, times, curve, se):
     """1/rate of the exponential fitted to ``curve`` on the DSMC late-fit window with the DSMC
-    weights (the definition of solver.relaxation.fitting.late_rate, window fixed)."""
-    from solver.relaxation.fitting import _exp_rate
+    weights (the definition of knudsweep.solver.relaxation.fitting.late_rate, window fixed)."""
+    from knudsweep.solver.relaxation.fitting import _exp_rate
 
     sel = (times >= window["t_first"] - 1e-9) & (times <= window["t_last"] + 1e-9)
     return 1.0 / _exp_rate(times[sel], curve[sel], se[sel])[0]

@@ -1,6 +1,6 @@
 """Discretization error estimates and accuracy targets of the tube and duct solvers.
 
-The estimate (solver.resolution: Richardson, Phil. Trans. R. Soc. A 210
+The estimate (knudsweep.solver.resolution: Richardson, Phil. Trans. R. Soc. A 210
 (1911) 307; Roache, Verification and Validation in Computational Science and
 Engineering, 1998, Ch. 5) must be honest against a much finer reference solve
 of the same equations: actual error <= HONEST x estimate, and an accuracy
@@ -13,12 +13,12 @@ import math
 
 import pytest
 
-import solver.tube as tube_module
-from solver.duct import resolution_ladder as duct_ladder
-from solver.duct import solve_duct
-from solver.tube import resolution_ladder as tube_ladder
-from solver.tube import solve_tube
-from solver.walls import CercignaniLampisWall
+import knudsweep.solver.tube as tube_module
+from knudsweep.solver.duct import resolution_ladder as duct_ladder
+from knudsweep.solver.duct import solve_duct
+from knudsweep.solver.tube import resolution_ladder as tube_ladder
+from knudsweep.solver.tube import solve_tube
+from knudsweep.solver.walls import CercignaniLampisWall
 
 from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
 DUCT_A = 1.0  # square duct

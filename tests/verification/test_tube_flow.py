@@ -8,8 +8,8 @@ import math
 
 import pytest
 
-from solver.tube import solve_tube
-from solver.walls import CercignaniLampisWall, MaxwellWall
+from knudsweep.solver.tube import solve_tube
+from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
 G_FM = 8.0 / (3.0 * math.sqrt(math.pi))  # Knudsen 1909; check-values 0.3 [derived]
 SMALL = {"n_space": 21, "n_velocity": 8}

@@ -1,6 +1,6 @@
 """Velocity-grid errors seen by the error estimates, and an exact Prandtl rescaling.
 
-1. Tube, 0 < delta < 1: the speed rule (solver.quadrature.log_linear_half_range)
+1. Tube, 0 < delta < 1: the speed rule (knudsweep.solver.quadrature.log_linear_half_range)
    narrows every panel as n_velocity grows, so the estimate's coarser level sees
    the speed error.  Honesty is checked against a reference with 2x the radial
    intervals and 2x the speeds (4 instead of 2 panels per unit of
@@ -27,8 +27,8 @@ import functools
 
 import pytest
 
-from solver.plane_channel import grids, solve_plane_channel
-from solver.tube import solve_tube
+from knudsweep.solver.plane_channel import grids, solve_plane_channel
+from knudsweep.solver.tube import solve_tube
 
 from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
 

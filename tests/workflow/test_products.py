@@ -1,6 +1,6 @@
 """Gather, status, tables and figures on point files built by hand (no solver run).
 
-The point files are written with solver.netcdf_io from SolverResults whose G_P
+The point files are written with knudsweep.solver.netcdf_io from SolverResults whose G_P
 follows the first-order slip formula delta/6 + sigma_P, so the expected table
 ratios are known exactly.  The batch files are made from them by the batch
 job's verification step (no point left to solve is solved here).
@@ -24,9 +24,9 @@ from knudsweep.gather import gather_study, open_sweep
 from knudsweep.plan import StudyPlan
 from knudsweep.status import requeue, study_status
 from knudsweep.tables import write_tables
-from solver.gas import pressure_from_delta
-from solver.netcdf_io import write_result
-from solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+from knudsweep.solver.gas import pressure_from_delta
+from knudsweep.solver.netcdf_io import write_result
+from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
 
 STUDY = {
     "study": "hand",

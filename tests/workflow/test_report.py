@@ -56,7 +56,7 @@ def test_every_figure_and_table_is_in_the_report_with_a_caption(built_report):
 
 
 def test_study_page_counts_points_and_names_the_version(built_report):
-    from solver import __version__
+    from knudsweep.solver import __version__
 
     _, page = built_report
     assert "Study tiny" in page

@@ -19,7 +19,7 @@ from knudsweep.gather import open_sweep
 from knudsweep.config import load_study
 from knudsweep.plan import StudyPlan
 from knudsweep.status import study_status
-from solver.netcdf_io import read_result
+from knudsweep.solver.netcdf_io import read_result
 
 from knudsweep.jobs import FAULT_HOLD_ENV, FAULT_RAISE_ENV
 

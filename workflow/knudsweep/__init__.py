@@ -1,8 +1,8 @@
 """knudsweep study layer: config, point identity, gather, tables, figures, status, CLI.
 
-Numerics live in the separate ``solver`` package, which never imports this one.
+Numerics live in the subpackage ``knudsweep.solver`` (folder solver/), which never imports the study modules.
 """
 
-from solver import __version__
+from knudsweep.solver import __version__
 
 __all__ = ["__version__"]

@@ -62,7 +62,7 @@ def ensure_compiled(family: str) -> None:
     import numba
 
     from knudsweep.families import get_family
-    from solver import __version__
+    from knudsweep.solver import __version__
 
     cache = Path(os.environ.get("NUMBA_CACHE_DIR", ".numba_cache"))
     cache.mkdir(parents=True, exist_ok=True)
@@ -93,7 +93,7 @@ def solve_one(task: tuple) -> dict[str, Any]:
     from knudsweep.point_files import read_point_record, record_from_result
     from knudsweep.point_job import solve_point
     from knudsweep.status import write_sidecar
-    from solver import __version__
+    from knudsweep.solver import __version__
 
     output = os.path.join(root, point_path(pid, "results")) if root else point_path(pid, "results")
     try:
@@ -117,7 +117,7 @@ def solve_one(task: tuple) -> dict[str, Any]:
 def crashed_record(pid: str, why: str) -> dict[str, Any]:
     import numpy as np
 
-    from solver import __version__
+    from knudsweep.solver import __version__
 
     return {"pid": pid, "status": "failed", "reason": f"crashed: {why}", "code_version": __version__,
             "iterations": -1, "wall_time": float("nan"), "residual": np.zeros(0), "coefficients": {},
@@ -238,7 +238,7 @@ def run_batch(key: str, points: dict[str, dict[str, Any]], output: str, study: d
     from knudsweep.batch_files import write_batch_file
     from knudsweep.config import config_hash, validate_study
     from knudsweep.families import get_family
-    from solver import __version__
+    from knudsweep.solver import __version__
 
     t0 = time.perf_counter()
     study = validate_study(study)

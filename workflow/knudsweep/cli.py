@@ -79,7 +79,7 @@ def _solve_values(args) -> tuple[str, dict]:
         from knudsweep.families.plane_channel import MODELS, PROBLEMS
     else:
         from knudsweep.families.tube_duct import MODELS, PROBLEMS
-    from solver import gas as gasmod
+    from knudsweep.solver import gas as gasmod
 
     if args.problem not in PROBLEMS:
         raise CliError(f"--problem: unknown value {args.problem!r}; allowed values are {', '.join(PROBLEMS)}"
@@ -120,7 +120,7 @@ def _delta(args, length_name: str, delta_min: float, delta_max: float) -> float:
 
     The solver accepts delta in [delta_min, delta_max] (delta_min = 0: free-molecular allowed).
     """
-    from solver import gas as gasmod
+    from knudsweep.solver import gas as gasmod
 
     span = f"[{delta_min:g}, {delta_max:g}]"
     # Every value given is checked, used or not, against the limits applied (one message per option).
@@ -218,7 +218,7 @@ def _wall_values(args, alpha, alpha_t, alpha_n, suffix) -> dict:
 def _tube_duct_values(args) -> dict:
     from knudsweep.families.tube_duct import wall_label
     from knudsweep.identity import canonical, format_plain
-    from solver.duct import MAX_ASPECT_RATIO, MAX_DELTA
+    from knudsweep.solver.duct import MAX_ASPECT_RATIO, MAX_DELTA
 
     length_name = "tube radius" if args.geometry == "tube" else "duct height (the smaller side)"
     delta = _delta(args, length_name, 0.0, MAX_DELTA)
@@ -251,10 +251,10 @@ def _plane_channel_values(args) -> dict:
 
     if args.aspect_ratio is not None:
         raise CliError("--aspect-ratio: only for --geometry duct")
-    from solver.plane_channel.driver import BOLTZMANN_MODELS, DELTA_RANGE
+    from knudsweep.solver.plane_channel.driver import BOLTZMANN_MODELS, DELTA_RANGE
 
     if args.model in BOLTZMANN_MODELS:
-        from solver.plane_channel.boltzmann_driver import DELTA_RANGE
+        from knudsweep.solver.plane_channel.boltzmann_driver import DELTA_RANGE
     delta = _delta(args, "plate gap", *DELTA_RANGE)
 
     lower = _wall_values(args, args.alpha, args.alpha_t, args.alpha_n, "")
@@ -262,7 +262,7 @@ def _plane_channel_values(args) -> dict:
     upper = _wall_values(args, args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper, "-upper") if has_upper else None
     _check_sizes(args)
     if args.model in BOLTZMANN_MODELS and args.n_velocity is not None:
-        from solver.plane_channel.boltzmann_driver import MAX_SPEED, MIN_SPEED
+        from knudsweep.solver.plane_channel.boltzmann_driver import MAX_SPEED, MIN_SPEED
 
         if not MIN_SPEED <= args.n_velocity <= MAX_SPEED:
             raise CliError(f"--n-velocity: got {args.n_velocity}; with --model {args.model} it counts speed nodes, "
@@ -319,7 +319,7 @@ def _relaxation_values(args) -> dict:
     (so the point is the one a study with these settings would solve), checked against the schema."""
     from knudsweep.config import load_schema
     from knudsweep.families.relaxation import FAMILY, METHODS, MODELS, STATE_DEFAULTS, STATES
-    from solver import gas as gasmod
+    from knudsweep.solver import gas as gasmod
 
     for name in _FLOW_ONLY:
         if getattr(args, name) not in (None, False):
@@ -449,7 +449,7 @@ def cmd_status(args) -> int:
     from knudsweep.config import load_study
     from knudsweep.plan import StudyPlan
     from knudsweep.status import clean_stray_temporaries, invalidate_products, requeue, study_status
-    from solver import __version__
+    from knudsweep.solver import __version__
 
     plan = StudyPlan(load_study(args.study))
     results = Path(args.directory) / "results"
@@ -547,7 +547,7 @@ def cmd_bench(args) -> int:
 
 
 def build_parser() -> argparse.ArgumentParser:
-    from solver import __version__
+    from knudsweep.solver import __version__
 
     parser = _Parser(prog="knudsweep", description="Parametric sweeps of rarefied-gas transport.",
                      epilog="`knudsweep <command> --help` describes a command.")

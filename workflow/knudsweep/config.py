@@ -23,7 +23,7 @@ from typing import Any
 import jsonschema
 import yaml
 
-from solver.gas import known_gases
+from knudsweep.solver.gas import known_gases
 
 # config/schema.yaml, installed as package data knudsweep.data (pyproject.toml)
 SCHEMA_FILE = Path(str(files("knudsweep.data").joinpath("schema.yaml")))

@@ -52,7 +52,7 @@ from typing import Any
 import numpy as np
 import xarray as xr
 
-from solver import __version__
+from knudsweep.solver import __version__
 
 log = logging.getLogger("knudsweep.gather")
 
@@ -261,7 +261,7 @@ def gather_study(plan, output: str | os.PathLike, workers: int = 1, root: str = 
     import datetime as _dt
     import platform
 
-    from solver.netcdf_io import CF_VERSION
+    from knudsweep.solver.netcdf_io import CF_VERSION
 
     now = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
     write_sweep(datasets, output, {
@@ -287,7 +287,7 @@ def write_sweep(datasets: dict[str, xr.Dataset], output: str | os.PathLike, attr
     :class:`knudsweep.preflight.ProductWriteError` with the file and the free space.
     """
     from knudsweep.preflight import ProductWriteError, write_failure_line
-    from solver.netcdf_io import atomic_output
+    from knudsweep.solver.netcdf_io import atomic_output
 
     output = Path(output)
     try:

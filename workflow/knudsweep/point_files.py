@@ -28,8 +28,8 @@ from typing import Any
 
 import numpy as np
 
-from solver import __version__
-from solver.netcdf_io import verify_digest
+from knudsweep.solver import __version__
+from knudsweep.solver.netcdf_io import verify_digest
 
 _NOT_COEFFICIENTS = {"iterations", "wall_time"}
 OUTDATED = "outdated: "  # prefix of the reason of a sound file from earlier inputs

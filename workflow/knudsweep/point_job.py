@@ -30,8 +30,8 @@ import time
 from pathlib import Path
 from typing import Any
 
-from solver import __version__
-from solver.result import FAILED, ConvergenceRecord, SolverResult
+from knudsweep.solver import __version__
+from knudsweep.solver.result import FAILED, ConvergenceRecord, SolverResult
 
 log = logging.getLogger("knudsweep.solve")
 
@@ -104,7 +104,7 @@ def solve_point(
     attempt: int = 1,
 ) -> SolverResult:
     """Solve one point and write ``output`` atomically with provenance attributes."""
-    from solver.netcdf_io import write_result
+    from knudsweep.solver.netcdf_io import write_result
 
     t0 = time.perf_counter()
     result, tries, max_iter = solve_values(family, values, section, attempt)

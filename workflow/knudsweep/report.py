@@ -261,7 +261,7 @@ def table_html(table, name: str) -> str:
 
 
 def _write(path: str | os.PathLike, text: str) -> None:
-    from solver.netcdf_io import atomic_output
+    from knudsweep.solver.netcdf_io import atomic_output
 
     path = Path(path)
     path.parent.mkdir(parents=True, exist_ok=True)

@@ -13,14 +13,14 @@ Fast listing
     by the status (gather reads every byte and reports it).
 
 Outdated points
-    A point whose ``code_version`` attribute differs from ``solver.__version__``
+    A point whose ``code_version`` attribute differs from ``knudsweep.solver.__version__``
     was computed by another solver version.  It stays in its state (it is still
     a result) but is flagged ``outdated``; :func:`requeue` with
     ``outdated=True`` removes only those files so the next run recomputes only them.
 
 Stray temporaries
     A writer killed between creating and renaming its temporary file leaves
-    ``.<name>.nc.<pid>.tmp`` (see ``solver.netcdf_io.write_dataset``).  Such a
+    ``.<name>.nc.<pid>.tmp`` (see ``knudsweep.solver.netcdf_io.write_dataset``).  Such a
     file is never read as a point (its name is not a point file's name) and
     :func:`clean_stray_temporaries` removes it once its writer process is gone
     from this host and it has not been modified for ``min_age_s`` seconds (a
@@ -40,7 +40,7 @@ import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from solver import __version__
+from knudsweep.solver import __version__
 
 log = logging.getLogger("knudsweep.status")
 

@@ -8,8 +8,8 @@ import sys
 from knudsweep.batches import BATCH_BASE_MEM_MB, runtime_minutes
 from knudsweep.config import StudyConfigError, read_study_yaml, validate_study
 from knudsweep.plan import StudyPlan
-from solver import __version__ as CODE_VERSION
-from solver.gas import gas_record
+from knudsweep.solver import __version__ as CODE_VERSION
+from knudsweep.solver.gas import gas_record
 
 try:
     # Snakemake's YAML reader lets a repeated key win silently: read each study

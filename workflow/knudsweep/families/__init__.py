@@ -170,7 +170,7 @@ def grid_label(section: dict[str, Any]) -> str:
     return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
 
 
-# accommodation keys of each wall law (solver.walls)
+# accommodation keys of each wall law (knudsweep.solver.walls)
 WALL_KEYS = {"maxwell": ("alpha",), "cercignani_lampis": ("alpha_t", "alpha_n")}
 
 
@@ -180,7 +180,7 @@ def wall_params(spec: dict[str, Any], where: str) -> dict[str, Any]:
     ``where`` prefixes the key path in the error (``walls[0]``, ``walls[0].upper``).
     """
     from knudsweep.identity import canonical
-    from solver.walls import make_wall
+    from knudsweep.solver.walls import make_wall
 
     model = spec.get("model", "maxwell")
     allowed = WALL_KEYS[model]
@@ -204,7 +204,7 @@ def one_wall_label(w: dict[str, Any]) -> str:
 
 def make_wall_object(w: dict[str, Any] | None):
     """The solver wall object of canonical wall params (None stays None)."""
-    from solver.walls import make_wall
+    from knudsweep.solver.walls import make_wall
 
     return None if w is None else make_wall(w["model"], **{k: w[k] for k in WALL_KEYS[w["model"]]})
 

@@ -12,7 +12,7 @@ e.g. ``plane_channel/poiseuille/model=bgk/wall=maxwell-alpha=0.9/grid=ns40-nv16-
   solved in reduced variables; the solver sees delta, the kinetic model and the
   walls only.  A study that lists Ar and He therefore solves each point once and
   the tables convert the same reduced result to each gas's pressure and flow
-  (``solver.gas.pressure_from_delta``).  If a Kn axis is given, it is turned into
+  (``knudsweep.solver.gas.pressure_from_delta``).  If a Kn axis is given, it is turned into
   delta = sqrt(pi) / (2 Kn) before the point is named, so ``kn`` and ``delta``
   studies share files.
 * **Resolution and tolerance are part of the point** (``grid=`` segment): two
@@ -35,13 +35,13 @@ from knudsweep.identity import canonical, format_exp, point_id, segment
 
 PROBLEMS = ("poiseuille", "thermal_creep", "couette", "heat_transfer")
 MODEL_EQUATIONS = ("bgk", "s_model", "es_bgk")
-# the linearized Boltzmann equation (solver.plane_channel.driver.BOLTZMANN_MODELS): poiseuille and
+# the linearized Boltzmann equation (knudsweep.solver.plane_channel.driver.BOLTZMANN_MODELS): poiseuille and
 # thermal_creep with Maxwell walls only
 BOLTZMANN_MODELS = ("boltzmann_hard_sphere",)
 BOLTZMANN_PROBLEMS = ("poiseuille", "thermal_creep")
 MODELS = MODEL_EQUATIONS + BOLTZMANN_MODELS
 
-# Scalar results of each problem (names as returned by solver.plane_channel).
+# Scalar results of each problem (names as returned by knudsweep.solver.plane_channel).
 COEFFICIENTS: dict[str, tuple[str, ...]] = {
     "poiseuille": ("G_P", "Q_P"),
     "thermal_creep": ("G_T", "Q_T"),
@@ -99,7 +99,7 @@ class PlaneChannel(Family):
                              "(set n_space and n_velocity to null)")
         # The solver's own limits, checked here so a study fails before any job
         # starts instead of producing points that fail with a solver error.
-        from solver.plane_channel import driver, grids
+        from knudsweep.solver.plane_channel import driver, grids
 
         lo, hi = driver.DELTA_RANGE
         for key, value, (vmin, vmax) in (
@@ -122,11 +122,11 @@ class PlaneChannel(Family):
 
     @staticmethod
     def _check_boltzmann(section: dict[str, Any], axis: str) -> None:
-        """The linearized Boltzmann equation's narrower scope (solver.plane_channel.boltzmann_driver)."""
+        """The linearized Boltzmann equation's narrower scope (knudsweep.solver.plane_channel.boltzmann_driver)."""
         lbe = [m for m in section["models"] if m in BOLTZMANN_MODELS]
         if not lbe:
             return
-        from solver.plane_channel import boltzmann_driver as bd
+        from knudsweep.solver.plane_channel import boltzmann_driver as bd
 
         for problem in section["problems"]:
             if problem not in BOLTZMANN_PROBLEMS:
@@ -182,7 +182,7 @@ class PlaneChannel(Family):
         return out
 
     def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
-        from solver.plane_channel import solve_plane_channel
+        from knudsweep.solver.plane_channel import solve_plane_channel
 
         lower, upper = make_wall_objects(values)
         return solve_plane_channel(
@@ -205,7 +205,7 @@ class PlaneChannel(Family):
         Linearized Boltzmann: BOLTZMANN_POINT_SECONDS + BOLTZMANN_SECONDS_PER_CELL x cells, times
         (n_velocity / 8)^3 (the dense collision matrix on speeds x directions)."""
         if values.get("model") in BOLTZMANN_MODELS:
-            from solver.plane_channel import grids
+            from knudsweep.solver.plane_channel import grids
 
             n_space = values.get("n_space") or grids.default_n_space(values["delta"])
             cost = BOLTZMANN_POINT_SECONDS + BOLTZMANN_SECONDS_PER_CELL * n_space
@@ -220,8 +220,8 @@ class PlaneChannel(Family):
         return cost
 
     def warm_up(self) -> None:
-        from solver.plane_channel import solve_plane_channel
-        from solver.walls import MaxwellWall
+        from knudsweep.solver.plane_channel import solve_plane_channel
+        from knudsweep.solver.walls import MaxwellWall
 
         # Tiny problems that go through every kernel once, so numba writes its cache.
         for problem in PROBLEMS:

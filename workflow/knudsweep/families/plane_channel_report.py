@@ -54,7 +54,7 @@ NOTES_COMMON = [
     "delta = p a / (mu v0), a = plate gap, v0 = sqrt(2 k T / m); Kn = sqrt(pi) / (2 delta).",
     "Normalisation of G_P, G_T: Sharipov & Seleznev, J. Phys. Chem. Ref. Data 27 (1998) 657.",
     "Pressure for each gas: p = delta mu(T) v0 / a at the study temperature and gap "
-    "(solver.gas.pressure_from_delta; mu(T) from config/gases.yaml).",
+    "(knudsweep.solver.gas.pressure_from_delta; mu(T) from config/gases.yaml).",
     "status 'failed', 'missing' or 'corrupt': the coefficient columns are empty for that row.",
 ]
 
@@ -178,12 +178,12 @@ def _model_error_table(ds, section: dict[str, Any]) -> Table:
     notes = [
         NOTES_COMMON[0], NOTES_COMMON[1],
         f"Model error of the kinetic model equations: each one's reduced flow rate divided by the solution of the "
-        f"{model_text(lbe)} equation (solver.plane_channel.boltzmann_driver) at the same delta and walls. delta is "
+        f"{model_text(lbe)} equation (knudsweep.solver.plane_channel.boltzmann_driver) at the same delta and walls. delta is "
         "defined with the gas's viscosity in both, so the difference is the error of the model's collision term; "
         "the ratio tends to 1 as delta -> 0, slowly (like 1/ln delta) between plates, where the flow rates diverge "
         "with a model-dependent constant.",
         "error estimate columns: estimated discretisation errors (absolute), Richardson over a coarser solve "
-        "(solver.resolution); the ratio's estimate adds the two relative estimates. They do not include any "
+        "(knudsweep.solver.resolution); the ratio's estimate adds the two relative estimates. They do not include any "
         "modelling error.",
         "Empty cells: a point failed, is missing or corrupt (its status column says which for the Boltzmann value).",
     ]
@@ -191,7 +191,7 @@ def _model_error_table(ds, section: dict[str, Any]) -> Table:
 
 
 def _gas_columns(gas: str, delta: float, section: dict[str, Any], g: float, kind: str) -> dict[str, float]:
-    from solver.gas import most_probable_speed, pressure_from_delta
+    from knudsweep.solver.gas import most_probable_speed, pressure_from_delta
 
     t = section["conditions"]["temperature"]
     a = section["conditions"]["gap"]
@@ -261,7 +261,7 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
         notes = list(NOTES_COMMON)
         notes.append(
             f"{key} error estimate: estimated discretisation error of {key} (absolute), from a Richardson "
-            "extrapolation over a coarser solve (solver.resolution); it does not include the model error."
+            "extrapolation over a coarser solve (knudsweep.solver.resolution); it does not include the model error."
         )
         notes.append(
             f"temperature {section['conditions']['temperature']:g} K, gap "

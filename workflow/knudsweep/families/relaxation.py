@@ -48,7 +48,7 @@ import numpy as np
 
 from knudsweep.families import Family, Point, Table
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
-from solver.gas import gas_record
+from knudsweep.solver.gas import gas_record
 
 METHODS = ("dsmc", "bgk", "s_model", "es_bgk", "fast_spectral")
 MODEL_EQUATIONS = ("bgk", "s_model", "es_bgk")
@@ -108,7 +108,7 @@ class Relaxation(Family):
     series_dim = "time"  # gather puts the time series of the points into sweep.nc (knudsweep.gather)
 
     def check_section(self, section: dict[str, Any]) -> None:
-        from solver.relaxation.initial_states import make_initial_state
+        from knudsweep.solver.relaxation.initial_states import make_initial_state
 
         state, run = _options(section)
         for key, allowed in (("methods", METHODS), ("initial_states", STATES), ("molecular_models", MODELS)):
@@ -168,7 +168,7 @@ class Relaxation(Family):
         return out
 
     def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
-        from solver.relaxation import solve_relaxation
+        from knudsweep.solver.relaxation import solve_relaxation
 
         kw = dict(
             method=values["method"], gas=values["gas"], pressure=values["pressure"],
@@ -213,7 +213,7 @@ class Relaxation(Family):
         return best
 
     def warm_up(self) -> None:
-        from solver.relaxation import solve_relaxation
+        from knudsweep.solver.relaxation import solve_relaxation
 
         for model in ("maxwell", "vss"):
             solve_relaxation(method="dsmc", initial_state="two_beams", molecular_model=model, n_particles=200,
@@ -257,7 +257,7 @@ class Relaxation(Family):
     def tables(self, ds, section: dict[str, Any]) -> dict[str, Table]:
         import pandas as pd
 
-        from solver.relaxation.solve import fit_kind
+        from knudsweep.solver.relaxation.solve import fit_kind
 
         rows = []
         dims = self.gather_dims(section)
@@ -338,9 +338,9 @@ class Relaxation(Family):
 
 @functools.lru_cache(maxsize=64)
 def _fast_spectral_size(model: str, gas: str, n: int) -> tuple[int, int, float]:
-    from solver.gas import get_gas
-    from solver.relaxation.cross_sections import molecular_model
-    from solver.relaxation.fast_spectral import operator_size
+    from knudsweep.solver.gas import get_gas
+    from knudsweep.solver.relaxation.cross_sections import molecular_model
+    from knudsweep.solver.relaxation.fast_spectral import operator_size
 
     return operator_size(molecular_model(model, get_gas(gas)), n)
 
@@ -358,7 +358,7 @@ BUILD_S_PER_TERM = 3e-3
 
 
 def _fast_spectral_cost(values: dict[str, Any]) -> float:
-    from solver.relaxation.solve import DEFAULT_TIME_STEP
+    from knudsweep.solver.relaxation.solve import DEFAULT_TIME_STEP
 
     n = int(values["n_velocity"])
     rank, m, _ = _fast_spectral_size(values["molecular_model"], values["gas"], n)

@@ -19,8 +19,8 @@ e.g. ``tube_duct/duct-A=4.0/thermal_creep/model=bgk/wall=maxwell-alpha=0.9/grid=
 * Resolution and tolerance are part of the point; iteration limits are not.
 
 Tables and figures are built from the gathered sweep by :func:`build_tables`
-and :func:`build_figures` below; physical conversions use ``solver.conductance``
-and ``solver.gas``; the reference curves come from ``solver.duct``
+and :func:`build_figures` below; physical conversions use ``knudsweep.solver.conductance``
+and ``knudsweep.solver.gas``; the reference curves come from ``knudsweep.solver.duct``
 (continuum series, first-order slip, free-molecular quadrature).
 
 Sources of the constants (tables and captions cite the publication):
@@ -97,14 +97,14 @@ def free_molecular_gp(shape: str, aspect: float) -> float:
     """Diffuse-wall free-molecular G_P: Knudsen's 8/(3 sqrt(pi)) (tube) or the duct quadrature."""
     if shape == "tube":
         return G_FM_TUBE
-    from solver.duct import free_molecular_flow_rate
+    from knudsweep.solver.duct import free_molecular_flow_rate
 
     return free_molecular_flow_rate(aspect)
 
 
 def continuum_gp(shape: str, aspect: float, delta) -> np.ndarray:
     """No-slip G_P: delta/4 (Hagen-Poiseuille) or the rectangular-duct series (White 2006 eq. 3-48)."""
-    from solver.duct import continuum_flow_rate
+    from knudsweep.solver.duct import continuum_flow_rate
 
     d = np.asarray(delta, float)
     if shape == "tube":
@@ -113,11 +113,11 @@ def continuum_gp(shape: str, aspect: float, delta) -> np.ndarray:
 
 
 def slip_gp(shape: str, aspect: float, delta, sigma_p: float) -> np.ndarray:
-    """First-order slip G_P: delta/4 + sigma_P (tube, check-values 0.3); duct: solver.duct.slip_flow_rate."""
+    """First-order slip G_P: delta/4 + sigma_P (tube, check-values 0.3); duct: knudsweep.solver.duct.slip_flow_rate."""
     d = np.asarray(delta, float)
     if shape == "tube":
         return d / 4.0 + sigma_p
-    from solver.duct import slip_flow_rate
+    from knudsweep.solver.duct import slip_flow_rate
 
     return continuum_gp(shape, aspect, d) + (slip_flow_rate(0.0, aspect, sigma_p))
 
@@ -130,17 +130,17 @@ def slip_sigma(w: dict[str, Any]) -> float:
 
 
 def flow_table(ds, geometry: str, shape: str, aspect: float, model: str, wall: str):
-    """A :class:`solver.conductance.FlowRateTable` from the gathered G_P, G_T (None if too few points).
+    """A :class:`knudsweep.solver.conductance.FlowRateTable` from the gathered G_P, G_T (None if too few points).
 
     Uses the delta values where both problems converged.  At delta = 0, G_P is
     taken equal to its value at the smallest delta (the free-molecular plateau
     of the tube and of ducts of moderate aspect ratio; common practice, no
     source) and G_T = G_P / 2 (free-molecular flux proportional to p/sqrt(T)
     for any wall law at the wall temperature; check-values 0.3); below the
-    smallest delta solver.conductance blends linearly.
+    smallest delta knudsweep.solver.conductance blends linearly.
     """
-    from solver.conductance import FlowRateTable
-    from solver.duct import continuum_flow_rate
+    from knudsweep.solver.conductance import FlowRateTable
+    from knudsweep.solver.duct import continuum_flow_rate
 
     if "G_P" not in ds or "G_T" not in ds:
         return None
@@ -160,8 +160,8 @@ class TubeDuct(Family):
     name = "tube_duct"
 
     def check_section(self, section: dict[str, Any]) -> None:
-        from solver.duct import MAX_DELTA as DUCT_MAX
-        from solver.tube import MAX_DELTA as TUBE_MAX
+        from knudsweep.solver.duct import MAX_DELTA as DUCT_MAX
+        from knudsweep.solver.tube import MAX_DELTA as TUBE_MAX
 
         axis = check_axis_choice(section)
         reject_repeats("geometries", [label for label, _, _ in geometry_settings(section)])
@@ -221,16 +221,16 @@ class TubeDuct(Family):
             accelerate=bool(section.get("iteration", {}).get("accelerate", True)),
         )
         if values["shape"] == "tube":
-            from solver.tube import solve_tube
+            from knudsweep.solver.tube import solve_tube
 
             return solve_tube(values["problem"], **kw)
-        from solver.duct import solve_duct
+        from knudsweep.solver.duct import solve_duct
 
         return solve_duct(values["problem"], aspect_ratio=values["aspect_ratio"], **kw)
 
     def peak_memory_mb(self, section: dict[str, Any]) -> tuple[float, str]:
         """The duct's distribution dominates (tube points need well under 100 MB)."""
-        from solver.duct import duct_memory_mb
+        from knudsweep.solver.duct import duct_memory_mb
 
         res = section.get("resolution", {})
         best = (0.0, "")
@@ -259,9 +259,9 @@ class TubeDuct(Family):
         return cost
 
     def warm_up(self) -> None:
-        from solver.duct import solve_duct
-        from solver.tube import solve_tube
-        from solver.walls import CercignaniLampisWall, MaxwellWall
+        from knudsweep.solver.duct import solve_duct
+        from knudsweep.solver.tube import solve_tube
+        from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
         for wall in (MaxwellWall(0.9), CercignaniLampisWall(0.8, 0.5)):
             for problem in PROBLEMS:
@@ -312,7 +312,7 @@ class TubeDuct(Family):
 
     def coefficient_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
         """Attributes of the gathered flow rates: one variable holds tube and duct values, each
-        geometry with its own normalisation (solver.tube, solver.duct), so both are named."""
+        geometry with its own normalisation (knudsweep.solver.tube, knudsweep.solver.duct), so both are named."""
         out = {}
         for name, what, drive, tube, duct in (
                 ("G_P", "mass", "pressure gradient X_P", "4 int u r dr", "(2/A) int int u dy dz"),
@@ -355,7 +355,7 @@ FAMILY = TubeDuct()
 
 # ---------------------------------------------------------------- physical units
 def _size(section, shape: str, aspect: float) -> tuple[float, float, dict]:
-    """(cross-section area S [m^2], length scale a [m], keyword for solver.conductance)."""
+    """(cross-section area S [m^2], length scale a [m], keyword for knudsweep.solver.conductance)."""
     c = section["conditions"]
     if shape == "tube":
         a = c["radius"]
@@ -367,8 +367,8 @@ def _size(section, shape: str, aspect: float) -> tuple[float, float, dict]:
 NOTES_COMMON = [
     "delta = p a / (mu v0), a = tube radius or duct height (smaller side), v0 = sqrt(2 k T / m); Kn = sqrt(pi) / (2 delta).",
     "Normalisation of G_P, G_T: Sharipov & Seleznev, J. Phys. Chem. Ref. Data 27 (1998) 657; the duct per unit width "
-    "(M / W = (H p / v0) G X), see solver.duct.",
-    "Pressure for each gas: p = delta mu(T) v0 / a at the study temperature (solver.gas.pressure_from_delta; mu(T) from config/gases.yaml).",
+    "(M / W = (H p / v0) G X), see knudsweep.solver.duct.",
+    "Pressure for each gas: p = delta mu(T) v0 / a at the study temperature (knudsweep.solver.gas.pressure_from_delta; mu(T) from config/gases.yaml).",
     "status 'failed', 'missing' or 'corrupt': the coefficient columns are empty for that row.",
 ]
 
@@ -376,7 +376,7 @@ NOTES_COMMON = [
 def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
     import pandas as pd
 
-    from solver.gas import most_probable_speed, pressure_from_delta
+    from knudsweep.solver.gas import most_probable_speed, pressure_from_delta
 
     c = section["conditions"]
     t = c["temperature"]
@@ -420,18 +420,18 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
         notes = NOTES_COMMON + [
             f"temperature {t:g} K, tube radius {c['radius']:g} m, duct height {c['height']:g} m, length {length:g} m.",
             "Conductance in the linear regime at the row's pressure: C = S a v0 G_P / (2 L), S = cross-section area "
-            "(solver.conductance).",
+            "(knudsweep.solver.conductance).",
             "G_P error estimate: estimated discretisation error of G_P (absolute) from a Richardson extrapolation over "
-            "a coarser solve (solver.resolution); it does not include the model error.",
+            "a coarser solve (knudsweep.solver.resolution); it does not include the model error.",
             "Free-molecular reference, diffuse walls: Knudsen's long-tube value G_P = 8/(3 sqrt(pi)) (Knudsen, Ann. Phys. 28 "
-            "(1909) 75; C = (2 pi a^3 / (3 L)) v_mean); duct: closed-form quadrature solver.duct.free_molecular_flow_rate. "
+            "(1909) 75; C = (2 pi a^3 / (3 L)) v_mean); duct: closed-form quadrature knudsweep.solver.duct.free_molecular_flow_rate. "
             "For non-diffuse walls the factor includes the accommodation effect.",
             "Continuum reference, no slip: Hagen-Poiseuille C = pi a^4 p / (8 mu L) (G_P = delta/4); duct: series of White, "
-            "Viscous Fluid Flow (2006) eq. 3-48 (solver.duct.continuum_flow_rate).",
+            "Viscous Fluid Flow (2006) eq. 3-48 (knudsweep.solver.duct.continuum_flow_rate).",
             f"Slip reference: first order, sigma_P = {SIGMA_P_DIFFUSE} (BGK, diffuse walls; Loyalka, Petrellis & "
             "Storvick, Phys. Fluids 18 (1975) 1094) times (2 - alpha)/alpha (Maxwell, Phil. Trans. R. Soc. 170 (1879) "
             "231, approximate; alpha_t for Cercignani-Lampis walls, common practice, no source); tube delta/4 + "
-            "sigma_P, duct solver.duct.slip_flow_rate.",
+            "sigma_P, duct knudsweep.solver.duct.slip_flow_rate.",
         ]
         tables["tube_duct_conductance"] = Table(pd.DataFrame(rows), "Tube and duct: conductance and correction factors", notes)
     if "thermal_creep" in section["problems"]:
@@ -602,7 +602,7 @@ def common_outlet_pressure(section, geos, gas: str, deltas: np.ndarray, max_rati
     """One outlet pressure for every cross-section: the geometric mean of the range in which the
     whole channel of each cross-section stays inside the computed delta range (p_in = max_ratio p_out);
     the geometric mean of the widest such range if none is common."""
-    from solver import gas as gasmod
+    from knudsweep.solver import gas as gasmod
 
     t = section["conditions"]["temperature"]
     lo, hi = [], []
@@ -622,8 +622,8 @@ def _pressure_figures(ds, section, settings, geos, walls):
 
     from knudsweep import plot_style as ps
     from knudsweep.figures import new_figure
-    from solver import gas as gasmod
-    from solver.conductance import flow_at_pressure_ratio, thermomolecular_pressure_ratio
+    from knudsweep.solver import gas as gasmod
+    from knudsweep.solver.conductance import flow_at_pressure_ratio, thermomolecular_pressure_ratio
 
     c = section["conditions"]
     gas = section["gases"][0]
@@ -744,7 +744,7 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
                     f"{SLIP_MIN_DELTA:g} (sigma_P = {SIGMA_P_DIFFUSE} for diffuse walls, Loyalka et al. 1975, "
                     "times (2 - alpha)/alpha, alpha_t for Cercignani-Lampis walls, approximate); free molecular for "
                     f"delta <= {FREE_MOLECULAR_FIG_MAX_DELTA:g}: Knudsen's 8/(3 sqrt(pi)) for the tube, the quadrature "
-                    "of solver.duct for ducts, times Smoluchowski's (2 - alpha)/alpha, for Maxwell walls only (no "
+                    "of knudsweep.solver.duct for ducts, times Smoluchowski's (2 - alpha)/alpha, for Maxwell walls only (no "
                     "source was at hand for the Cercignani-Lampis factor).")
             else:
                 text.append(
@@ -764,7 +764,7 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
                 f"length {c['length']:g} m.")
         out["tube_duct_flow_vs_pressure_ratio"] = "\n\n".join([
             "Mass flow through the long channel at finite pressure ratio p_in/p_out, from the computed G_P and G_T "
-            "integrated along the channel (solver.conductance.flow_at_pressure_ratio; end effects neglected). "
+            "integrated along the channel (knudsweep.solver.conductance.flow_at_pressure_ratio; end effects neglected). "
             f"The outlet pressure is the same for all cross-sections, p_out = {p_out:.3g} Pa, chosen so that "
             "the whole channel stays inside the computed delta range. Markers at the study's ratios "
             f"({', '.join(f'{r:g}' for r in ratios)}), curves monotone interpolations between them. " + note,
@@ -775,7 +775,7 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
         out["tube_duct_thermal_transpiration"] = "\n\n".join([
             f"Thermal transpiration: pressure ratio p_hot/p_cold at zero net flow between ends at "
             f"{th['t_cold']:g} K and {th['t_hot']:g} K, against the cold-side pressure, from d ln p / d ln T = "
-            "G_T/G_P integrated along the channel (solver.conductance.thermomolecular_pressure_ratio). Drawn "
+            "G_T/G_P integrated along the channel (knudsweep.solver.conductance.thermomolecular_pressure_ratio). Drawn "
             "only where the cold end lies inside the computed delta range; markers where it sits on a computed "
             "delta. References: the free-molecular limit sqrt(T_hot/T_cold) (Knudsen 1909) and the continuum "
             "limit 1. " + note,
