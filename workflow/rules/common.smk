@@ -3,10 +3,12 @@
 # The study is validated by the knudsweep package before any job is planned; a
 # bad file stops Snakemake with one line naming the key path and the allowed
 # values (exit code 1).
+import os
 import sys
 
 from knudsweep.batches import BATCH_BASE_MEM_MB, runtime_minutes
 from knudsweep.config import StudyConfigError, read_study_yaml, validate_study
+from knudsweep import report as ks_report
 from knudsweep.plan import StudyPlan
 from knudsweep.solver import __version__ as CODE_VERSION
 from knudsweep.solver.gas import gas_record
@@ -62,3 +64,34 @@ GAS_DATA = {g: gas_record(g) for g in sorted({g for f in PLAN.families for g in 
 def tracked(*sections):
     """The parts of the study a product depends on (its params, so edits rerun it)."""
     return {k: v for k, v in STUDY.items() if k in ("study", *sections, *PLAN.families)}
+
+
+def marked_figures():
+    """The figure files; the report's format of each marked for the report with its caption."""
+    shown = ks_report.report_format(PLAN)
+    out = []
+    for fam in PLAN.families:
+        for name in ks_report.figure_names(PLAN, fam):
+            for fmt in STUDY["figures"]["formats"]:
+                path = f"{PLAN.study_dir}/figures/{name}.{fmt}"
+                if fmt == shown:
+                    path = report(path, caption=os.path.abspath(ks_report.caption_file(PLAN, name)),
+                                  category=ks_report.category(fam), subcategory="Figures")
+                out.append(path)
+    return out
+
+
+def report_caption(name):
+    return os.path.abspath(ks_report.caption_file(PLAN, name))
+
+
+def marked_tables():
+    out = [ks_report.study_page(PLAN)]
+    for fam in PLAN.families:
+        for name in ks_report.table_names(PLAN, fam):
+            out.append(ks_report.caption_file(PLAN, name))
+            out.append(report(ks_report.table_page(PLAN, name), caption=report_caption(name),
+                              category=ks_report.category(fam), subcategory="Tables"))
+    for fam in PLAN.families:
+        out += [ks_report.caption_file(PLAN, n) for n in ks_report.figure_names(PLAN, fam)]
+    return out

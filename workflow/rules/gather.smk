@@ -15,5 +15,7 @@ rule gather:
     resources:
         mem_mb=4000,
         runtime=60,
+    conda:
+        "../envs/knudsweep.yaml"
     script:
         "../scripts/gather.py"

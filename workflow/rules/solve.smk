@@ -21,5 +21,7 @@ rule solve_batch:
         mem_mb=lambda wc, threads, attempt: (BATCH_BASE_MEM_MB + threads * EXEC["mem_mb_per_point"]) * attempt,
         runtime=lambda wc, threads, attempt: runtime_minutes(PLAN.batch(wc.family, wc.batch), threads, attempt),
         solve_attempt=lambda wc, attempt: attempt,
+    conda:
+        "../envs/knudsweep.yaml"
     script:
         "../scripts/solve_batch.py"

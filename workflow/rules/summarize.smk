@@ -11,7 +11,9 @@ rule tables:
     params:
         study=tracked(),
         gas_data=GAS_DATA,
-        outdir=f"{PLAN.study_dir}/tables",
+        outdir=lambda wc, output: os.path.dirname(output[0]),
+    conda:
+        "../envs/knudsweep.yaml"
     localrule: True
     script:
         "../scripts/tables.py"
