@@ -1,4 +1,4 @@
-"""Plane-channel Poiseuille and thermal creep with the linearized Boltzmann equation (hard spheres).
+"""Plane-channel Poiseuille and thermal creep with the linearized Boltzmann equation (hard spheres, VHS).
 
 Equation (units of ``problems``: y in the gap a, c in v0, delta = p a / (mu v0)),
 h = c_x Phi(y, c, mu), mu = c_y / |c|:
@@ -6,9 +6,10 @@ h = c_x Phi(y, c, mu), mu = c_y / |c|:
     c mu dPhi/dy + kd nu(c) Phi = kd K[Phi] - S(c),      kd = kappa delta,
     S = X_P (Poiseuille),  S = (c^2 - 5/2) X_T (thermal creep),
 
-with -nu + K the hard-sphere operator of ``linearized_boltzmann`` in units of
-n d^2 v0 and kappa = n d^2 mu v0 / p computed from the same operator
-(``linearized_boltzmann.viscosity_factor``, the exact hard-sphere viscosity),
+with -nu + K the hard-sphere or VHS (viscosity index omega) operator of
+``linearized_boltzmann`` in units of n d^2 v0 and kappa = n d^2 mu v0 / p
+computed from the same operator (``linearized_boltzmann.viscosity_factor``,
+the exact viscosity of the molecular model),
 so that delta is the rarefaction parameter of the model equations.  Maxwell
 walls at rest: Phi_out = (1 - alpha) Phi_in(specular) (the diffuse part of an
 odd-in-c_x perturbation vanishes).  Reported, as in ``problems``:
@@ -43,12 +44,13 @@ import numpy as np
 
 from knudsweep.solver.plane_channel import grids, kernels
 from knudsweep.solver.plane_channel import linearized_boltzmann as lb
+from knudsweep.solver.plane_channel.driver import plate_parameters
 from knudsweep.solver.resolution import check_estimate_options, solve_with_estimate
 from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
 from knudsweep.solver.walls import MaxwellWall
 
 PROBLEMS = ("poiseuille", "thermal_creep")
-MOLECULES = ("hard_sphere",)
+MOLECULES = ("hard_sphere", "vhs")
 DELTA_RANGE = (1e-3, 1e3)
 TOL_RANGE = (1e-14, 1e-2)
 MIN_SPEED, MAX_SPEED = 4, 24
@@ -114,6 +116,7 @@ def solve_plane_channel_boltzmann(
     *,
     delta: float,
     molecule: str = "hard_sphere",
+    omega: float | None = None,
     lower_wall=MaxwellWall(1.0),  # noqa: B008  (frozen dataclass, safe default)
     upper_wall=None,
     n_space: int | None = None,
@@ -130,7 +133,9 @@ def solve_plane_channel_boltzmann(
     ----------
     problem : "poiseuille" or "thermal_creep".
     delta : rarefaction parameter p a / (mu v0), a = gap, in [1e-2, 1e3].
-    molecule : "hard_sphere".
+    molecule : "hard_sphere" or "vhs".
+    omega : VHS viscosity index in [0.5, 1] (mu ~ T^omega; 0.5 hard spheres, 1 Maxwell
+        molecules), required for "vhs", must be None (or 0.5) for "hard_sphere".
     lower_wall, upper_wall : knudsweep.solver.walls.MaxwellWall (upper None: same as lower).
     n_space : cells across the gap (default grids.default_n_space).
     n_velocity : speed nodes n_speed in [4, 24]; directions and Legendre order
@@ -152,6 +157,14 @@ def solve_plane_channel_boltzmann(
         raise ValueError(f"delta: must be in [{DELTA_RANGE[0]:g}, {DELTA_RANGE[1]:g}], got {delta!r}")
     if molecule not in MOLECULES:
         raise ValueError(f"molecule: must be one of {', '.join(MOLECULES)}, got {molecule!r}")
+    if molecule == "vhs":
+        if omega is None:
+            raise ValueError(f"omega: molecule vhs needs omega in [{lb.OMEGA_RANGE[0]}, {lb.OMEGA_RANGE[1]}], got None")
+        omega = lb.check_omega(omega)
+    elif omega is not None and omega != 0.5:
+        raise ValueError(f"omega: hard spheres have omega = 0.5 (use molecule='vhs'), got {omega!r}")
+    else:
+        omega = 0.5
     if upper_wall is None:
         upper_wall = lower_wall
     for name, wall in (("lower_wall", lower_wall), ("upper_wall", upper_wall)):
@@ -171,7 +184,7 @@ def solve_plane_channel_boltzmann(
         max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
 
     def run(ns, nv, it_tol):
-        return _solve_once(problem, delta, molecule, lower_wall, upper_wall, ns, nv, max_iter, it_tol, accelerate)
+        return _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, ns, nv, max_iter, it_tol, accelerate)
 
     return solve_with_estimate(
         run, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate,
@@ -182,12 +195,12 @@ def solve_plane_channel_boltzmann(
     )
 
 
-def _solve_once(problem, delta, molecule, lower_wall, upper_wall, n_space, n_speed, max_iter, tol, accelerate):
+def _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, n_space, n_speed, max_iter, tol, accelerate):
     t0 = time.perf_counter()
     ns, n_mu, n_leg, graded = velocity_level(n_speed, delta)
-    vs = lb.velocity_set(ns, n_mu, n_leg, graded)
+    vs = lb.velocity_set(ns, n_mu, n_leg, graded, omega)
     K = lb.collision_matrix(vs)
-    kappa_hs = lb.viscosity_factor(ns)
+    kappa_hs = lb.viscosity_factor(ns, omega=omega)
     kd = kappa_hs * delta
     m = vs.m
     nu = vs.node_nu()
@@ -308,9 +321,8 @@ def _solve_once(problem, delta, molecule, lower_wall, upper_wall, n_space, n_spe
         residuals=np.array(history), iterations=int(iterations), status=status, reason=reason, tolerance=tol
     )
     parameters = {
-        "problem": problem, "model": f"boltzmann_{molecule}", "delta": delta, "prandtl": lb.prandtl_number(ns),
-        "lower_wall_model": "maxwell", "lower_alpha": lower_wall.alpha,
-        "upper_wall_model": "maxwell", "upper_alpha": upper_wall.alpha,
+        "problem": problem, "delta": delta, "kinetic_model": f"boltzmann_{molecule}", "prandtl": lb.prandtl_number(ns, omega),
+        **plate_parameters(lower_wall, upper_wall),
     }
     discretization = {
         "n_space": int(n_space),
@@ -318,7 +330,9 @@ def _solve_once(problem, delta, molecule, lower_wall, upper_wall, n_space, n_spe
         "space_scheme": "linear discontinuous Galerkin (upwind), profiles are cell averages",
         **vs.description,
         "n_velocity": int(n_speed),
-        "collision_operator": "linearized Boltzmann, hard spheres, kernel decomposition with Legendre moments (linearized_boltzmann)",
+        "collision_operator": ("linearized Boltzmann, hard spheres" if molecule == "hard_sphere" else
+                               f"linearized Boltzmann, VHS omega = {omega:g}")
+        + ", kernel decomposition with Legendre moments (linearized_boltzmann)",
         "viscosity_factor": kappa_hs,
         "tol": tol,
         "max_iter": int(max_iter),

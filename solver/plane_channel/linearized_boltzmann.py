@@ -1,4 +1,4 @@
-"""Linearized Boltzmann collision operator for hard spheres on a (speed, direction) velocity set.
+"""Linearized Boltzmann collision operator for hard spheres and VHS molecules on a (speed, direction) velocity set.
 
 Units: velocities c in v0 = sqrt(2kT/m), f = f_M (1 + h), f_M = n pi^(-3/2) e^(-c^2).
 For hard spheres of diameter d the collision operator is n d^2 v0 times
@@ -43,6 +43,30 @@ Pi = I - e w^T / (w^T e) (e: the momentum invariant Phi = 1, w: the
 quadrature weights of the x-velocity), so that momentum is conserved exactly
 by the discrete collision operator (without it the O(1e-10) leak would be
 amplified by delta^2 in the Poiseuille flow rate).
+
+VHS molecules (viscosity index omega in [1/2, 1], mu ~ T^omega; isotropic
+scattering with total cross-section sigma = pi d^2 g^(1 - 2 omega), g the
+relative speed in v0, d the diameter at g = v0; Bird, Molecular Gas Dynamics
+and the Direct Simulation of Gas Flows, Oxford 1994, Sec. 2.6; hard spheres
+omega = 1/2, Maxwell molecules omega = 1).  With gamma = 2 - 2 omega and
+beta = (1 - 2 omega)/2, in units of n d^2 v0 (derived here from the
+linearized collision integral, Cercignani, The Boltzmann Equation and Its
+Applications, Springer 1988, Ch. IV; Carleman's change of variables
+c' = c + (w.e) e, dOmega_g' = 4 |cos| de, then the integral over the plane
+normal to p = c' - c):
+
+    nu(c)     = pi^(-1/2) int |c - c1|^gamma e^(-c1^2) dc1
+              = pi Gamma((3 + gamma)/2) / Gamma(3/2) M(-gamma/2, 3/2, -c^2)     (Kummer's M)
+    K1(c, c') = pi^(-1/2) |c - c'|^gamma e^(-c'^2)
+    K2(c, c') = 2 pi^(-1/2) |c - c'|^(-1) e^(-a^2) J(s, b),      s = |c - c'|,
+                a = c'.(c' - c)/s,  b^2 = c'^2 - a^2,
+    J(s, b)   = 2 int_0^inf v (s^2 + v^2)^beta e^(-(v - b)^2) I0e(2 b v) dv    (I0e(x) = e^(-x) I_0(x)),
+
+J = 1 for hard spheres (beta = 0), which gives eq. (1).  J is evaluated by
+composite Gauss-Legendre quadrature in v, panels graded geometrically towards
+v = 0 on the scale s (the branch points of (s^2 + v^2)^beta at v = +-i s)
+and of unit width up to b + 7 (``vhs_gain_factor``); the Legendre moments
+k_l then follow as for hard spheres.
 """
 
 from __future__ import annotations
@@ -51,8 +75,9 @@ import math
 from dataclasses import dataclass
 from functools import lru_cache
 
+import numba
 import numpy as np
-from scipy.special import erf
+from scipy.special import erf, gamma as gamma_fn, hyp1f1
 
 SQRT_PI = math.sqrt(math.pi)
 # graded direction rules: Gauss-Legendre above this mu, graded panels below
@@ -60,11 +85,93 @@ _MU_SPLIT = 0.1
 # the c' integrals stop at max(_C_MAX, c + 4): the integrands carry e^(-c'^2),
 # or e^(-(c' - c)^2) around a fast molecule (< 1e-16 beyond)
 _C_MAX = 7.0
+# viscosity index range of the VHS operator (hard spheres .. Maxwell molecules)
+OMEGA_RANGE = (0.5, 1.0)
+_GX, _GW = np.polynomial.legendre.leggauss(10)
 
 
-def collision_frequency(c: np.ndarray) -> np.ndarray:
-    """nu(c) of eq. (1): pi^(-1/2) int |c - c1| e^(-c1^2) dc1 (hard spheres, units n d^2 v0)."""
+def check_omega(omega) -> float:
+    """omega as a float in OMEGA_RANGE, else ValueError."""
+    try:
+        value = float(omega)
+    except (TypeError, ValueError):
+        raise ValueError(f"omega: must be a number in [{OMEGA_RANGE[0]}, {OMEGA_RANGE[1]}], got {omega!r}") from None
+    if not (OMEGA_RANGE[0] <= value <= OMEGA_RANGE[1]):
+        raise ValueError(f"omega: must be in [{OMEGA_RANGE[0]}, {OMEGA_RANGE[1]}], got {omega!r}")
+    return value
+
+
+@numba.njit(cache=True)
+def _i0e(x):
+    """e^(-x) I_0(x), x >= 0: power series below 25, Hankel's asymptotic series above (Abramowitz & Stegun 9.6.12, 9.7.1)."""
+    if x < 25.0:
+        q = 0.25 * x * x
+        term = 1.0
+        total = 1.0
+        k = 1
+        while term > 1e-17 * total:
+            term *= q / (k * k)
+            total += term
+            k += 1
+        return total * math.exp(-x)
+    term = 1.0
+    total = 1.0
+    for k in range(1, 16):
+        term *= (2 * k - 1) ** 2 / (8.0 * k * x)
+        total += term
+    return total / math.sqrt(2.0 * math.pi * x)
+
+
+@numba.njit(cache=True)
+def _gain_factor_one(s, b, beta):
+    total = 0.0
+    lo = 0.0
+    # panels [0, s], [s, 2s], [2s, 4s], ... below 1 (geometric grading at the branch points v = +-i s)
+    if s < 1.0:
+        hi = s
+        while True:
+            for q in range(_GX.size):
+                v = lo + 0.5 * (hi - lo) * (_GX[q] + 1.0)
+                total += 0.5 * (hi - lo) * _GW[q] * v * (s * s + v * v) ** beta * math.exp(-(v - b) ** 2) * _i0e(2.0 * b * v)
+            lo = hi
+            if lo >= 1.0:
+                break
+            hi = min(2.0 * lo, 1.0)
+            if hi > 0.75:
+                hi = 1.0
+    top = b + 7.0
+    n = int(math.ceil(top - lo))
+    width = (top - lo) / max(n, 1)
+    for p in range(n):
+        a = lo + p * width
+        for q in range(_GX.size):
+            v = a + 0.5 * width * (_GX[q] + 1.0)
+            total += 0.5 * width * _GW[q] * v * (s * s + v * v) ** beta * math.exp(-(v - b) ** 2) * _i0e(2.0 * b * v)
+    return 2.0 * total
+
+
+@numba.njit(cache=True, parallel=True)
+def _gain_factor(s, b, beta, out):
+    for k in numba.prange(s.size):
+        out[k] = _gain_factor_one(s[k], b[k], beta)
+
+
+def vhs_gain_factor(s, b, omega: float) -> np.ndarray:
+    """J(s, b) of the VHS gain kernel (module docstring): 1 for hard spheres."""
+    s = np.ascontiguousarray(s, dtype=float)
+    b = np.ascontiguousarray(b, dtype=float)
+    out = np.empty(s.size)
+    _gain_factor(s.ravel(), b.ravel(), 0.5 - omega, out)
+    return out.reshape(s.shape)
+
+
+def collision_frequency(c: np.ndarray, omega: float = 0.5, general: bool = False) -> np.ndarray:
+    """nu(c) = pi^(-1/2) int |c - c1|^gamma e^(-c1^2) dc1 (units n d^2 v0): closed form of eq. (1) for
+    hard spheres, Kummer's function (module docstring) otherwise or if ``general``."""
     c = np.asarray(c, dtype=float)
+    if omega != 0.5 or general:
+        g = 2.0 - 2.0 * omega
+        return math.pi * gamma_fn(1.5 + 0.5 * g) / gamma_fn(1.5) * hyp1f1(-0.5 * g, 1.5, -(c**2))
     small = c < 1e-6
     cs = np.where(small, 1.0, c)
     nu = math.pi * (np.exp(-cs**2) / SQRT_PI + (cs + 0.5 / cs) * erf(cs))
@@ -152,8 +259,10 @@ def legendre_derivatives(mu: np.ndarray, L: int) -> np.ndarray:
     return D[1:]
 
 
-def kernel_moments(c: float, cp: np.ndarray, L: int) -> np.ndarray:
-    """k_l(c, c') for l = 0..L at the points cp > 0: array (L + 1, cp.size)."""
+def kernel_moments(c: float, cp: np.ndarray, L: int, omega: float = 0.5, general: bool = False) -> np.ndarray:
+    """k_l(c, c') for l = 0..L at the points cp > 0: array (L + 1, cp.size).
+
+    Hard spheres (omega = 1/2) use J = 1 unless ``general`` (then J by quadrature, as for VHS)."""
     g, gw = np.polynomial.legendre.leggauss(12)
     s_lo = np.abs(c - cp)[:, None]
     s_hi = (c + cp)[:, None]
@@ -168,8 +277,12 @@ def kernel_moments(c: float, cp: np.ndarray, L: int) -> np.ndarray:
     cq = cp[:, None]
     t = np.clip((c * c + cq * cq - s * s) / (2.0 * c * cq), -1.0, 1.0)
     E = (c * c - cq * cq - s * s) ** 2 / (4.0 * s * s)
-    # K2: 2 pi^(-1/2) / s e^{-E};  K1: pi^(-1/2) s e^{-c'^2};  dt = s ds / (c c')
-    integrand = (2.0 * np.exp(-E) - s * s * np.exp(-cq * cq)) / (SQRT_PI * c * cq) * ws
+    # K2: 2 pi^(-1/2) / s e^{-E} J;  K1: pi^(-1/2) s^gamma e^{-c'^2};  dt = s ds / (c c')
+    if omega == 0.5 and not general:
+        integrand = (2.0 * np.exp(-E) - s * s * np.exp(-cq * cq)) / (SQRT_PI * c * cq) * ws
+    else:
+        J = vhs_gain_factor(s, np.sqrt(np.maximum(cq * cq - E, 0.0)), omega)
+        integrand = (2.0 * np.exp(-E) * J - s ** (3.0 - 2.0 * omega) * np.exp(-cq * cq)) / (SQRT_PI * c * cq) * ws
     P = _legendre_all(t, L)
     return 2.0 * math.pi * (P * integrand[None]).sum(axis=2)
 
@@ -190,10 +303,13 @@ def _lagrange_matrix(nodes: np.ndarray, x: np.ndarray) -> np.ndarray:
 
 
 @lru_cache(maxsize=16)
-def speed_matrices(n_speed: int, n_legendre: int) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
-    """(c, wc, nu, M) with M[l-1, i, j] = int_0^inf (c'^3 / c_i) k_l(c_i, c') ell_j(c') dc', l = 1..n_legendre."""
+def speed_matrices(n_speed: int, n_legendre: int, omega: float = 0.5, general: bool = False
+                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+    """(c, wc, nu, M) with M[l-1, i, j] = int_0^inf (c'^3 / c_i) k_l(c_i, c') ell_j(c') dc', l = 1..n_legendre.
+
+    omega: VHS viscosity index; ``general``: hard spheres through the VHS route (a check)."""
     c, wc = speed_rule(n_speed)
-    nu = collision_frequency(c)
+    nu = collision_frequency(c, omega, general)
     g, gw = np.polynomial.legendre.leggauss(16)
     M = np.zeros((n_legendre, n_speed, n_speed))
     for i, ci in enumerate(c):
@@ -205,7 +321,7 @@ def speed_matrices(n_speed: int, n_legendre: int) -> tuple[np.ndarray, np.ndarra
         lo, hi = edges[:-1, None], edges[1:, None]
         x = (lo + 0.5 * (hi - lo) * (g + 1.0)).ravel()
         wx = (0.5 * (hi - lo) * gw).ravel()
-        k = kernel_moments(ci, x, n_legendre)[1:]
+        k = kernel_moments(ci, x, n_legendre, omega, general)[1:]
         B = _lagrange_matrix(c, x)
         M[:, i, :] = (k * (wx * x**3 / ci)) @ B.T
     return c, wc, nu, M
@@ -223,9 +339,10 @@ class VelocitySet:
     wc: np.ndarray  # weights of c^2 e^{-c^2}
     mu: np.ndarray  # (n_mu,) positive
     wmu: np.ndarray
-    nu: np.ndarray  # (n_speed,) hard-sphere collision frequency
+    nu: np.ndarray  # (n_speed,) collision frequency
     n_legendre: int
     description: dict
+    omega: float = 0.5  # VHS viscosity index (0.5: hard spheres)
 
     @property
     def m(self) -> int:
@@ -245,8 +362,10 @@ class VelocitySet:
         return np.outer(self.wc * self.c**2, self.wmu * (1.0 - self.mu**2)).ravel()
 
 
-def velocity_set(n_speed: int, n_mu: int, n_legendre: int, graded_smallest: float | None = None) -> VelocitySet:
-    c, wc, nu, _ = speed_matrices(n_speed, n_legendre)
+def velocity_set(n_speed: int, n_mu: int, n_legendre: int, graded_smallest: float | None = None,
+                 omega: float = 0.5) -> VelocitySet:
+    omega = check_omega(omega)
+    c, wc, nu, _ = speed_matrices(n_speed, n_legendre, omega)
     mu, wmu = direction_rule(n_mu, graded_smallest)
     desc = {
         "velocity_rule": "speed Gauss (c^2 exp(-c^2)) x direction double-Gauss" + (" graded" if graded_smallest else ""),
@@ -256,7 +375,7 @@ def velocity_set(n_speed: int, n_mu: int, n_legendre: int, graded_smallest: floa
     }
     if graded_smallest is not None:
         desc["direction_smallest"] = float(graded_smallest)
-    return VelocitySet(c, wc, mu, wmu, nu, n_legendre, desc)
+    return VelocitySet(c, wc, mu, wmu, nu, n_legendre, desc, omega)
 
 
 def collision_matrix(vs: VelocitySet) -> np.ndarray:
@@ -264,7 +383,7 @@ def collision_matrix(vs: VelocitySet) -> np.ndarray:
 
     Returns K such that L Phi = -nu Phi + K Phi, in units of n d^2 v0.
     """
-    _, _, _, M = speed_matrices(vs.c.size, vs.n_legendre)
+    _, _, _, M = speed_matrices(vs.c.size, vs.n_legendre, vs.omega)
     L = vs.n_legendre
     mu_full = np.concatenate([vs.mu, -vs.mu])
     w_full = np.concatenate([vs.wmu, vs.wmu]) * (1.0 - mu_full**2)
@@ -285,20 +404,21 @@ def collision_matrix(vs: VelocitySet) -> np.ndarray:
     return Lop + np.diag(nu)
 
 
-def viscosity_factor(n_speed: int, n_legendre: int = 2) -> float:
-    """kappa = n d^2 mu v0 / p of hard spheres on the speed set (exact viscosity, not the first Chapman-Enskog value).
+def viscosity_factor(n_speed: int, n_legendre: int = 2, omega: float = 0.5) -> float:
+    """kappa = n d^2 mu v0 / p on the speed set (exact viscosity, not the first Chapman-Enskog value;
+    d: the VHS diameter at relative speed v0).
 
     Chapman-Enskog: L[c_x c_y B(c)] = -2 c_x c_y; with a(c) = c B(c) the l = 2
     speed equation reads (-nu + M_2) a = -2 c, and
     kappa = 2 pi^(-3/2) int c_x^2 c_y^2 B e^(-c^2) dc = 8/(15 sqrt(pi)) int c^5 a e^(-c^2) dc.
     """
-    c, wc, nu, M = speed_matrices(n_speed, max(2, n_legendre))
+    c, wc, nu, M = speed_matrices(n_speed, max(2, n_legendre), check_omega(omega))
     a = np.linalg.solve(M[1] - np.diag(nu), -2.0 * c)
     return float(8.0 / (15.0 * SQRT_PI) * (wc * c**3) @ a)
 
 
-def prandtl_number(n_speed: int) -> float:
-    """Prandtl number of hard spheres from the operator on the speed set.
+def prandtl_number(n_speed: int, omega: float = 0.5) -> float:
+    """Prandtl number of hard spheres (VHS: viscosity index omega) from the operator on the speed set.
 
     Chapman-Enskog heat conduction: L[c_y A(c)] = -c_y (c^2 - 5/2), i.e.
     (-nu + M_1) A = -(c^2 - 5/2) (A up to the momentum invariant, which does
@@ -306,7 +426,8 @@ def prandtl_number(n_speed: int) -> float:
     Pr = (5/4) kappa / [ 4/(3 sqrt(pi)) int c^4 (c^2 - 5/2) A e^(-c^2) dc ]
     (1 for the BGK operator, where A = c^2 - 5/2 and kappa = 1).
     """
-    c, wc, nu, M = speed_matrices(n_speed, 2)
+    omega = check_omega(omega)
+    c, wc, nu, M = speed_matrices(n_speed, 2, omega)
     A = np.linalg.lstsq(M[0] - np.diag(nu), -(c**2 - 2.5), rcond=None)[0]
     conduct = 4.0 / (3.0 * SQRT_PI) * (wc * c**2 * (c**2 - 2.5)) @ A
-    return float(1.25 * viscosity_factor(n_speed) / conduct)
+    return float(1.25 * viscosity_factor(n_speed, omega=omega) / conduct)

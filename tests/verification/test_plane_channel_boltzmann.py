@@ -1,4 +1,4 @@
-"""Plane channel with the linearized Boltzmann equation (hard spheres), knudsweep.solver.plane_channel.boltzmann_driver.
+"""Plane channel with the linearized Boltzmann equation (hard spheres, VHS), knudsweep.solver.plane_channel.boltzmann_driver.
 
 Published tables.  The hard-sphere channel tables of Ohwada, Sone & Aoki,
 Phys. Fluids A 1 (1989) 2042, the slip coefficients of Ohwada, Sone & Aoki,
@@ -30,6 +30,7 @@ import math
 import numpy as np
 import pytest
 
+from knudsweep.solver.gas import get_gas
 from knudsweep.solver.plane_channel import grids
 from knudsweep.solver.plane_channel import linearized_boltzmann as lb
 from knudsweep.solver.plane_channel import solve_plane_channel
@@ -46,32 +47,34 @@ K_0 = -1.2540
 KAPPA_1 = 5.0 * math.sqrt(2.0) / (16.0 * math.sqrt(math.pi))
 
 
-def sonine_factors(n_terms: int) -> tuple[np.ndarray, np.ndarray]:
-    """f_mu(N), f_lambda(N) for N = 1..n_terms: the N-term Sonine approximations of the hard-sphere viscosity
-    and heat conductivity over the first ones (Chapman & Cowling 1970, Ch. 7), an independent route to the
-    transport coefficients (no use of ``linearized_boltzmann``).
+def sonine_brackets(n_terms: int, omega: float = 0.5) -> tuple[np.ndarray, np.ndarray]:
+    """Bracket matrices A_pq (viscosity, conduction) of the Chapman-Enskog Sonine expansion (Chapman & Cowling,
+    The Mathematical Theory of Non-Uniform Gases, 3rd ed., Cambridge 1970, Ch. 7) for VHS molecules with isotropic
+    scattering and rate sigma g = pi g^(2 - 2 omega) (units of ``linearized_boltzmann``), an independent route to
+    the transport coefficients (no use of ``linearized_boltzmann``).
 
     Basis: F_p = (c c - c^2 I / 3) L_p^(5/2)(c^2), p = 0..N-1 (viscosity), F_p = c L_p^(3/2)(c^2),
-    p = 1..N (conduction); only F_0 (resp. F_1) overlaps the driving term, so
-    f(N) = A_00 (A_N^-1)_00 with the bracket integrals
-    A_pq = int int int f0 f0_1 |g| (F_p' + F_p1' - F_p - F_p1) . (F_q' + ...) dOmega' dc dc1
-    (hard spheres: isotropic scattering, rate |g|; constants cancel in f).  Centre-of-mass G and relative
-    velocity g: weight e^(-2 G^2) e^(-g^2/2) |g|; by rotation invariance g along z and g' in the x-z plane,
-    g' = |g| (sin chi, 0, cos chi).  The integrand is a polynomial of degree <= 4N + 4 in G, in cos chi
-    (odd powers of sin chi cancel in the symmetric G rule) and in |g|^2 (even in |g|), so Gauss-Hermite
-    (2N + 5 points per axis), Gauss-Legendre in cos chi (2N + 5) and Gauss-Laguerre in u = |g|^2/2 with
-    weight u e^(-u) (N + 3 points) integrate it exactly.  The bases are nested, so the leading blocks of the
-    n_terms matrices give every smaller N.
+    p = 1..N (conduction).  A_pq = -<F_p, L F_q> = (1/4) int int int f_M f_M1 (g^gamma / 4)
+    (F_p' + F_p1' - F_p - F_p1) . (F_q' + ...) dOmega' dc dc1, gamma = 2 - 2 omega, f_M = pi^(-3/2) e^(-c^2)
+    (tensors contracted over all 9 components).  Centre-of-mass G and relative velocity g: weight
+    pi^(-3) e^(-2 G^2) e^(-g^2/2) g^gamma; by rotation invariance g along z and g' in the x-z plane,
+    g' = |g| (sin chi, 0, cos chi) (factors 4 pi g^2 dg and 2 pi dcos chi).  The integrand is a polynomial of
+    degree <= 4N + 4 in G, in cos chi (odd powers of sin chi cancel in the symmetric G rule) and in |g|^2, so
+    Gauss-Hermite (2N + 5 points per axis), Gauss-Legendre in cos chi (2N + 5) and generalized Gauss-Laguerre in
+    u = |g|^2/2 with weight u^((1 + gamma)/2) e^(-u) (N + 3 points) integrate it exactly.
     """
     from scipy.special import eval_genlaguerre, roots_genlaguerre
 
+    gam = 2.0 - 2.0 * omega
     nh = 2 * n_terms + 5
     x, wx = np.polynomial.hermite.hermgauss(nh)
     x = x / math.sqrt(2.0)
     grid = np.stack([a.ravel() for a in np.meshgrid(x, x, x, indexing="ij")], 1)
     wg = np.einsum("i,j,k->ijk", wx, wx, wx).ravel()
     t, wt = np.polynomial.legendre.leggauss(nh)
-    u, wu = roots_genlaguerre(n_terms + 3, 1.0)
+    u, wu = roots_genlaguerre(n_terms + 3, 0.5 * (1.0 + gam))
+    # (1/4)(1/4) pi^-3 * 4 pi * 2 pi * 2^(-3/2) (G rule) * 2^((1 + gamma)/2) (g^(2 + gamma) dg = (2u)^((1 + gamma)/2) du)
+    const = 0.5 * math.pi ** -1 * 2.0**-1.5 * 2.0 ** (0.5 * (1.0 + gam))
     out = []
     for alpha, orders in ((2.5, range(n_terms)), (1.5, range(1, n_terms + 1))):
 
@@ -91,8 +94,24 @@ def sonine_factors(n_terms: int) -> tuple[np.ndarray, np.ndarray]:
                 gp = g[2] * np.array([math.sqrt(1.0 - tj * tj), 0.0, tj])
                 d = basis(grid + gp / 2) + basis(grid - gp / 2) - before
                 A += wui * wtj * np.einsum("pgk,qgk,g->pq", d, d, wg)
-        out.append(np.array([A[0, 0] * np.linalg.inv(A[:n, :n])[0, 0] for n in range(1, n_terms + 1)]))
+        out.append(const * A)
     return out[0], out[1]
+
+
+def sonine_factors(n_terms: int, omega: float = 0.5) -> tuple[np.ndarray, np.ndarray]:
+    """f_mu(N), f_lambda(N) for N = 1..n_terms: the N-term Sonine approximations of the viscosity and heat
+    conductivity over the first ones (``sonine_brackets``); only F_0 (resp. F_1) overlaps the driving term, so
+    f(N) = A_00 (A_N^-1)_00.  The bases are nested, so the leading blocks give every smaller N."""
+    return tuple(np.array([A[0, 0] * np.linalg.inv(A[:n, :n])[0, 0] for n in range(1, n_terms + 1)])
+                 for A in sonine_brackets(n_terms, omega))
+
+
+def first_viscosity_factor(omega: float) -> float:
+    """First Chapman-Enskog approximation kappa_1 = n d^2 mu_1 v0 / p from the bracket: with L[c_x c_y B] = -2 c_x c_y
+    and the trial B = const, kappa_1 = 4 <c_x c_y, c_x c_y>^2 / (-<c_x c_y, L c_x c_y>) = 1 / (4 D), and by isotropy
+    D = A_00 / 10 (the 9-component contraction of a traceless symmetric tensor is 10 times its xy part)."""
+    A, _ = sonine_brackets(1, omega)
+    return 1.0 / (4.0 * A[0, 0] / 10.0)
 
 
 def test_kernel_conserves_mass_momentum_energy_and_is_symmetric():
@@ -148,6 +167,156 @@ def test_viscosity_and_conductivity_against_sonine_approximations():
     assert abs(kappa / KAPPA_1 - 1) > 0.01
 
 
+# ---------------------------------------------------------------- VHS molecules (molecule="vhs", omega)
+
+# argon's viscosity index from the gas table (Bird 1994, App. A, config/gases.yaml): 0.81
+OMEGA_AR = get_gas("Ar").omega
+
+
+def test_vhs_gain_factor_against_closed_form_and_quadrature():
+    """J(s, 0) = e^(s^2) Gamma(1 + beta, s^2) (the v-integral is an incomplete gamma function, Abramowitz & Stegun
+    6.5.3) and J = 1 for hard spheres (beta = 0); at b > 0 against scipy's adaptive quadrature."""
+    from scipy.integrate import quad
+    from scipy.special import gamma, gammaincc, i0e
+
+    s = np.array([1e-7, 1e-3, 0.2, 1.0, 3.0, 8.0])
+    for omega in (0.5, OMEGA_AR, 1.0):
+        beta = 0.5 - omega
+        ref = np.exp(s**2) * gammaincc(1.0 + beta, s**2) * gamma(1.0 + beta)
+        # 1e-13: the 10-point Gauss panels (measured <= 1.6e-14) and the rounding of e^(s^2) Gamma(.)
+        assert np.allclose(lb.vhs_gain_factor(s, np.zeros_like(s), omega), ref, rtol=1e-13, atol=0)
+    S, B = np.meshgrid(s, [0.4, 1.5, 4.0, 9.0])
+    assert np.allclose(lb.vhs_gain_factor(S, B, 0.5), 1.0, rtol=1e-14, atol=0)  # measured 7e-16
+    J = lb.vhs_gain_factor(S, B, OMEGA_AR)
+    beta = 0.5 - OMEGA_AR
+    for si, bi, ji in zip(S.ravel(), B.ravel(), J.ravel()):
+        f = lambda v: 2 * v * (si * si + v * v) ** beta * math.exp(-(v - bi) ** 2) * i0e(2 * bi * v)  # noqa: E731
+        ref = quad(f, 0, bi + 10, points=[si, bi], limit=400, epsabs=1e-15, epsrel=1e-13)[0]
+        assert ji == pytest.approx(ref, rel=1e-12)  # quad's own tolerance 1e-13; measured difference <= 9e-15
+
+
+def test_vhs_hard_sphere_limit_reproduces_closed_form():
+    """The general VHS route (numerical J, Kummer-function nu) at omega = 1/2 against the hard-sphere closed form."""
+    c, wc, nu, M = lb.speed_matrices(6, 12)
+    c2, wc2, nu2, M2 = lb.speed_matrices(6, 12, 0.5, True)
+    # round-off: J = 1 to 7e-16 (previous test), nu from hyp1f1 vs erf (measured 3e-16 of the largest entry)
+    assert np.max(np.abs(nu2 - nu) / nu) < 1e-14
+    assert np.max(np.abs(M2 - M)) < 1e-14 * np.max(np.abs(M))
+
+
+@pytest.mark.parametrize("omega", [OMEGA_AR, 1.0])
+def test_vhs_kernel_conserves_mass_momentum_energy_and_is_symmetric(omega):
+    g, gw = np.polynomial.legendre.leggauss(16)
+    for c in (0.3, 1.2, 2.6):
+        edges = np.unique(np.concatenate([[0.0], c - c * np.geomspace(1, 1e-5, 10), c + np.geomspace(1e-5, 1, 10), np.linspace(c + 1, c + 8, 15)]))
+        lo, hi = edges[:-1, None], edges[1:, None]
+        x = (lo + 0.5 * (hi - lo) * (g + 1)).ravel()
+        wx = (0.5 * (hi - lo) * gw).ravel()
+        k = lb.kernel_moments(c, x, 1, omega)
+        nu = float(lb.collision_frequency(np.array([c]), omega)[0])
+        # L[1] = L[c_x] = L[c^2] = 0 (collision invariants); 1e-9: quadrature of the composite rules (measured ~1e-10)
+        assert np.sum(wx * x**2 * k[0]) == pytest.approx(nu, rel=1e-9)
+        assert np.sum(wx * x**3 / c * k[1]) == pytest.approx(nu, rel=1e-9)
+        assert np.sum(wx * x**4 * k[0]) == pytest.approx(nu * c * c, rel=1e-9)
+    # nu against its defining integral pi^(-1/2) int |c - c1|^gamma e^(-c1^2) dc1 (angular integral done by hand)
+    gam = 2 - 2 * omega
+    cs = np.array([0.05, 0.8, 2.5])
+    y, wy = np.polynomial.legendre.leggauss(100)
+    for c in cs:
+        # Gauss-Legendre on [0, c] and [c, 9]: |c - c1|^(gamma + 2) is smooth on each
+        c1 = np.concatenate([0.5 * c * (y + 1.0), c + 0.5 * (9.0 - c) * (y + 1.0)])
+        w1 = np.concatenate([0.5 * c * wy, 0.5 * (9.0 - c) * wy])
+        direct = 2 * math.sqrt(math.pi) / ((gam + 2) * c) * np.sum(w1 * c1 * np.exp(-c1**2) * ((c + c1) ** (gam + 2) - np.abs(c - c1) ** (gam + 2)))
+        # 1e-10: round-off of the difference of powers divided by c (measured 3e-12 at c = 0.05)
+        assert lb.collision_frequency(np.array([c]), omega)[0] == pytest.approx(direct, rel=1e-10)
+    # self-adjointness: e^{-c^2} k_l(c, c') = e^{-c'^2} k_l(c', c)
+    a, b = 0.7, 1.9
+    kab = lb.kernel_moments(a, np.array([b]), 4, omega)[:, 0]
+    kba = lb.kernel_moments(b, np.array([a]), 4, omega)[:, 0]
+    assert np.allclose(math.exp(-a * a) * kab, math.exp(-b * b) * kba, rtol=1e-10)
+
+
+def test_maxwell_molecules_exact_transport():
+    """Maxwell molecules (omega = 1): the Burnett functions are eigenfunctions of the linearized operator
+    (Wang Chang & Uhlenbeck, Studies in Statistical Mechanics V, 1970; Cercignani 1988, Ch. IV), so
+    the first Sonine approximations of viscosity and conduction are exact and Pr = 2/3 exactly."""
+    f_mu, f_lam = sonine_factors(4, 1.0)
+    # every higher Sonine term vanishes: f(N) = 1 to the round-off of the bracket sums (measured 4e-16)
+    assert np.allclose(f_mu, 1.0, rtol=1e-12) and np.allclose(f_lam, 1.0, rtol=1e-12)
+    kappa_1 = first_viscosity_factor(1.0)
+    for n in (5, 8):
+        # 1e-10: quadrature of the speed matrices (measured 4e-12 for kappa, 5e-13 for Pr)
+        assert lb.viscosity_factor(n, omega=1.0) == pytest.approx(kappa_1, rel=1e-10)
+        assert lb.prandtl_number(n, 1.0) == pytest.approx(2.0 / 3.0, rel=1e-10)
+    print(f"\nMaxwell: kappa = {lb.viscosity_factor(8, omega=1.0):.14f} (bracket {kappa_1:.14f}, 2/pi = {2 / math.pi:.14f})")
+
+
+def test_hard_sphere_bracket_reproduces_first_chapman_enskog_viscosity():
+    # kappa_1 of hard spheres (5/16) sqrt(pi m k T)/(pi d^2) (Chapman & Cowling 1970, Ch. 10; check-values.md Sec. 4.1)
+    assert first_viscosity_factor(0.5) == pytest.approx(KAPPA_1, rel=1e-13)  # round-off of the exact quadrature
+
+
+def test_vhs_viscosity_and_conductivity_against_sonine_approximations():
+    """Argon's omega: operator viscosity and conductivity above every Sonine value and within the Sonine tail."""
+    f_mu, f_lam = sonine_factors(6, OMEGA_AR)
+    kappa_1 = first_viscosity_factor(OMEGA_AR)
+    kappa = lb.viscosity_factor(10, omega=OMEGA_AR)
+    pr = lb.prandtl_number(10, OMEGA_AR)
+    conduct = (kappa / kappa_1) * (2.0 / 3.0) / pr
+    print(f"\nomega = {OMEGA_AR}: kappa / kappa_1 = {kappa / kappa_1:.12f}, lambda / lambda_1 = {conduct:.12f}, Pr = {pr:.10f}"
+          f"\nf_mu: {np.array2string(f_mu, precision=10)}\nf_lambda: {np.array2string(f_lam, precision=10)}")
+    for f, exact in ((f_mu, kappa / kappa_1), (f_lam, conduct)):
+        step = np.diff(f)
+        assert np.all(step > 0)  # Ritz: nested bases raise the approximation monotonically
+        q = step[-1] / step[-2]
+        assert 0 < q < 0.5  # geometric tail (measured 0.16-0.18)
+        tail = step[-1] * q / (1 - q)
+        # 1e-10: the operator's quadrature error (measured ~1e-11 at 10 speed nodes); 3x: the tail estimate's spread
+        assert exact > f[-1] * (1 - 1e-10)
+        assert exact - f[-1] < 3.0 * tail
+    # between hard spheres (Pr 0.6609 on this operator) and Maxwell molecules (2/3)
+    assert lb.prandtl_number(10) < pr < 2.0 / 3.0
+
+
+@pytest.mark.parametrize(("delta", "alpha"), [(0.3, 1.0), (3.0, 0.8)])
+def test_vhs_onsager_reciprocity(delta, alpha):
+    kw = dict(delta=delta, molecule="vhs", omega=OMEGA_AR, lower_wall=MaxwellWall(alpha), n_space=32, n_velocity=5,
+              tol=1e-10, error_estimate=False)
+    qp = solve_lbe("poiseuille", **kw).coefficient("Q_P")
+    gt = solve_lbe("thermal_creep", **kw).coefficient("G_T")
+    # Q_P = G_T (Sharipov, Physica A 203 (1994) 437); reciprocal up to the truncation error (as for hard spheres)
+    assert qp == pytest.approx(gt, rel=1e-4)
+
+
+# delta = 0.3 builds the 10-speed VHS operator (~15 s): slow
+@pytest.mark.parametrize("delta", [pytest.param(0.3, marks=pytest.mark.slow), 3.0])
+def test_vhs_error_estimate_against_finer_solution(delta):
+    kw = dict(molecule="vhs", omega=OMEGA_AR, tol=1e-11)
+    res = solve_lbe("poiseuille", delta=delta, n_space=24, n_velocity=6, **kw)
+    ref = solve_lbe("poiseuille", delta=delta, n_space=96, n_velocity=10, error_estimate=False, **kw)
+    assert res.status == ref.status == "converged"
+    assert_estimate_honest(res, ref, ["G_P", "Q_P"], max_relative=2e-3, label=f"VHS delta={delta}")
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("delta", [0.1, 1.0, 10.0])
+@pytest.mark.parametrize("problem", ["poiseuille", "thermal_creep"])
+def test_vhs_velocity_set_convergence_study(delta, problem):
+    """Speed nodes 6, 8 (default), 10, 12 at twice the default cells: the change per step falls, and the
+    default's error against 12 nodes is within its error estimate's promise."""
+    name = "G_P" if problem == "poiseuille" else "G_T"
+    kw = dict(molecule="vhs", omega=OMEGA_AR, tol=1e-11)
+    ns = 2 * grids.default_n_space(delta)
+    vals = {n: solve_lbe(problem, delta=delta, n_space=ns, n_velocity=n, error_estimate=False, **kw).coefficient(name)
+            for n in (6, 8, 10, 12)}
+    diffs = [abs(vals[a] - vals[12]) for a in (6, 8, 10)]
+    print(f"\n{problem} delta={delta}: " + ", ".join(f"{n}: {v:.8f}" for n, v in vals.items()))
+    assert diffs[0] > diffs[1] > diffs[2]
+    res = solve_lbe(problem, delta=delta, **kw)
+    finer = solve_lbe(problem, delta=delta, n_space=ns, n_velocity=12, error_estimate=False, **kw)
+    assert_estimate_honest(res, finer, [name], max_relative=1e-4, label=f"VHS {problem} delta={delta}")
+
+
 @pytest.mark.parametrize("delta", [1.0])
 @pytest.mark.parametrize("alpha", [1.0, 0.7])
 def test_accelerated_equals_plain_iteration(delta, alpha):
@@ -170,27 +339,41 @@ def test_onsager_reciprocity(delta, alpha):
     assert qp == pytest.approx(gt, rel=1e-4)
 
 
-def test_free_molecular_limit_matches_model_equations():
+@pytest.mark.parametrize("molecule", ["hard_sphere", "vhs"])
+def test_free_molecular_limit_matches_model_equations(molecule):
     """Between plates G_P and G_T diverge like -ln(delta)/sqrt(pi) and -ln(delta)/(2 sqrt(pi)) for every collision model
     (the divergence comes from molecules flying parallel to the walls, cut off by collisions: only the constant term
     depends on the model).  So the LBE and BGK slopes d G / d ln(delta) agree as delta -> 0, and the ratio LBE/BGK
-    approaches 1 (like 1/ln delta)."""
+    approaches 1 (like 1/ln delta).  The gap between the LBE and BGK slopes (the next terms, which depend on
+    the loss frequency nu(c) of slow molecules: 2 % for hard spheres, 3.6 % for VHS argon, 5 % for Maxwell molecules
+    at delta = 1e-3..1e-2, measured, velocity-converged) must shrink as the delta window moves down."""
     res = {}
-    for delta in (1e-3, 1e-2):
+    for delta in (1e-3, 3e-3, 1e-2):
         for problem, name in (("poiseuille", "G_P"), ("thermal_creep", "G_T")):
-            lbe = solve_lbe(problem, delta=delta, n_space=16, n_velocity=5, error_estimate=False, tol=1e-10)
+            lbe = solve_lbe(problem, delta=delta, molecule=molecule, omega=OMEGA_AR if molecule == "vhs" else None,
+                            n_space=16, n_velocity=5, error_estimate=False, tol=1e-10)
             bgk = solve_plane_channel(problem, delta=delta, model="bgk", accelerate=True, n_space=16, error_estimate=False, tol=1e-10)
             res[delta, name] = (lbe.coefficient(name), bgk.coefficient(name))
+
+    def slope(name, k, d1, d2):
+        return (res[d1, name][k] - res[d2, name][k]) / math.log(d2 / d1)
+
     for name, lead in (("G_P", 1 / math.sqrt(math.pi)), ("G_T", 0.5 / math.sqrt(math.pi))):
-        slope_lbe = (res[1e-3, name][0] - res[1e-2, name][0]) / math.log(10)
-        slope_bgk = (res[1e-3, name][1] - res[1e-2, name][1]) / math.log(10)
-        print(f"\n{name}: slope LBE {slope_lbe:.4f}, BGK {slope_bgk:.4f}, leading {lead:.4f}")
-        # 3 %: the next terms (delta ln delta and the model-dependent cut-off) at delta = 1e-3..1e-2 (measured 2 %)
-        assert slope_lbe == pytest.approx(slope_bgk, rel=0.03)
-        # both approach the leading coefficient from below; 12 %: same next terms (measured 7 % for G_P at these delta)
+        slope_lbe, slope_bgk = slope(name, 0, 1e-3, 1e-2), slope(name, 1, 1e-3, 1e-2)
+        gap_low = abs(slope(name, 0, 1e-3, 3e-3) - slope(name, 1, 1e-3, 3e-3))
+        print(f"\n{name}: slope LBE {slope_lbe:.4f}, BGK {slope_bgk:.4f}, leading {lead:.4f}; gap (1e-3, 3e-3) {gap_low:.4f}")
+        if molecule == "hard_sphere":
+            # 3 %: the next terms (delta ln delta and the model-dependent cut-off) at delta = 1e-3..1e-2 (measured 2 %)
+            assert slope_lbe == pytest.approx(slope_bgk, rel=0.03)
+        assert gap_low < abs(slope_lbe - slope_bgk)
+        # both approach the leading coefficient from below; 12 %: same next terms (measured 7 % (hard spheres) and
+        # 9 % (VHS argon) for G_P at these delta)
         assert 0.85 * lead < slope_lbe < lead
-        ratio = [res[d, name][0] / res[d, name][1] for d in (1e-2, 1e-3)]
-        assert abs(ratio[1] - 1) < abs(ratio[0] - 1)
+        if molecule == "hard_sphere":
+            # the ratio approaches 1 only once the slopes agree: holds for hard spheres at these delta, not yet for
+            # VHS argon (measured 0.967 -> 0.959 for G_P), whose slope gap is larger (checked to shrink above)
+            ratio = [res[d, name][0] / res[d, name][1] for d in (1e-2, 1e-3)]
+            assert abs(ratio[1] - 1) < abs(ratio[0] - 1)
 
 
 @pytest.mark.parametrize("delta", [0.3, 3.0])
@@ -256,7 +439,10 @@ def test_failure_record_and_bad_input():
     for kwargs, field in [
         (dict(problem="couette", delta=1.0), "problem"),
         (dict(problem="poiseuille", delta=1e-5), "delta"),
-        (dict(problem="poiseuille", delta=1.0, molecule="vhs"), "molecule"),
+        (dict(problem="poiseuille", delta=1.0, molecule="vss"), "molecule"),
+        (dict(problem="poiseuille", delta=1.0, molecule="vhs"), "omega"),
+        (dict(problem="poiseuille", delta=1.0, molecule="vhs", omega=1.2), "omega"),
+        (dict(problem="poiseuille", delta=1.0, molecule="hard_sphere", omega=0.81), "omega"),
         (dict(problem="poiseuille", delta=1.0, n_velocity=40), "n_velocity"),
         (dict(problem="poiseuille", delta=1.0, lower_wall=CercignaniLampisWall(0.8, 0.8)), "lower_wall"),
     ]:
@@ -267,7 +453,7 @@ def test_failure_record_and_bad_input():
 
 def test_result_record():
     res = solve_lbe("thermal_creep", delta=1.0, n_space=16, n_velocity=4)
-    assert res.family == "plane_channel" and res.parameters["model"] == "boltzmann_hard_sphere"
+    assert res.family == "plane_channel" and res.parameters["kinetic_model"] == "boltzmann_hard_sphere"
     assert set(res.coefficients) == {"G_T", "Q_T", "G_T_error_estimate", "Q_T_error_estimate"}
     assert res.profiles["velocity"].value.shape == res.coords["y"].value.shape
     assert res.convergence.iterations == res.convergence.residuals.size
