@@ -3,8 +3,25 @@
 Files follow the CF conventions (CF-1.11): every variable has ``units`` and
 ``long_name``; the global attributes carry ``Conventions``, ``title``,
 ``source`` (code name and version), ``history`` and the point's parameters.
-Writes are atomic: the dataset goes to a temporary name in the same directory
-and is renamed, so a file that exists under its final name is complete.
+Writes are atomic (:mod:`knudsweep.solver.atomic`): the dataset goes to a
+temporary name in the same directory, is fsynced and renamed, so a file that
+exists under its final name is complete.
+
+Parameter attributes
+    Every entry of ``SolverResult.parameters`` is also a global attribute
+    ``param_<name>`` (the whole dict is the JSON attribute ``parameters``).  The
+    solvers use one name per quantity in every geometry: ``kinetic_model``,
+    ``delta``, ``problem``, and the wall as ``walls.*.describe()`` names it
+    (``wall_model``, ``alpha``, ``alpha_t``, ``alpha_n``); the plane channel,
+    whose two plates may differ, adds the plate as a suffix (``alpha_lower``,
+    ``wall_model_upper``, ...).
+
+Layout
+    The global attribute ``point_layout`` (:data:`POINT_LAYOUT`) numbers this
+    contract; the study layer (``knudsweep.point_files``) treats a file of
+    another layout as outdated and solves its point again.  2: one parameter
+    name per quantity (layout 1 named the plane channel's ``model`` and
+    ``lower_alpha``).
 """
 
 from __future__ import annotations
@@ -20,9 +37,11 @@ import numpy as np
 import xarray as xr
 
 from knudsweep.solver import __version__
+from knudsweep.solver.atomic import atomic_replace
 from knudsweep.solver.result import ConvergenceRecord, Quantity, SolverResult
 
 CF_VERSION = "CF-1.11"
+POINT_LAYOUT = 2  # see the module notes (Layout); bumped whenever the meaning of a point file's content changes
 _ATTR_PREFIX = "param_"
 
 
@@ -72,6 +91,7 @@ def to_dataset(result: SolverResult, provenance: dict[str, Any] | None = None) -
         "title": f"knudsweep {result.family} {result.problem} point",
         "source": f"knudsweep solver {__version__}",
         "code_version": __version__,
+        "point_layout": POINT_LAYOUT,
         "history": f"{now} written by knudsweep solver {__version__} (python {platform.python_version()})",
         "family": result.family,
         "problem": result.problem,
@@ -88,36 +108,6 @@ def to_dataset(result: SolverResult, provenance: dict[str, Any] | None = None) -
     return xr.Dataset(data_vars=data_vars, coords=coords, attrs=attrs)
 
 
-class atomic_output:
-    """``with atomic_output(path) as tmp:`` write ``tmp``; on success it is fsynced and renamed to ``path``.
-
-    The temporary is ``.<name>.<pid>.tmp`` in the same folder (same file system,
-    so the rename is atomic): a file under its final name is always complete.
-    On any error the temporary is removed and the error propagates.
-    """
-
-    def __init__(self, path: str | os.PathLike):
-        self.path = Path(path)
-        self.tmp = self.path.with_name(f".{self.path.name}.{os.getpid()}.tmp")
-
-    def __enter__(self) -> Path:
-        self.path.parent.mkdir(parents=True, exist_ok=True)
-        return self.tmp
-
-    def __exit__(self, exc_type, exc, tb):
-        if exc_type is not None:
-            self.tmp.unlink(missing_ok=True)
-            return False
-        try:
-            with open(self.tmp, "rb") as fh:
-                os.fsync(fh.fileno())
-            os.replace(self.tmp, self.path)
-        except BaseException:
-            self.tmp.unlink(missing_ok=True)
-            raise
-        return False
-
-
 def _nc_attr(value: Any) -> Any:
     return value.item() if isinstance(value, np.generic) else value
 
@@ -132,7 +122,7 @@ POINT_FORMAT = "NETCDF3_64BIT_OFFSET"
 
 # Global attributes that a file's numbers depend on for their meaning; they enter its checksum.
 CHECKED_ATTRS = ("family", "problem", "parameters", "status", "status_reason", "code_version",
-                 "point_id", "point_values", "batch")
+                 "point_layout", "point_id", "point_values", "batch")
 CHECKSUM_ATTR = "content_sha256"
 
 
@@ -148,15 +138,15 @@ def content_digest(variables: dict[str, Any], attrs: dict[str, Any]) -> str:
     for name in sorted(variables):
         a = np.asarray(variables[name])
         if a.dtype.kind in "OUS":
-            kind, payload = "str", "\x1f".join(str(x) for x in a.ravel()).encode("utf-8")
+            kind, payload = "str", "\x1f".join(str(x) for x in a.ravel()).encode()
         else:
             a = np.ascontiguousarray(a, dtype=a.dtype.newbyteorder("<"))
             kind, payload = f"{a.dtype.kind}{a.dtype.itemsize}", a.tobytes()
-        h.update(f"{name}|{kind}|{a.shape}|".encode("utf-8"))
+        h.update(f"{name}|{kind}|{a.shape}|".encode())
         h.update(payload)
     for key in CHECKED_ATTRS:
         if key in attrs:
-            h.update(f"{key}={attrs[key]};".encode("utf-8"))
+            h.update(f"{key}={attrs[key]};".encode())
     return h.hexdigest()
 
 
@@ -213,9 +203,7 @@ def write_point_netcdf(ds: xr.Dataset, path: str | os.PathLike) -> None:
 
 def write_dataset(ds: xr.Dataset, path: str | os.PathLike) -> Path:
     """Write ``ds`` atomically to ``path`` (temporary name, fsync, rename)."""
-    with atomic_output(path) as tmp:
-        write_point_netcdf(ds, tmp)
-    return Path(path)
+    return atomic_replace(path, lambda tmp: write_point_netcdf(ds, tmp))
 
 
 def write_result(

@@ -88,10 +88,14 @@ def _check_int(name: str, value, low: int, high: int) -> int:
     return int(value)
 
 
-def _wall_parameters(prefix: str, wall) -> dict:
-    if isinstance(wall, MaxwellWall):
-        return {f"{prefix}_wall_model": "maxwell", f"{prefix}_alpha": wall.alpha}
-    return {f"{prefix}_wall_model": "cercignani_lampis", f"{prefix}_alpha_t": wall.alpha_t, f"{prefix}_alpha_n": wall.alpha_n}
+def plate_parameters(lower_wall, upper_wall) -> dict:
+    """The result parameters of the two plates: the wall's own names (``describe()``) with the plate as suffix.
+
+    ``wall_model_lower``, ``alpha_lower`` (or ``alpha_t_lower``, ``alpha_n_lower``), the same ``_upper``:
+    the tube and the duct, with one wall, store the same names without a suffix.
+    """
+    return {f"{key}_{side}": value for side, wall in (("lower", lower_wall), ("upper", upper_wall))
+            for key, value in wall.describe().items()}
 
 
 def check_inputs(problem, delta, model, lower_wall, upper_wall, tol):
@@ -264,9 +268,7 @@ def _solve_once(problem, delta, kinetic, lower_wall, upper_wall, n_space, n_velo
     convergence = ConvergenceRecord(
         residuals=history[:iterations].copy(), iterations=int(iterations), status=status, reason=reason, tolerance=tol
     )
-    parameters = {"problem": problem, "model": kinetic.name, "delta": delta, "prandtl": kinetic.prandtl}
-    parameters.update(_wall_parameters("lower", lower_wall))
-    parameters.update(_wall_parameters("upper", upper_wall))
+    parameters = {"problem": problem, "delta": delta, **kinetic.describe(), **plate_parameters(lower_wall, upper_wall)}
     discretization = {
         "n_space": int(n_space),
         "space_grid": "y = sin(pi xi / 2) / 2, xi uniform",

@@ -90,3 +90,36 @@ def test_a_flipped_bit_in_a_batch_file_is_detected(point, tmp_path):
     _flip_bit_of(path, record["coefficients"]["G_P"][0], "<")  # HDF5 stores native (little-endian) here
     with pytest.raises(Exception, match="checksum mismatch"):
         read_batch_file(path)
+
+
+def test_a_file_of_an_older_layout_is_outdated_for_the_batch_job_and_the_status(point):
+    # layout 1 named the plane channel's parameters differently (param_model, param_lower_alpha):
+    # such a file is sound but outdated (solved again and replaced), not corrupt
+    from knudsweep.point_files import OUTDATED, identity, read_header
+    from knudsweep.solver.netcdf_io import POINT_LAYOUT, read_result, write_result
+    from knudsweep.status import read_status
+
+    p, path, _ = point
+    assert read_header(path)["point_layout"] == POINT_LAYOUT
+    assert not read_status(path, update_sidecar=False, pid=p.pid, values=p.values).outdated
+    write_result(read_result(path), path, {**identity(p.pid, p.values), "point_layout": 1})
+    again, why = read_point_record(path, p.pid, p.values)
+    assert again is None and why == OUTDATED + f"point file layout 1, this code writes layout {POINT_LAYOUT}"
+    for update_sidecar in (True, True, False):  # from the file (writes the sidecar), then from the sidecar
+        st = read_status(path, update_sidecar=update_sidecar, pid=p.pid, values=p.values)
+        assert st.state == "converged" and st.outdated and st.outdated_reason.startswith("point file layout 1")
+
+
+def test_a_file_without_a_layout_is_outdated(point):
+    # files written before point_layout existed carry no such attribute: layout 1
+    from knudsweep.point_files import OUTDATED
+    from knudsweep.solver.netcdf_io import CHECKSUM_ATTR, content_digest
+
+    p, path, _ = point
+    with netCDF4.Dataset(str(path), "a") as nc:  # as an older writer left it, checksum made without the layout
+        nc.delncattr("point_layout")
+        nc.set_auto_mask(False)
+        attrs = {k: nc.getncattr(k) for k in nc.ncattrs()}
+        nc.setncattr(CHECKSUM_ATTR, content_digest({k: v[...] for k, v in nc.variables.items()}, attrs))
+    again, why = read_point_record(path, p.pid, p.values)
+    assert again is None and why.startswith(OUTDATED + "point file layout 1")

@@ -18,9 +18,9 @@ import numpy as np
 from knudsweep.cli import main
 from knudsweep.config import validate_study
 from knudsweep.plan import StudyPlan
-from knudsweep.status import (clean_stray_temporaries, sidecar_path, stray_temporaries, study_status)
-from knudsweep.solver import __version__
+from knudsweep.point_files import identity, write_point
 from knudsweep.solver.netcdf_io import write_result
+from knudsweep.status import clean_stray_temporaries, sidecar_path, stray_temporaries, study_status
 from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
 
 from fault_helpers import check_complete, wait_for
@@ -200,8 +200,10 @@ def test_status_of_a_300_point_study(tmp_path, capsys):
             path.parent.mkdir(parents=True, exist_ok=True)
             path.write_bytes(rng.randbytes(2000))
             continue
-        write_result(synthetic(plan.points[pid], FAILED if pid in failed else CONVERGED), path,
-                     {"point_id": pid, "code_version": "0.0.1" if pid in outdated else __version__})
+        ident = identity(pid, plan.points[pid].values)
+        if pid in outdated:
+            ident["code_version"] = "0.0.1"
+        write_result(synthetic(plan.points[pid], FAILED if pid in failed else CONVERGED), path, ident)
 
     def expected(pid):
         return ("missing" if pid in missing else "corrupt" if pid in corrupt
@@ -218,7 +220,8 @@ def test_status_of_a_300_point_study(tmp_path, capsys):
     # a rewritten file invalidates its sidecar (size / mtime changed)
     changed = next(p for p in pids if expected(p) == "converged" and p not in outdated)
     time.sleep(0.01)
-    write_result(synthetic(plan.points[changed], FAILED), tmp_path / plan.point_file(changed), {"point_id": changed})
+    write_point(synthetic(plan.points[changed], FAILED), tmp_path / plan.point_file(changed), changed,
+                plan.points[changed].values)
     assert {r.pid: r.state for r in study_status(plan, tmp_path)}[changed] == "failed"
 
     # stray temporaries: an abandoned one (dead writer, 2 min old) is removed, a live one kept

@@ -44,7 +44,8 @@ from typing import Any
 
 import numpy as np
 
-from knudsweep.solver.netcdf_io import CF_VERSION, CHECKSUM_ATTR, atomic_output, content_digest, verify_digest
+from knudsweep.solver.atomic import atomic_output
+from knudsweep.solver.netcdf_io import CF_VERSION, CHECKSUM_ATTR, content_digest, verify_digest
 
 BATCH_LAYOUT = 2  # 2: discretization and series variables (1: without)
 INT_FILL = np.int32(-2147483647)  # netCDF's default fill value of int32 (NC_FILL_INT)

@@ -93,7 +93,6 @@ def solve_one(task: tuple) -> dict[str, Any]:
     from knudsweep.point_files import read_point_record, record_from_result
     from knudsweep.point_job import solve_point
     from knudsweep.status import write_sidecar
-    from knudsweep.solver import __version__
 
     output = os.path.join(root, point_path(pid, "results")) if root else point_path(pid, "results")
     try:
@@ -105,9 +104,7 @@ def solve_one(task: tuple) -> dict[str, Any]:
             _injected_raise(pid)
             result = solve_point(family, dict(values), output, section=section, pid=pid,
                                  config_hash=config_hash, attempt=int(attempt))
-            conv = result.convergence
-            write_sidecar(output, {"status": conv.status, "status_reason": conv.reason, "point_id": pid,
-                                   "iterations_used": int(conv.iterations), "code_version": __version__})
+            write_sidecar(output)  # from the file's header (netCDF classic: a fraction of a millisecond)
         return {**complete_record(record_from_result(result, pid), result=result), "source": "solved"}
     except Exception as exc:  # a crash of this point must not lose the others
         log.error("point %s crashed: %s: %s\n%s", pid, type(exc).__name__, exc, traceback.format_exc())
@@ -266,7 +263,8 @@ def run_batch(key: str, points: dict[str, dict[str, Any]], output: str, study: d
     counts = {s: sum(r["source"] == s for r in ordered) for s in ("solved", "reused", CRASHED)}
     failed = sum(r["status"] == "failed" and r["source"] != CRASHED for r in ordered)
     elapsed = time.perf_counter() - t0
-    summary = (f"batch {key}: {len(ordered)} point{'' if len(ordered) == 1 else 's'}, {counts['solved']} solved, {counts['reused']} reused, "
+    summary = (f"batch {key}: {len(ordered)} point{'' if len(ordered) == 1 else 's'}, "
+               f"{counts['solved']} solved, {counts['reused']} reused, "
                f"{failed} failed to converge, {counts[CRASHED]} crashed; {elapsed:.1f} s")
     log.info("%s", summary)
     if counts[CRASHED] and attempt < max_attempt:

@@ -59,6 +59,7 @@ def new_figure(settings: dict, *, mosaic=None, scale=(1.0, 1.0), **kw):
 def save_figure(fig, stem: str | os.PathLike, formats: list[str], dpi: int) -> list[Path]:
     """Write ``<stem>.<fmt>`` for each format (atomically) and close the figure."""
     from knudsweep.preflight import ProductWriteError, write_failure_line
+    from knudsweep.solver.atomic import atomic_replace
 
     stem = Path(stem)
     stem.parent.mkdir(parents=True, exist_ok=True)
@@ -67,12 +68,10 @@ def save_figure(fig, stem: str | os.PathLike, formats: list[str], dpi: int) -> l
         with plt.rc_context(STYLE):
             for fmt in formats:
                 path = stem.with_name(f"{stem.name}.{fmt}")
-                tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
                 try:
-                    fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_METADATA[fmt])
-                    os.replace(tmp, path)
+                    atomic_replace(path, lambda tmp, fmt=fmt: fig.savefig(tmp, format=fmt, dpi=dpi,
+                                                                          metadata=_METADATA[fmt]))
                 except OSError as exc:
-                    tmp.unlink(missing_ok=True)
                     raise ProductWriteError(write_failure_line(path, exc)) from exc
                 written.append(path)
     finally:

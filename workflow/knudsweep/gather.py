@@ -191,7 +191,8 @@ def gather_family(family, section: dict[str, Any], points, records: dict[str, di
                      "empty: no readable file)"})
     data_vars["iterations"] = (names, iterations, {"units": "1", "long_name": "iterations used"})
     data_vars["wall_time"] = (names, wall_time, {"units": "s", "long_name": "solver wall-clock time"})
-    data_vars["residual"] = (names + ["iteration"], residual, {"units": "1", "long_name": "relative change of the iterate per iteration (sampled)"})
+    data_vars["residual"] = (names + ["iteration"], residual, {
+        "units": "1", "long_name": "relative change of the iterate per iteration (sampled)"})
     ds = xr.Dataset(data_vars=data_vars, coords=coords, attrs={"family": family.name})
     dim = getattr(family, "series_dim", None)
     if dim:
@@ -287,7 +288,7 @@ def write_sweep(datasets: dict[str, xr.Dataset], output: str | os.PathLike, attr
     :class:`knudsweep.preflight.ProductWriteError` with the file and the free space.
     """
     from knudsweep.preflight import ProductWriteError, write_failure_line
-    from knudsweep.solver.netcdf_io import atomic_output
+    from knudsweep.solver.atomic import atomic_output
 
     output = Path(output)
     try:

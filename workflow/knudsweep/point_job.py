@@ -30,7 +30,6 @@ import time
 from pathlib import Path
 from typing import Any
 
-from knudsweep.solver import __version__
 from knudsweep.solver.result import FAILED, ConvergenceRecord, SolverResult
 
 log = logging.getLogger("knudsweep.solve")
@@ -104,7 +103,7 @@ def solve_point(
     attempt: int = 1,
 ) -> SolverResult:
     """Solve one point and write ``output`` atomically with provenance attributes."""
-    from knudsweep.solver.netcdf_io import write_result
+    from knudsweep.point_files import write_point
 
     t0 = time.perf_counter()
     result, tries, max_iter = solve_values(family, values, section, attempt)
@@ -115,10 +114,7 @@ def solve_point(
         last_iterate = {k: float(q.value) for k, q in result.coefficients.items()}
         result.coefficients = {}
     provenance = {
-        "code_version": __version__,
         "config_hash": config_hash,
-        "point_id": pid,
-        "point_values": values,
         "job_wall_time_s": time.perf_counter() - t0,
         "solver_wall_time_s": float(result.wall_time),
         "iterations_used": int(result.convergence.iterations),
@@ -129,7 +125,7 @@ def solve_point(
     if last_iterate:
         provenance["unconverged_last_iterate"] = last_iterate
     try:
-        write_result(result, output, provenance)
+        write_point(result, output, pid, values, provenance)
     except Exception as exc:
         raise PointWriteError(write_failure_message(output, exc)) from exc
     log.debug("wrote %s (%s)", output, result.status)

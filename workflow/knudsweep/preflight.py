@@ -83,9 +83,8 @@ def check_sweep(plan) -> str:
 
 def check_before_run(plan, log_dir: str = "logs") -> tuple[str, list[str]]:
     """(fatal problem or "", notes) for the run of ``plan`` in the current folder."""
-    from knudsweep.status import clean_stray_temporaries
-
     from knudsweep.plan import RESULTS
+    from knudsweep.status import clean_stray_temporaries
 
     folders = [RESULTS, f"{RESULTS}/points", plan.study_dir, log_dir]
     problem = unwritable_folder(folders)

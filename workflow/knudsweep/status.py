@@ -13,14 +13,16 @@ Fast listing
     by the status (gather reads every byte and reports it).
 
 Outdated points
-    A point whose ``code_version`` attribute differs from ``knudsweep.solver.__version__``
-    was computed by another solver version.  It stays in its state (it is still
-    a result) but is flagged ``outdated``; :func:`requeue` with
-    ``outdated=True`` removes only those files so the next run recomputes only them.
+    A point whose file :func:`knudsweep.point_files.identity_problem` calls
+    outdated (another solver version, an older point-file layout, or point
+    values edited since) stays in its state (it is still a result) but is
+    flagged ``outdated`` with the reason in ``outdated_reason``; the next batch
+    job that holds it solves it again.  :func:`requeue` with ``outdated=True``
+    removes only those files so the next run recomputes only them.
 
 Stray temporaries
     A writer killed between creating and renaming its temporary file leaves
-    ``.<name>.nc.<pid>.tmp`` (see ``knudsweep.solver.netcdf_io.write_dataset``).  Such a
+    ``.<name>.<pid>.tmp`` (:func:`knudsweep.solver.atomic.temporary_name`).  Such a
     file is never read as a point (its name is not a point file's name) and
     :func:`clean_stray_temporaries` removes it once its writer process is gone
     from this host and it has not been modified for ``min_age_s`` seconds (a
@@ -35,17 +37,16 @@ from __future__ import annotations
 import json
 import logging
 import os
-import re
 import time
 from dataclasses import dataclass
 from pathlib import Path
 
-from knudsweep.solver import __version__
+from knudsweep.point_files import HEADER_ATTRS, OUTDATED, identity_problem, read_header
+from knudsweep.solver.atomic import TEMPORARY_NAME, atomic_write_text
 
 log = logging.getLogger("knudsweep.status")
 
-_TMP_NAME = re.compile(r"^\.(?P<final>.+)\.(?P<pid>\d+)\.tmp$")
-_ATTRS = ("status", "status_reason", "iterations_used", "code_version", "point_id")
+SIDECAR_LAYOUT = 2  # 2: the header attributes of point_files.HEADER_ATTRS (1: without layout and values)
 # Seconds a temporary must be untouched before it counts as abandoned (a small point
 # file is written in well under a second; common practice, no source).
 STRAY_MIN_AGE_S = 60.0
@@ -60,6 +61,7 @@ class PointStatus:
     iterations: int = -1
     code_version: str = ""
     outdated: bool = False
+    outdated_reason: str = ""
 
 
 def sidecar_path(path: str | os.PathLike) -> Path:
@@ -71,33 +73,20 @@ def sidecar_path(path: str | os.PathLike) -> Path:
 def write_sidecar(path: str | os.PathLike, attrs: dict | None = None) -> None:
     """Record the status attributes of point file ``path`` beside it (atomic, best effort).
 
-    ``attrs``: the file's global attributes if the caller has them, else they are read.
+    ``attrs``: the file's header (:func:`knudsweep.point_files.read_header`) if
+    the caller has it, else it is read.  Not fsynced: a sidecar is checked
+    against its point file on every read and rebuilt when it does not match.
     """
     path = Path(path)
     try:
         if attrs is None:
-            attrs = _read_attrs(path)
+            attrs = read_header(path)
         st = path.stat()
-        record = {"size": st.st_size, "mtime_ns": st.st_mtime_ns}
-        record.update({k: _plain(attrs[k]) for k in _ATTRS if k in attrs})
-        side = sidecar_path(path)
-        tmp = side.with_name(f"{side.name}.{os.getpid()}.tmp")
-        tmp.write_text(json.dumps(record), encoding="utf-8")
-        os.replace(tmp, side)
+        record = {"sidecar_layout": SIDECAR_LAYOUT, "size": st.st_size, "mtime_ns": st.st_mtime_ns}
+        record.update({k: attrs[k] for k in HEADER_ATTRS if k in attrs})
+        atomic_write_text(sidecar_path(path), json.dumps(record), fsync=False)
     except OSError as exc:  # a cache only: a read-only or full disk must not fail the caller
         log.warning("could not write status sidecar of %s: %s", path, exc)
-
-
-def _plain(value):
-    return value.item() if hasattr(value, "item") else value
-
-
-def _read_attrs(path: Path) -> dict:
-    import netCDF4
-
-    with netCDF4.Dataset(str(path), "r") as nc:
-        names = nc.ncattrs()
-        return {k: nc.getncattr(k) for k in _ATTRS if k in names}
 
 
 def _from_sidecar(path: Path, st: os.stat_result) -> dict | None:
@@ -105,15 +94,19 @@ def _from_sidecar(path: Path, st: os.stat_result) -> dict | None:
         record = json.loads(sidecar_path(path).read_text(encoding="utf-8"))
     except (OSError, ValueError):
         return None
-    if record.get("size") != st.st_size or record.get("mtime_ns") != st.st_mtime_ns:
+    if (record.get("sidecar_layout") != SIDECAR_LAYOUT or record.get("size") != st.st_size
+            or record.get("mtime_ns") != st.st_mtime_ns):
         return None
     return record
 
 
-def read_status(path: str | os.PathLike, update_sidecar: bool = True, pid: str | None = None) -> PointStatus:
+def read_status(path: str | os.PathLike, update_sidecar: bool = True, pid: str | None = None,
+                values: dict | None = None) -> PointStatus:
     """Status of one point file from its sidecar or, failing that, its attributes.
 
-    With ``pid``, a file that holds another point (copied over this one) is corrupt.
+    With ``pid``, a file that holds another point (copied over this one) is
+    corrupt, and one from earlier inputs is outdated (with ``values``, the
+    point's canonical values, also a file solved for other values).
     """
     path = Path(path)
     try:
@@ -125,25 +118,26 @@ def read_status(path: str | os.PathLike, update_sidecar: bool = True, pid: str |
     attrs = _from_sidecar(path, st)
     if attrs is None:
         try:
-            attrs = _read_attrs(path)
+            attrs = read_header(path)
         except Exception as exc:  # unreadable header: corrupt
             return PointStatus("", str(path), "corrupt", f"{type(exc).__name__}: {exc}")
         if "status" in attrs and update_sidecar:
             write_sidecar(path, attrs)
     if "status" not in attrs:
         return PointStatus("", str(path), "corrupt", "no status attribute (not a knudsweep point file)")
-    if pid is not None and attrs.get("point_id") != pid:
-        return PointStatus("", str(path), "corrupt", f"file holds point {attrs.get('point_id')!r}, not this one")
-    version = str(attrs.get("code_version", ""))
+    why = identity_problem(attrs, attrs.get("point_id") if pid is None else pid, values)
+    if why and not why.startswith(OUTDATED):
+        return PointStatus("", str(path), "corrupt", why)
     return PointStatus("", str(path), str(attrs["status"]), str(attrs.get("status_reason", "")),
-                       int(attrs.get("iterations_used", -1)), version, version != __version__)
+                       int(attrs.get("iterations_used", -1)), str(attrs.get("code_version", "")), bool(why),
+                       why[len(OUTDATED):])
 
 
 def study_status(plan, root: str | os.PathLike = ".", update_sidecar: bool = True) -> list[PointStatus]:
     """Status of every point of ``plan`` (a StudyPlan), paths relative to ``root``."""
     out = []
-    for pid in plan.points:
-        st = read_status(Path(root) / plan.point_file(pid), update_sidecar, pid=pid)
+    for pid, point in plan.points.items():
+        st = read_status(Path(root) / plan.point_file(pid), update_sidecar, pid=pid, values=point.values)
         st.pid = pid
         out.append(st)
     return out
@@ -203,7 +197,7 @@ def stray_temporaries(directories, min_age_s: float = STRAY_MIN_AGE_S) -> list[P
         except FileNotFoundError:
             continue
         for entry in entries:
-            m = _TMP_NAME.match(entry.name)
+            m = TEMPORARY_NAME.match(entry.name)
             if not m or not entry.is_file(follow_symlinks=False):
                 continue
             try:

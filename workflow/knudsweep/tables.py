@@ -131,27 +131,18 @@ def to_csv(table: Table) -> str:
     return buf.getvalue()
 
 
-def _atomic_text(path: Path, text: str) -> None:
-    tmp = path.with_name(f".{path.name}.{os.getpid()}.tmp")
-    try:
-        tmp.write_text(text, encoding="utf-8")
-        os.replace(tmp, path)
-    except OSError:
-        tmp.unlink(missing_ok=True)
-        raise
-
-
 def write_tables(tables: dict[str, Table], outdir: str | os.PathLike) -> list[Path]:
     """Write ``<outdir>/<name>.csv`` and ``<outdir>/<name>.md`` for every table."""
     outdir = Path(outdir)
     outdir.mkdir(parents=True, exist_ok=True)
     from knudsweep.preflight import ProductWriteError, write_failure_line
+    from knudsweep.solver.atomic import atomic_write_text
 
     written = []
     for name, table in tables.items():
         for path, text in ((outdir / f"{name}.csv", to_csv(table)), (outdir / f"{name}.md", to_markdown(table))):
             try:
-                _atomic_text(path, text)
+                atomic_write_text(path, text)
             except OSError as exc:
                 raise ProductWriteError(write_failure_line(path, exc)) from exc
             written.append(path)
