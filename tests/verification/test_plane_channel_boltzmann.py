@@ -311,7 +311,9 @@ def test_vhs_velocity_set_convergence_study(delta, problem):
             for n in (6, 8, 10, 12)}
     diffs = [abs(vals[a] - vals[12]) for a in (6, 8, 10)]
     print(f"\n{problem} delta={delta}: " + ", ".join(f"{n}: {v:.8f}" for n, v in vals.items()))
-    assert diffs[0] > diffs[1] > diffs[2]
+    # changes fall with the speed count until they reach 1e-7 of G (velocity-converged: at delta = 10 all four
+    # agree to 5e-8, the level of the iteration tolerance times the 1/(1 - rho) amplification)
+    assert all(d2 < d1 or d2 < 1e-7 * abs(vals[12]) for d1, d2 in zip(diffs, diffs[1:]))
     res = solve_lbe(problem, delta=delta, **kw)
     finer = solve_lbe(problem, delta=delta, n_space=ns, n_velocity=12, error_estimate=False, **kw)
     assert_estimate_honest(res, finer, [name], max_relative=1e-4, label=f"VHS {problem} delta={delta}")
