@@ -130,7 +130,8 @@ def compute_table(
         kw = {}
         slope = 0.25
     else:
-        from knudsweep.solver.duct import continuum_flow_rate, solve_duct as _solve
+        from knudsweep.solver.duct import solve_duct as _solve
+        from knudsweep.solver.limits import continuum_flow_rate
 
         kw = {"aspect_ratio": float(aspect_ratio)}
         slope = continuum_flow_rate(1.0, aspect_ratio)

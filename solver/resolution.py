@@ -22,6 +22,14 @@ estimate leans to the safe side.
 
 The functions take a callable ``solve(n_space, n_velocity) -> {name: value}``
 and know nothing about the solver, so every geometry can use them.
+
+The three channel geometries (plane channel, tube, duct) meet the shared
+driver through one interface, :class:`ChannelSolver`: their default and
+checked sizes, their resolution ladder, the coarser level of the estimate
+and one solve at a fixed resolution that assembles its result;
+:func:`solve_channel` runs the estimate or the accuracy climb on it.
+Ladder helpers for nested grids (:func:`nested_ladder`,
+:func:`coarser_level`) live here too.
 """
 
 from __future__ import annotations
@@ -29,6 +37,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
+from typing import Protocol
 
 ACCURACY_RANGE = (1e-6, 1e-1)
 MIN_RATIO = 1.5  # r used when the differences barely shrink: E = 2 |G_k - G_{k-1}|
@@ -295,3 +304,71 @@ def solve_with_estimate(
         res.convergence.reason = choice.reason
     res.wall_time = time.perf_counter() - t_start
     return res
+
+
+# --------------------------------------------------------------------------
+# The interface of a channel geometry to the shared driver.
+
+
+class ChannelSolver(Protocol):
+    """One channel problem with checked inputs, as the shared driver sees it.
+
+    Implemented by ``plane_channel.driver``, ``tube.driver`` and
+    ``duct.driver``.  ``assumed_ratio`` is the error reduction per ladder step
+    of the geometry's scheme (:func:`estimate_error`); ``coarse_how`` and
+    ``ladder_how`` say in the discretization record how the estimate was made.
+    """
+
+    assumed_ratio: float
+    coarse_how: str
+    ladder_how: str
+
+    def resolution_ladder(self) -> list[tuple[int, int]]:
+        """(n_space, n_velocity) levels of the accuracy climb, coarse to fine."""
+        ...
+
+    def coarser_level(self, n_space: int, n_velocity: int) -> tuple[int, int]:
+        """The level one step below (n_space, n_velocity), for the estimate."""
+        ...
+
+    def solve_once(self, n_space: int, n_velocity: int, tol: float):
+        """One solve at a fixed resolution, assembled into a SolverResult."""
+        ...
+
+
+def solve_channel(problem: ChannelSolver, n_space: int, n_velocity: int, *, tol: float, accuracy: float | None,
+                  error_estimate: bool, t_start: float):
+    """:func:`solve_with_estimate` on a :class:`ChannelSolver` at the default or given (n_space, n_velocity)."""
+    return solve_with_estimate(
+        problem.solve_once, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate,
+        ladder=problem.resolution_ladder() if accuracy is not None else None,
+        coarse_level=problem.coarser_level(n_space, n_velocity), t_start=t_start,
+        assumed_ratio=problem.assumed_ratio, coarse_how=problem.coarse_how, ladder_how=problem.ladder_how,
+    )
+
+
+def coarser_level(n_space: int, n_velocity: int, min_space: int = 5, min_velocity: int = 4) -> tuple[int, int]:
+    """One nested step down: half the spatial intervals, 3/4 of the velocity nodes (at least the minima)."""
+    return max(min_space, (n_space - 1) // 2 + 1), max(min_velocity, int(round(0.75 * n_velocity)))
+
+
+def nested_ladder(n_default: int, v_default: int, n_min: int, fits) -> list[tuple[int, int]]:
+    """Levels (n_space, n_velocity), coarse to fine, through the default (n_default, v_default).
+
+    n_space - 1 (the number of intervals) halves per step down while it stays
+    even and n_space >= n_min, and doubles per step up while ``fits(ns, nv)``;
+    n_velocity = v_default (4/3)^k at step k from the default (at least 4).
+    """
+    spans, down = n_default - 1, 0
+    while spans % 2 == 0 and spans // 2 + 1 >= n_min:
+        spans //= 2
+        down += 1
+    levels = []
+    k = -down
+    while True:
+        ns = spans * 2 ** (k + down) + 1
+        nv = max(4, int(round(v_default * (4.0 / 3.0) ** k)))
+        if not fits(ns, nv):
+            return levels
+        levels.append((ns, nv))
+        k += 1

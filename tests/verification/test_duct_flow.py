@@ -9,7 +9,12 @@ import pytest
 import scipy.sparse as sp
 from scipy.sparse.linalg import spsolve
 
-from knudsweep.solver.duct import continuum_flow_rate, free_molecular_flow_rate, slip_flow_rate, solve_duct
+from knudsweep.solver.duct import solve_duct
+from knudsweep.solver.limits import (
+    continuum_flow_rate,
+    free_molecular_flow_rate,
+    slip_flow_rate,
+)
 from knudsweep.solver.plane_channel import solve_plane_channel
 from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
@@ -146,7 +151,7 @@ def test_acceleration_bounded_iterations_duct_low_accommodation(alpha, delta):
     # Walls re-emit what arrived in the previous sweep, so specular reflection
     # lags.  Anderson mixing of the moments and the wall inflow
     # (knudsweep.solver.anderson) and the correction of the specular inflow
-    # (duct._correct_inflow) cut alpha = 0.3 from > 300 iterations (delta >= 1)
+    # (duct.boundary.correct_inflow) cut alpha = 0.3 from > 300 iterations (delta >= 1)
     # to 13-39 and alpha = 0.1 at delta = 1000 from > 300 to 15-20 (measured,
     # three models).  Near delta = 0 alpha = 0.1 still takes 64-88: no bound
     # is asked there (see the knudsweep.solver.duct docstring).
@@ -283,7 +288,7 @@ def _free_molecular_maxwell_by_unfolding(aspect, alpha, n=100, n_theta=360):
 
     At delta = 0 the drive accumulates along a ray since the molecule's last
     diffuse emission, and a specular reflection keeps c_x, so the diffuse-wall
-    relation of :func:`knudsweep.solver.duct.free_molecular_flow_rate`,
+    relation of :func:`knudsweep.solver.limits.free_molecular_flow_rate`,
     u(P) = (1/(4 sqrt(pi))) int s(P, theta) dtheta, holds with s replaced by the
     expected unfolded distance back to that emission,
     E[s] = sum_k alpha (1 - alpha)^k t_k, t_k the k-th wall crossing of the
@@ -322,7 +327,7 @@ def test_unfolding_quadrature_reproduces_the_diffuse_closed_form():
 @pytest.mark.parametrize("alpha", [0.8, 0.5])
 def test_free_molecular_specular_walls_against_unfolded_rays(alpha):
     # Specular reflection inside the sweep (wall inflow from the previous sweep,
-    # Anderson-mixed, duct._correct_inflow).  Measured 0.18 % / 0.16 % low with
+    # Anderson-mixed, duct.boundary.correct_inflow).  Measured 0.18 % / 0.16 % low with
     # 12 angles per quadrant, the same ray effect as for diffuse walls
     # (test_free_molecular_closed_form_against_solver); tolerance 0.5 %.
     res = solve_duct("poiseuille", delta=0.0, aspect_ratio=2.0, n_space=25, n_velocity=24, wall=MaxwellWall(alpha))

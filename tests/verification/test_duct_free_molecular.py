@@ -27,7 +27,8 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from knudsweep.solver.duct import free_molecular_flow_rate, solve_duct
+from knudsweep.solver.duct import solve_duct
+from knudsweep.solver.limits import free_molecular_flow_rate
 
 from estimate_checks import HONEST  # noqa: E402
 
@@ -74,7 +75,7 @@ def test_closed_form_against_direct_quadrature(aspect):
 
 @pytest.mark.parametrize("aspect", ASPECTS)
 def test_closed_form_matches_chord_quadrature_of_the_solver_module(aspect):
-    # knudsweep.solver.duct.free_molecular_flow_rate integrates the chord-length
+    # knudsweep.solver.limits.free_molecular_flow_rate integrates the chord-length
     # distribution by scipy.quad (epsrel 1e-12): agreement to rounding
     assert free_molecular_flow_rate(aspect) == pytest.approx(free_molecular_closed_form(aspect), rel=1e-11)
 
@@ -100,7 +101,7 @@ def _default_solve(problem, delta, aspect):
 @pytest.mark.parametrize("aspect", ASPECTS)
 def test_default_grid_free_molecular_within_target_and_estimate_honest(aspect):
     # The uncollided part is integrated over the angle analytically
-    # (knudsweep.solver.duct._uncollided_moments), so at delta = 0 only the trapezoid
+    # (knudsweep.solver.duct.uncollided.uncollided_moments), so at delta = 0 only the trapezoid
     # rule over the cross-section remains: measured -0.06 % (A = 1) and
     # -0.03 % (A >= 4) on the default grid, estimate 0.08 / 0.03-0.04 %.
     # Before, the discrete ordinates missed the grazing rays: -0.3 % (A = 1)

@@ -13,7 +13,8 @@ import math
 
 import pytest
 
-import knudsweep.solver.tube as tube_module
+import knudsweep.solver.tube.boundary as tube_boundary
+import knudsweep.solver.tube.grids as tube_grids
 from knudsweep.solver.duct import resolution_ladder as duct_ladder
 from knudsweep.solver.duct import solve_duct
 from knudsweep.solver.tube import resolution_ladder as tube_ladder
@@ -21,6 +22,7 @@ from knudsweep.solver.tube import solve_tube
 from knudsweep.solver.walls import CercignaniLampisWall
 
 from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
+
 DUCT_A = 1.0  # square duct
 
 
@@ -99,7 +101,7 @@ def test_duct_accuracy_target_is_met_and_recorded():
 
 def test_unreachable_target_is_reported_as_failed(monkeypatch):
     # cap the tube ladder at (11, 9): a 1e-6 target cannot be met there
-    monkeypatch.setattr(tube_module, "TUBE_MAX_RAY_ENTRIES", 2 * 11 * 14 * (6 * 11 + 13))
+    monkeypatch.setattr(tube_grids, "MAX_RAY_ENTRIES", 2 * 11 * 14 * (6 * 11 + 13))
     assert tube_ladder(1.0)[-1] == (11, 9)
     res = solve_tube("thermal_creep", delta=1.0, accuracy=1e-6)
     assert res.status == "failed" and "not met" in res.convergence.reason
@@ -143,7 +145,7 @@ def test_cl_kernel_built_in_blocks_gives_the_same_result(monkeypatch):
     # rows are normalised one by one, so any block size gives the same numbers
     kw = dict(delta=1.0, wall=CercignaniLampisWall(0.7, 0.5), n_space=11, n_velocity=8, tol=1e-10)
     whole = solve_tube("poiseuille", **kw)
-    monkeypatch.setattr(tube_module, "_CL_BLOCK", 1000)
+    monkeypatch.setattr(tube_boundary, "CL_BLOCK", 1000)
     blocks = solve_tube("poiseuille", **kw)
     for name in ("G_P", "Q_P", "G_P_error_estimate"):
         # the same arithmetic per row; only BLAS summation order may differ
