@@ -19,13 +19,21 @@ Each entry carries two numbers the solvers need: the Prandtl number and the
 collision-frequency factor (nu_e / (p/mu)), plus flags telling which model
 term to add.  Add a model: append a :class:`KineticModel` to ``_MODELS`` and
 teach each solver's moment tables the new gain term.
+
+This module is the one list of kinetic-model names: the channel solvers, the
+relaxation solver (its model equations and methods), the study schema (its
+model enums are filled from here on load) and the command line all read it.
+Besides the model equations it names the linearized Boltzmann equations the
+plane-channel solver offers (:data:`BOLTZMANN_MODELS`, name -> molecular model
+of knudsweep.solver.relaxation.cross_sections), and the deterministic
+Boltzmann solution of the relaxation solver (:data:`RELAXATION_BOLTZMANN`).
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
 
-__all__ = ["KineticModel", "MODEL_NAMES", "get_model"]
+__all__ = ["BOLTZMANN_MODELS", "KineticModel", "MODEL_NAMES", "RELAXATION_BOLTZMANN", "get_model"]
 
 
 @dataclass(frozen=True)
@@ -71,6 +79,14 @@ _MODELS: dict[str, KineticModel] = {
 }
 
 MODEL_NAMES: tuple[str, ...] = tuple(_MODELS)
+
+# Linearized Boltzmann equations of the plane channel (knudsweep.solver.plane_channel.boltzmann_driver):
+# model name -> molecule.  Poiseuille and thermal creep with Maxwell walls only.
+BOLTZMANN_MODELS: dict[str, str] = {"boltzmann_hard_sphere": "hard_sphere"}
+
+# Method name of the relaxation solver's deterministic Boltzmann solution (fast spectral method,
+# knudsweep.solver.relaxation.fast_spectral); it runs beside the model equations and DSMC.
+RELAXATION_BOLTZMANN = "fast_spectral"
 
 
 def get_model(name: str) -> KineticModel:

@@ -19,13 +19,14 @@ import time as _time
 from typing import Any
 
 import numpy as np
-
 from knudsweep.solver import gas as gasmod
+from knudsweep.solver.kinetic_models import MODEL_NAMES, RELAXATION_BOLTZMANN
 from knudsweep.solver.relaxation import deterministic as det
 from knudsweep.solver.relaxation import dsmc
 from knudsweep.solver.relaxation import fast_spectral as fs
 from knudsweep.solver.relaxation.bkw import BKW_FIRST_TIME
 from knudsweep.solver.relaxation.cross_sections import MOLECULAR_MODELS, check_model, molecular_model
+from knudsweep.solver.relaxation.deterministic import HIST_BINS, HIST_LO, HIST_WIDTH
 from knudsweep.solver.relaxation.fitting import (
     KIND_E_FOLDING,
     KIND_EXPONENTIAL,
@@ -39,7 +40,6 @@ from knudsweep.solver.relaxation.fitting import (
     late_rate,
     nan_fit,
 )
-from knudsweep.solver.relaxation.deterministic import HIST_BINS, HIST_LO, HIST_WIDTH
 from knudsweep.solver.relaxation.h_function import equiprobable_edges, sampling_bias
 from knudsweep.solver.relaxation.initial_states import (
     InitialState,
@@ -49,7 +49,9 @@ from knudsweep.solver.relaxation.initial_states import (
 )
 from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
 
-METHODS = ("dsmc", "bgk", "s_model", "es_bgk", "fast_spectral")
+# the particle method, the model equations and the deterministic Boltzmann solution, named by the
+# one registry of kinetic models (knudsweep.solver.kinetic_models)
+METHODS = ("dsmc", *MODEL_NAMES, RELAXATION_BOLTZMANN)
 # Default time step per method (mean collision times).  DSMC 0.1 and model
 # equations 0.01: the values their verification tests use.  Fast spectral
 # (SSP-RK3, third order): 0.25, the default output interval; against 0.125 it

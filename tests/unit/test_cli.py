@@ -139,7 +139,7 @@ def test_solve_from_pressure_uses_the_gas(capsys):
     ("duct", ["--aspect-ratio", "2"], 1.0, "duct-A=2.0"),
 ])
 def test_solve_tube_and_duct_points(capsys, tmp_path, geometry, extra, alpha, expected):
-    from knudsweep.solver.duct import free_molecular_flow_rate
+    from knudsweep.solver.limits import free_molecular_flow_rate
     from knudsweep.solver.netcdf_io import read_result
 
     out = tmp_path / "p.nc"
@@ -260,3 +260,25 @@ def test_numba_cache_is_one_place_whatever_the_folder(tmp_path, monkeypatch):
     assert numba_cache_dir() == REPO / ".numba_cache"  # a source checkout: the repository's
     monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path / "mine"))
     assert numba_cache_dir() == tmp_path / "mine"
+
+
+@pytest.mark.parametrize(("argv", "section"), [
+    (["--geometry", "duct", "--aspect-ratio", "2", "--problem", "thermal_creep", "--delta", "1", "--alpha", "0.9",
+      "--n-velocity", "8", "--tol", "1e-7"],
+     {"tube_duct": {"geometries": [{"shape": "duct", "aspect_ratio": 2.0}], "problems": ["thermal_creep"],
+                    "models": ["bgk"], "walls": [{"alpha": 0.9}], "delta": [1.0],
+                    "resolution": {"n_velocity": 8, "tol": 1e-7}}}),
+    (["--model", "s_model", "--delta", "0.5", "--alpha", "0.8", "--alpha-upper", "0.6", "--n-space", "20"],
+     {"plane_channel": {"problems": ["poiseuille"], "models": ["s_model"], "delta": [0.5],
+                        "walls": [{"alpha": 0.8, "upper": {"alpha": 0.6}}], "resolution": {"n_space": 20}}}),
+])
+def test_solve_builds_the_point_a_study_would(argv, section):
+    # the CLI builds a point's values through the family's grid code: the same values as a study's point
+    from knudsweep.cli import _solve_values, build_parser
+    from knudsweep.config import validate_study
+    from knudsweep.families import get_family
+
+    family, values = _solve_values(build_parser().parse_args(["solve", *argv]))
+    study = validate_study({"study": "x", **section})
+    (point,) = get_family(family).points(study[family])
+    assert values == point.values

@@ -155,7 +155,8 @@ def test_every_key_has_description_unit_range_and_default():
             problems.append(f"{path}: numeric without range")
         if "string" in types and not ({"enum", "pattern", "maxLength"} & set(sub)):
             problems.append(f"{path}: string without allowed values")
-        if types == ["object"] and sub.get("additionalProperties") is not False:
+        # $defs.wall_law is the shared key set of wall and plate_wall, which close it (unevaluatedProperties)
+        if types == ["object"] and sub.get("additionalProperties") is not False and path != "$defs.wall_law":
             problems.append(f"{path}: object without additionalProperties: false")
 
     _walk(schema, "", schema.get("required", []), visit)
@@ -165,7 +166,35 @@ def test_every_key_has_description_unit_range_and_default():
         for branch in sub.get("anyOf", []):
             _walk(branch, f"$defs.{name}", branch.get("required", []), visit)
     assert schema["additionalProperties"] is False
+    assert all(schema["$defs"][name]["unevaluatedProperties"] is False for name in ("wall", "plate_wall"))
     assert problems == []
+
+
+def test_model_enums_come_from_the_kinetic_model_registry():
+    from knudsweep.solver import kinetic_models as km
+    from knudsweep.solver.relaxation.solve import METHODS
+
+    raw = yaml.safe_load(SCHEMA_FILE.read_text())
+    assert all("enum" not in raw["$defs"][name] for name in ("channel_model", "model_equation", "relaxation_method"))
+    defs = load_schema()["$defs"]
+    assert defs["model_equation"]["enum"] == list(km.MODEL_NAMES)
+    assert defs["channel_model"]["enum"] == list(km.MODEL_NAMES) + list(km.BOLTZMANN_MODELS)
+    assert defs["relaxation_method"]["enum"] == list(METHODS)
+
+
+def test_repeated_blocks_are_defs_with_clear_messages():
+    # walls, iteration and the accuracy target are written once ($defs) and still give one-line messages
+    raw = yaml.safe_load(SCHEMA_FILE.read_text())
+    for fam in ("plane_channel", "tube_duct"):
+        assert raw["properties"][fam]["properties"]["iteration"]["$ref"] == "#/$defs/iteration"
+        assert raw["properties"][fam]["properties"]["resolution"]["properties"]["accuracy"]["$ref"] == "#/$defs/accuracy"
+    msg = error_of(tiny(walls=[{"alpha": 0.9, "upper": {"alhpa": 0.8}}]))
+    assert msg.startswith("plane_channel.walls[0].upper.alhpa: unknown key") and "alpha_t" in msg and "upper" not in msg[30:]
+    msg = error_of(tiny(iteration={"max_iter": 0}))
+    assert msg.startswith("plane_channel.iteration.max_iter: got 0") and "[1, 1e+08]" in msg
+    study = validate_study(tiny(walls=[{"alpha": 0.9, "upper": {"alpha": 0.8}}]))
+    assert study["plane_channel"]["walls"][0]["upper"] == {"alpha": 0.8, "model": "maxwell"}
+    assert study["plane_channel"]["iteration"] == {"max_iter": None, "accelerate": True, "retry_max_iter_factor": 4}
 
 
 def test_schema_is_draft_2020_12_and_gas_enum_comes_from_gas_table():

@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 
 from knudsweep.families.plane_channel import FAMILY, MODELS
-from knudsweep.families.plane_channel_report import model_error_pairs, model_error_ratio
+from knudsweep.families.plane_channel.report import model_error_pairs, model_error_ratio
 from knudsweep.gather import gather_family
 from knudsweep.point_files import valid_records
 from knudsweep.tables import write_tables
@@ -33,10 +33,15 @@ WALL = "maxwell-alpha=0.8"
 
 
 def test_model_names_agree_with_the_solver():
+    from knudsweep.solver import kinetic_models
+
     assert set(BOLTZMANN_MODELS) <= set(MODELS)
+    # one registry of names: the family, the solver's dispatch and the schema read knudsweep.solver.kinetic_models
+    assert set(BOLTZMANN_MODELS) == set(kinetic_models.BOLTZMANN_MODELS)
+    assert MODELS == kinetic_models.MODEL_NAMES + tuple(kinetic_models.BOLTZMANN_MODELS)
     from knudsweep.config import load_schema
 
-    enum = load_schema()["properties"]["plane_channel"]["properties"]["models"]["items"]["enum"]
+    enum = load_schema()["$defs"]["channel_model"]["enum"]  # the items of plane_channel.models
     assert set(enum) == set(MODELS)
 
 
@@ -138,8 +143,6 @@ def test_model_error_table(gathered, tmp_path):
 def test_model_error_figure_and_captions(gathered):
     import matplotlib.pyplot as plt
 
-    from knudsweep.families.plane_channel_report import figure_captions
-
     ds = gathered
     figs = FAMILY.figures(ds, SECTION, {"width": 5, "height": 3.5})
     assert sorted(figs) == sorted(FAMILY.figure_names(SECTION)) and "plane_channel_model_error_vs_delta" in figs
@@ -151,7 +154,8 @@ def test_model_error_figure_and_captions(gathered):
     bgk = ds["G_P"].sel(problem="poiseuille", model="bgk", wall="maxwell-alpha=1.0").values
     marker_lines = [ln for ln in axes[0].lines if ln.get_linestyle() == "None" and len(ln.get_xdata()) == 3]
     assert np.allclose(marker_lines[0].get_ydata(), bgk / ref, rtol=1e-14)
-    captions = figure_captions(ds, SECTION)
+    captions = FAMILY.figure_captions(ds, SECTION)
+    assert list(captions) == FAMILY.figure_names(SECTION)  # one caption per figure, registered beside it
     assert "linearized Boltzmann" in captions["plane_channel_model_error_vs_delta"]
     for f in figs.values():
         plt.close(f)
@@ -198,6 +202,6 @@ def test_cli_solves_a_boltzmann_point(capsys):
     code = main(["solve", "--model", "boltzmann_hard_sphere", "--problem", "thermal_creep", "--delta", "1",
                  "--n-space", "16", "--n-velocity", "4", "--json"])
     out = json.loads(capsys.readouterr().out)
-    assert code == 0 and out["status"] == "converged" and out["parameters"]["model"] == "boltzmann_hard_sphere"
+    assert code == 0 and out["status"] == "converged" and out["parameters"]["kinetic_model"] == "boltzmann_hard_sphere"
     direct = solve_plane_channel_boltzmann("thermal_creep", delta=1.0, n_space=16, n_velocity=4)
     assert out["coefficients"]["G_T"] == direct.coefficient("G_T")

@@ -18,7 +18,7 @@ import xarray as xr
 from knudsweep import gather as gather_mod
 from knudsweep.config import validate_study
 from knudsweep.families import get_family
-from knudsweep.families.plane_channel_report import SIGMA_P_DIFFUSE, slip_gp
+from knudsweep.families.plane_channel.report import SIGMA_P_DIFFUSE, slip_gp
 from knudsweep.figures import save_figure
 from knudsweep.gather import gather_study, open_sweep
 from knudsweep.plan import StudyPlan
@@ -283,3 +283,28 @@ def test_figures_are_written_and_byte_reproducible(sweep, tmp_path):
     again = ["plane_channel_G_P_vs_delta", "plane_channel_convergence_poiseuille"]
     second = draw("b", only=again)
     assert second == {k: v for k, v in first.items() if k.rsplit(".", 1)[0] in again}
+
+
+@pytest.mark.parametrize("family", ["plane_channel", "tube_duct", "relaxation"])
+def test_products_are_registered_by_name(family):
+    # each family's report module registers every table and figure builder with the rule naming its
+    # outputs, so the names Snakemake plans are the names the builders return (and captions follow figures)
+    from knudsweep.families import Products
+
+    report = get_family(family).report
+    assert isinstance(report.TABLES, Products) and isinstance(report.FIGURES, Products)
+    assert all(caption is not None for _, _, caption in report.FIGURES._entries)
+
+
+def test_a_builder_that_disagrees_with_its_names_is_refused():
+    from knudsweep.families import Products
+
+    products = Products("table")
+
+    @products.register(lambda section: ["a", "b"])
+    def build(ds, section):
+        return {"a": 1}
+
+    assert products.names({}) == ["a", "b"]
+    with pytest.raises(RuntimeError, match=r"table build: built \['a'\], announced \['a', 'b'\]"):
+        products.build(None, {})

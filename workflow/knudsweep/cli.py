@@ -19,16 +19,16 @@ from __future__ import annotations
 
 import argparse
 import json
-import os
 import math
+import os
 import subprocess
 import sys
 from pathlib import Path
 
 EXIT_USAGE = 2
-# Same bounds as config/schema.yaml (axis values at most 1e6).
-DELTA_MAX = 1.0e6
-TEMPERATURE_MAX = 10000.0  # K, the study schema's bound
+# The command line keeps no ranges of its own: option limits are the study schema's
+# (knudsweep.config.schema_node) or the solvers' (delta ranges, aspect ratio), and a point's
+# values are built by its family's grid code, so `knudsweep solve` solves the point a study would.
 
 
 class CliError(ValueError):
@@ -61,15 +61,6 @@ def _positive(option: str, value):
         return None
     if not (math.isfinite(value) and value > 0):
         raise CliError(f"{option}: got {value:g}; allowed range is (0, inf)")
-    return value
-
-
-def _in_range(option: str, value, low, high, high_open=False):
-    if value is None:
-        return None
-    ok = math.isfinite(value) and low < value and (value < high if high_open else value <= high)
-    if not ok:
-        raise CliError(f"{option}: got {value:g}; allowed range is ({low:g}, {high:g}{')' if high_open else ']'}")
     return value
 
 
@@ -120,6 +111,7 @@ def _delta(args, length_name: str, delta_min: float, delta_max: float) -> float:
 
     The solver accepts delta in [delta_min, delta_max] (delta_min = 0: free-molecular allowed).
     """
+    from knudsweep.config import schema_node
     from knudsweep.solver import gas as gasmod
 
     span = f"[{delta_min:g}, {delta_max:g}]"
@@ -134,7 +126,7 @@ def _delta(args, length_name: str, delta_min: float, delta_max: float) -> float:
                            f"{']' if math.isfinite(kn_high) else ')'} (delta in {span})")
     _positive("--pressure", args.pressure)
     _positive("--length", args.length)
-    _in_range("--temperature", args.temperature, 0, TEMPERATURE_MAX)
+    _schema_number("--temperature", args.temperature, schema_node("plane_channel", "conditions", "temperature"))
     given = [name for name in ("delta", "kn", "pressure") if getattr(args, name) is not None]
     if len(given) != 1:
         raise CliError("--delta: give exactly one of --delta, --kn, --pressure")
@@ -155,11 +147,14 @@ def _delta(args, length_name: str, delta_min: float, delta_max: float) -> float:
 
 def _resolution_limits(geometry: str) -> dict[str, tuple]:
     """(low, high) of --n-space, --n-velocity and --tol: the study schema's, which match the solvers'."""
-    from knudsweep.config import load_schema
+    from knudsweep.config import schema_node
 
     section = "plane_channel" if geometry == "plane_channel" else "tube_duct"
-    res = load_schema()["properties"][section]["properties"]["resolution"]["properties"]
-    return {key: (res[key]["minimum"], res[key]["maximum"]) for key in ("n_space", "n_velocity", "tol")}
+    out = {}
+    for key in ("n_space", "n_velocity", "tol"):
+        spec = schema_node(section, "resolution", key)
+        out[key] = (spec["minimum"], spec["maximum"])
+    return out
 
 
 def _check_sizes(args) -> None:
@@ -178,12 +173,11 @@ def _check_sizes(args) -> None:
 
 def _wall_limits() -> dict[str, tuple[float, float, bool]]:
     """(low, high, high_open) of alpha, alpha_t, alpha_n: the study schema's (low is inclusive)."""
-    from knudsweep.config import load_schema
+    from knudsweep.config import schema_node
 
-    props = load_schema()["$defs"]["wall"]["properties"]
     out = {}
     for key in ("alpha", "alpha_t", "alpha_n"):
-        spec = props[key]
+        spec = schema_node("tube_duct", "walls", "items", key)
         high_open = "exclusiveMaximum" in spec
         out[key] = (spec["minimum"], spec["exclusiveMaximum"] if high_open else spec["maximum"], high_open)
     return out
@@ -216,9 +210,10 @@ def _wall_values(args, alpha, alpha_t, alpha_n, suffix) -> dict:
 
 
 def _tube_duct_values(args) -> dict:
-    from knudsweep.families.tube_duct import wall_label
-    from knudsweep.identity import canonical, format_plain
-    from knudsweep.solver.duct import MAX_ASPECT_RATIO, MAX_DELTA
+    """Values of one tube or duct point, built by the family's grid (knudsweep.families.tube_duct.grid)."""
+    from knudsweep.config import schema_node
+    from knudsweep.families.tube_duct import grid
+    from knudsweep.solver.duct import MAX_DELTA
 
     length_name = "tube radius" if args.geometry == "tube" else "duct height (the smaller side)"
     delta = _delta(args, length_name, 0.0, MAX_DELTA)
@@ -228,32 +223,25 @@ def _tube_duct_values(args) -> dict:
     if args.geometry == "tube":
         if args.aspect_ratio is not None:
             raise CliError("--aspect-ratio: only for --geometry duct")
-        label, aspect = "tube", 1.0
+        aspect = 1.0
     else:
         aspect = 1.0 if args.aspect_ratio is None else args.aspect_ratio
-        if not (math.isfinite(aspect) and 1.0 <= aspect <= MAX_ASPECT_RATIO):
-            raise CliError(f"--aspect-ratio: got {aspect:g}; allowed range is [1, {MAX_ASPECT_RATIO:g}]")
-        aspect = canonical(aspect)
-        label = f"duct-A={format_plain(aspect)}"
+        _schema_number("--aspect-ratio", aspect, schema_node("tube_duct", "geometries", "items", "aspect_ratio"))
     _check_sizes(args)
     wall = _wall_values(args, args.alpha, args.alpha_t, args.alpha_n, "")
-    return {
-        "geometry": label, "shape": args.geometry, "aspect_ratio": aspect,
-        "problem": args.problem, "model": args.model, "delta": canonical(delta),
-        "wall": wall_label(wall), "wall_params": wall,
-        "n_space": args.n_space, "n_velocity": args.n_velocity, "tol": canonical(args.tol), "accuracy": None,
-    }
+    resolution = {"n_space": args.n_space, "n_velocity": args.n_velocity, "tol": args.tol, "accuracy": None}
+    return grid.point_values(grid.geometry_of(args.geometry, aspect), args.problem, args.model, delta, wall, resolution)
 
 
 def _plane_channel_values(args) -> dict:
-    from knudsweep.families.plane_channel import wall_label
-    from knudsweep.identity import canonical
+    """Values of one plane-channel point, built by the family's grid (knudsweep.families.plane_channel.grid)."""
+    from knudsweep.families.plane_channel import grid
 
     if args.aspect_ratio is not None:
         raise CliError("--aspect-ratio: only for --geometry duct")
-    from knudsweep.solver.plane_channel.driver import BOLTZMANN_MODELS, DELTA_RANGE
+    from knudsweep.solver.plane_channel.driver import DELTA_RANGE
 
-    if args.model in BOLTZMANN_MODELS:
+    if args.model in grid.BOLTZMANN_MODELS:
         from knudsweep.solver.plane_channel.boltzmann_driver import DELTA_RANGE
     delta = _delta(args, "plate gap", *DELTA_RANGE)
 
@@ -261,23 +249,14 @@ def _plane_channel_values(args) -> dict:
     has_upper = any(v is not None for v in (args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper))
     upper = _wall_values(args, args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper, "-upper") if has_upper else None
     _check_sizes(args)
-    if args.model in BOLTZMANN_MODELS and args.n_velocity is not None:
+    if args.model in grid.BOLTZMANN_MODELS and args.n_velocity is not None:
         from knudsweep.solver.plane_channel.boltzmann_driver import MAX_SPEED, MIN_SPEED
 
         if not MIN_SPEED <= args.n_velocity <= MAX_SPEED:
             raise CliError(f"--n-velocity: got {args.n_velocity}; with --model {args.model} it counts speed nodes, "
                            f"allowed range is [{MIN_SPEED}, {MAX_SPEED}]")
-    return {
-        "problem": args.problem,
-        "model": args.model,
-        "delta": canonical(delta),
-        "wall": wall_label(lower, upper),
-        "lower_wall": lower,
-        "upper_wall": upper,
-        "n_space": args.n_space,
-        "n_velocity": args.n_velocity,
-        "tol": canonical(args.tol),
-    }
+    resolution = {"n_space": args.n_space, "n_velocity": args.n_velocity, "tol": args.tol, "accuracy": None}
+    return grid.point_values(args.problem, args.model, delta, lower, upper, resolution)
 
 
 def _check_output(path: Path) -> None:
@@ -448,8 +427,8 @@ def cmd_solve(args) -> int:
 def cmd_status(args) -> int:
     from knudsweep.config import load_study
     from knudsweep.plan import StudyPlan
-    from knudsweep.status import clean_stray_temporaries, invalidate_products, requeue, study_status
     from knudsweep.solver import __version__
+    from knudsweep.status import clean_stray_temporaries, invalidate_products, requeue, study_status
 
     plan = StudyPlan(load_study(args.study))
     results = Path(args.directory) / "results"
@@ -547,7 +526,11 @@ def cmd_bench(args) -> int:
 
 
 def build_parser() -> argparse.ArgumentParser:
+    from knudsweep.config import schema_node
     from knudsweep.solver import __version__
+    from knudsweep.solver import kinetic_models as km
+    from knudsweep.solver.duct import MAX_DELTA as duct_max
+    from knudsweep.solver.plane_channel.driver import DELTA_RANGE as plane_delta
 
     parser = _Parser(prog="knudsweep", description="Parametric sweeps of rarefied-gas transport.",
                      epilog="`knudsweep <command> --help` describes a command.")
@@ -565,26 +548,32 @@ def build_parser() -> argparse.ArgumentParser:
                    help="flow (plane channel, tube or duct; default) or relaxation (space-homogeneous gas)")
     s.add_argument("--geometry", default="plane_channel", choices=["plane_channel", "tube", "duct"],
                    help="plane_channel, tube or duct")
-    s.add_argument("--aspect-ratio", type=float, help="duct width / height, [1, 50] (default 1)")
+    aspect = schema_node("tube_duct", "geometries", "items", "aspect_ratio")
+    s.add_argument("--aspect-ratio", type=float,
+                   help=f"duct width / height, [{aspect['minimum']:g}, {aspect['maximum']:g}] (default 1)")
     s.add_argument("--problem", default="poiseuille",
                    help="poiseuille, thermal_creep; plane channel also couette, heat_transfer")
-    s.add_argument("--model", default="bgk", help="bgk, s_model, es_bgk; plane channel also boltzmann_hard_sphere "
-                   "(linearized Boltzmann, poiseuille and thermal_creep, Maxwell walls)")
+    s.add_argument("--model", default="bgk", help=f"{', '.join(km.MODEL_NAMES)}; plane channel also "
+                   f"{', '.join(km.BOLTZMANN_MODELS)} (linearized Boltzmann, poiseuille and thermal_creep, Maxwell walls)")
     s.add_argument("--gas", default="Ar", help="gas name from config/gases.yaml (used with --pressure)")
-    s.add_argument("--delta", type=float, help="rarefaction parameter: plane channel [1e-4, 1e4]; tube, duct "
-                   "[0, 1000], 0 = free-molecular limit (a study's log-spaced axis needs delta > 0)")
+    s.add_argument("--delta", type=float, help=f"rarefaction parameter: plane channel [{plane_delta[0]:g}, "
+                   f"{plane_delta[1]:g}]; tube, duct [0, {duct_max:g}], 0 = free-molecular limit (a study's "
+                   "log-spaced axis needs delta > 0)")
     s.add_argument("--kn", type=float, help="Knudsen number, delta = sqrt(pi)/(2 Kn), within the delta range")
     s.add_argument("--pressure", type=float, help="pressure in Pa (needs --length, --temperature, --gas)")
     s.add_argument("--length", type=float, help="plate gap, tube radius or duct height in m (with --pressure)")
-    s.add_argument("--temperature", type=float, default=300.0, help="temperature in K (with --pressure), (0, 10000]")
+    temp = schema_node("plane_channel", "conditions", "temperature")
+    s.add_argument("--temperature", type=float, default=300.0,
+                   help=f"temperature in K (with --pressure), (0, {temp['maximum']:g}]")
     s.add_argument("--wall-model", default="maxwell", choices=["maxwell", "cercignani_lampis"],
                    help="gas-surface interaction law")
-    s.add_argument("--alpha", type=float, help="Maxwell accommodation in [0.01, 1], default 1")
-    s.add_argument("--alpha-upper", type=float, help="Maxwell accommodation of the upper plate, [0.01, 1]")
-    s.add_argument("--alpha-t", type=float, help="Cercignani-Lampis tangential accommodation in [0.01, 2)")
-    s.add_argument("--alpha-n", type=float, help="Cercignani-Lampis normal-energy accommodation in [0.01, 1]")
-    s.add_argument("--alpha-t-upper", type=float, help="upper plate alpha_t, [0.01, 2)")
-    s.add_argument("--alpha-n-upper", type=float, help="upper plate alpha_n, [0.01, 1]")
+    span = {k: f"[{lo:g}, {hi:g}{')' if hi_open else ']'}" for k, (lo, hi, hi_open) in _wall_limits().items()}
+    s.add_argument("--alpha", type=float, help=f"Maxwell accommodation in {span['alpha']}, default 1")
+    s.add_argument("--alpha-upper", type=float, help=f"Maxwell accommodation of the upper plate, {span['alpha']}")
+    s.add_argument("--alpha-t", type=float, help=f"Cercignani-Lampis tangential accommodation in {span['alpha_t']}")
+    s.add_argument("--alpha-n", type=float, help=f"Cercignani-Lampis normal-energy accommodation in {span['alpha_n']}")
+    s.add_argument("--alpha-t-upper", type=float, help=f"upper plate alpha_t, {span['alpha_t']}")
+    s.add_argument("--alpha-n-upper", type=float, help=f"upper plate alpha_n, {span['alpha_n']}")
     s.add_argument("--n-space", type=int, help="cells across the gap / radial or half-height nodes (default: solver's)")
     s.add_argument("--n-velocity", type=int, help="velocity nodes (default: solver's)")
     s.add_argument("--max-iter", type=int, help="iteration limit (default: solver's)")
@@ -598,7 +587,7 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--json", action="store_true", help="print coefficients, iterations and status as JSON")
     r = s.add_argument_group("relaxation (with --family relaxation; --gas, --pressure [Pa, default 100], "
                              "--temperature, --n-velocity, --threads, --output, --json apply too)")
-    r.add_argument("--method", help="dsmc, bgk, s_model, es_bgk or fast_spectral (default dsmc)")
+    r.add_argument("--method", help=f"dsmc, {', '.join(km.MODEL_NAMES)} or {km.RELAXATION_BOLTZMANN} (default dsmc)")
     r.add_argument("--initial-state", help="equilibrium, anisotropic, two_beams or bkw (default anisotropic)")
     r.add_argument("--molecular-model", help="vhs, vss, hard_sphere or maxwell (default vhs)")
     r.add_argument("--n-particles", type=int, help="particles per replica (dsmc), [100, 1e8], default 20000")

@@ -52,11 +52,47 @@ class StudyConfigError(ValueError):
 
 @lru_cache(maxsize=1)
 def load_schema() -> dict[str, Any]:
-    """The study schema with the gas-name enum filled from ``known_gases()``."""
+    """The study schema with its name enums filled in: gas names from ``known_gases()``, kinetic-model names
+    from the one registry, knudsweep.solver.kinetic_models."""
+    from knudsweep.solver import kinetic_models as km
+
     with open(SCHEMA_FILE, encoding="utf-8") as fh:
         schema = yaml.safe_load(fh)
-    schema["$defs"]["gas_name"]["enum"] = list(known_gases())
+    defs = schema["$defs"]
+    defs["gas_name"]["enum"] = list(known_gases())
+    defs["model_equation"]["enum"] = list(km.MODEL_NAMES)
+    defs["channel_model"]["enum"] = [*km.MODEL_NAMES, *km.BOLTZMANN_MODELS]
+    defs["relaxation_method"]["enum"] = ["dsmc", *km.MODEL_NAMES, km.RELAXATION_BOLTZMANN]
     return schema
+
+
+def schema_node(*path: str) -> dict[str, Any]:
+    """The schema entry at ``path`` (keys below ``properties``), following ``$ref`` into ``$defs``:
+    ``schema_node("tube_duct", "walls", "items", "alpha")``.  The CLI reads its limits here."""
+    schema = load_schema()
+    node = schema
+    for key in path:
+        while "$ref" in node and key not in node.get("properties", {}) and key != "items":
+            node = _resolve(schema, node["$ref"])
+        node = node["items"] if key == "items" else node["properties"][key]
+    while "$ref" in node and not {"minimum", "maximum", "exclusiveMinimum", "exclusiveMaximum", "enum"} & set(node):
+        node = {**_resolve(schema, node["$ref"]), **{k: v for k, v in node.items() if k != "$ref"}}
+    return node
+
+
+def _resolve(schema: dict[str, Any], ref: str) -> dict[str, Any]:
+    node = schema
+    for part in ref.removeprefix("#/").split("/"):
+        node = node[part]
+    return node
+
+
+def _schema_properties(schema: dict[str, Any], sub: dict[str, Any]) -> set[str]:
+    """Keys a (sub)schema declares, its ``$ref`` target's included."""
+    keys = set(sub.get("properties", {}))
+    if "$ref" in sub:
+        keys |= _schema_properties(schema, _resolve(schema, sub["$ref"]))
+    return keys
 
 
 def _fill_defaults(validator_class):
@@ -180,8 +216,8 @@ def _allowed(schema: dict[str, Any]) -> str:
 def _error_message(error: jsonschema.ValidationError) -> str:
     path = list(error.absolute_path)
     kind = error.validator
-    if kind == "additionalProperties":
-        allowed = sorted(error.schema.get("properties", {}))
+    if kind in ("additionalProperties", "unevaluatedProperties"):
+        allowed = sorted(_schema_properties(load_schema(), error.schema))
         extra = sorted(set(error.instance) - set(allowed))
         return (
             f"{key_path(path + [extra[0]])}: unknown key; "

@@ -6,9 +6,9 @@
   text): what was swept, how many points converged, failed or are missing (per
   family), the failed points with their reasons, the code version;
 * ``captions/<figure or table>.rst``: one caption per figure and table, saying
-  what is shown, the model, the walls and the uncertainty (written by the
-  family's ``figure_captions(ds, section)``, found in the family's module or
-  its ``<module>_report`` companion; tables get their title and notes);
+  what is shown, the model, the walls and the uncertainty (the family's
+  ``figure_captions(ds, section)``, registered beside each figure builder in
+  ``knudsweep.families.<family>.report``; tables get their title and notes);
 * ``tables/<table>.html``: each table as a page the report can show (the CSV
   beside it is the data).
 
@@ -18,7 +18,6 @@ Everything here reads ``sweep.nc`` only; nothing calls a solver.
 from __future__ import annotations
 
 import html
-import importlib
 import os
 import re
 from pathlib import Path
@@ -226,20 +225,6 @@ def study_page_text(plan, sweep: str) -> str:
     return _paragraphs(parts)
 
 
-def _caption_functions(family: str):
-    from knudsweep.families import REGISTRY
-
-    module = REGISTRY[family]
-    for name in (module + "_report", module):
-        try:
-            mod = importlib.import_module(name)
-        except ImportError:
-            continue
-        if hasattr(mod, "figure_captions"):
-            return mod.figure_captions
-    return None
-
-
 def table_caption(table, name: str) -> str:
     notes = "\n".join(f"* {rst_escape(n)}" for n in table.notes)
     return _paragraphs([f"**{rst_escape(table.title)}** (tables/{name}.csv; the Markdown file beside it holds "
@@ -261,12 +246,9 @@ def table_html(table, name: str) -> str:
 
 
 def _write(path: str | os.PathLike, text: str) -> None:
-    from knudsweep.solver.netcdf_io import atomic_output
+    from knudsweep.solver.atomic import atomic_write_text
 
-    path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    with atomic_output(path) as tmp:
-        Path(tmp).write_text(text, encoding="utf-8")
+    atomic_write_text(path, text)
 
 
 def write_report_pages(study: dict[str, Any], sweep: str, root: str | os.PathLike = ".") -> list[Path]:
@@ -284,10 +266,7 @@ def write_report_pages(study: dict[str, Any], sweep: str, root: str | os.PathLik
         ds = open_sweep(sweep, fam)
         section = plan.study[fam]
         family = get_family(fam)
-        captions = {}
-        make = _caption_functions(fam)
-        if make is not None:
-            captions = make(ds, section)
+        captions = family.figure_captions(ds, section)
         for name in family.figure_names(section):
             text = captions.get(name) or f"{category(fam)}: {name.replace('_', ' ')}."
             _write(root / caption_file(plan, name), _paragraphs([text, status_sentence(ds)])

@@ -4,15 +4,37 @@ A *family* is one kind of problem with its own solver and its own grid of
 parameters (the plane channel; later a tube/duct family and a homogeneous
 relaxation family).  The core (config loading, Snakemake rules, the solve job,
 gather, tables, figures, status, CLI) never names a family: it asks this
-registry.  Adding a family takes three steps and no change to the core:
+registry.  Every family has the same shape, a subpackage
+``knudsweep/families/<name>/``:
 
-1. write ``knudsweep/families/<name>.py`` with a subclass of :class:`Family`
-   and a module-level instance called ``FAMILY``;
+``__init__.py``
+    the :class:`Family` subclass and its instance ``FAMILY`` (solve dispatch,
+    numba warm-up, wiring of the two modules below);
+``grid.py``
+    the study section: its checks, the point values, identity (paths), gather
+    dimensions, cost and memory of a point;
+``report.py``
+    tables, figures and figure captions, each builder registered by name in
+    the module's ``TABLES`` and ``FIGURES`` (:class:`Products`), so the names
+    Snakemake plans and the products written cannot disagree.
+
+Adding a family takes three steps and no change to the core:
+
+1. write that subpackage (copy ``families/tube_duct/``) and add
+   ``knudsweep.families.<name>`` to ``packages`` in pyproject.toml;
 2. add one line to :data:`REGISTRY` below (``"<name>": "knudsweep.families.<name>"``);
 3. describe its study section under the top-level key ``<name>`` in
    ``config/schema.yaml`` (description/unit/range/default on every key,
    ``additionalProperties: false``); tests/unit/test_config.py checks that every
    registered family has a schema section.
+
+Words used the same way throughout the study layer: a *family* is a study
+section (``plane_channel``, ``tube_duct``, ``relaxation``; the solvers'
+``SolverResult.family`` names the solver instead: ``tube`` or ``duct``); a
+*geometry* is one cross-section of the tube_duct family (``tube``,
+``duct-A=4.0``: its *shape* and aspect ratio); a *model* is a kinetic model
+(knudsweep.solver.kinetic_models); a *wall* is one wall setting (its label),
+its *wall law* the accommodation parameters.
 
 The protocol (what the core calls; ``section`` is the family's validated study
 section with defaults filled in, ``study`` the whole validated study):
@@ -54,11 +76,16 @@ section with defaults filled in, ``study`` the whole validated study):
     matplotlib figures written to ``results/<study>/figures/<name>.<fmt>``.
     Names must follow from the section alone (Snakemake needs them before
     anything is computed); a figure without data shows a "no data" note.
+``figure_captions(ds, section) -> dict[str, str]``
+    Report caption (reStructuredText) of every figure.
+    The base class answers these five from the family's ``report`` module
+    (its ``TABLES`` and ``FIGURES`` registries).
 """
 
 from __future__ import annotations
 
 import importlib
+from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -93,10 +120,55 @@ class Table:
     notes: list[str] = field(default_factory=list)
 
 
+class Products:
+    """Named products of a family (tables or figures), each builder registered with the rule naming its outputs.
+
+    ``names(section)`` lists what the builders make for a section and ``build`` calls exactly those builders,
+    checking that each returns the names it announced; figure builders carry their captions the same way.
+    """
+
+    def __init__(self, kind: str):
+        self.kind = kind
+        self._entries: list[tuple[Callable, Callable, Callable | None]] = []
+
+    def register(self, names: Callable[[dict], list[str]], caption: Callable | None = None):
+        """Decorator: ``builder(ds, section, *args) -> {name: product}`` for the names ``names(section)``;
+        ``caption(ds, section) -> {name: text}`` for the same names."""
+        def add(builder):
+            self._entries.append((names, builder, caption))
+            return builder
+        return add
+
+    def names(self, section: dict[str, Any]) -> list[str]:
+        return [n for names, _, _ in self._entries for n in names(section)]
+
+    def _made(self, names: list[str], made: dict[str, Any], what: str) -> dict[str, Any]:
+        if list(made) != names:
+            raise RuntimeError(f"{self.kind} {what}: built {list(made)}, announced {names}")
+        return made
+
+    def build(self, ds, section: dict[str, Any], *args) -> dict[str, Any]:
+        out: dict[str, Any] = {}
+        for names, builder, _ in self._entries:
+            want = names(section)
+            if want:
+                out.update(self._made(want, builder(ds, section, *args), builder.__name__))
+        return out
+
+    def captions(self, ds, section: dict[str, Any]) -> dict[str, str]:
+        out: dict[str, str] = {}
+        for names, _, caption in self._entries:
+            want = names(section)
+            if want and caption is not None:
+                out.update(self._made(want, caption(ds, section), caption.__name__))
+        return out
+
+
 class Family:
     """Base class of a solver family; see the module docstring for the protocol."""
 
     name: str = ""
+    report: Any = None  # the family's report module (``TABLES``, ``FIGURES``)
 
     def check_section(self, section: dict[str, Any]) -> None:
         return None
@@ -124,16 +196,19 @@ class Family:
         return {}
 
     def table_names(self, section: dict[str, Any]) -> list[str]:
-        return []
+        return self.report.TABLES.names(section) if self.report else []
 
     def tables(self, ds, section: dict[str, Any]) -> dict[str, Table]:
-        return {}
+        return self.report.TABLES.build(ds, section) if self.report else {}
 
     def figure_names(self, section: dict[str, Any]) -> list[str]:
-        return []
+        return self.report.FIGURES.names(section) if self.report else []
 
     def figures(self, ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
-        return {}
+        return self.report.FIGURES.build(ds, section, settings) if self.report else {}
+
+    def figure_captions(self, ds, section: dict[str, Any]) -> dict[str, str]:
+        return self.report.FIGURES.captions(ds, section) if self.report else {}
 
 
 def check_axis_choice(section: dict[str, Any]) -> str:

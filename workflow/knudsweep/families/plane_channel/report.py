@@ -1,4 +1,6 @@
-"""Tables and figures of the plane-channel family (read from the gathered sweep).
+"""Tables, figures and captions of the plane-channel family (read from the gathered sweep).
+
+Every builder is registered by name in :data:`TABLES` or :data:`FIGURES` (with its caption).
 
 Reference curves (all in the normalisation of Sharipov & Seleznev, J. Phys.
 Chem. Ref. Data 27 (1998) 657: M' = (a p / v0) [G_P (a/p)(-dp/dx) + G_T (a/T) dT/dx]):
@@ -40,12 +42,21 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from knudsweep.families import Table
-from knudsweep.families.plane_channel import (BOLTZMANN_MODELS, BOLTZMANN_PROBLEMS, COEFFICIENTS, MAIN_COEFFICIENT,
-                                              MODEL_EQUATIONS, wall_settings)
+from knudsweep.families import Products, Table
+from knudsweep.families.plane_channel.grid import (
+    BOLTZMANN_MODELS,
+    BOLTZMANN_PROBLEMS,
+    MAIN_COEFFICIENT,
+    MODEL_EQUATIONS,
+    wall_settings,
+)
 
-SIGMA_P_DIFFUSE = 1.0162  # BGK viscous-slip coefficient, diffuse walls (from memory, unconfirmed)
-SIGMA_T_DIFFUSE_BGK = 0.7663  # BGK thermal-slip coefficient, diffuse walls (from memory, unconfirmed)
+TABLES = Products("table")
+FIGURES = Products("figure")
+
+from knudsweep.solver.limits import SIGMA_P_BGK as SIGMA_P_DIFFUSE  # noqa: E402  (one home: knudsweep.solver.limits)
+from knudsweep.solver.limits import SIGMA_T_BGK as SIGMA_T_DIFFUSE_BGK  # noqa: E402
+
 SQRT_PI = math.sqrt(math.pi)
 FM_MATCH_MAX_DELTA = 0.1  # free-molecular form matched only if the smallest delta is this small
 FM_SHOW_MAX_DELTA = 1.0  # ... and used only up to this delta (common practice, no source)
@@ -120,7 +131,7 @@ def _is_diffuse(lower: dict, upper: dict | None) -> bool:
     return one(lower) and (upper is None or one(upper))
 
 
-def _walls(section):
+def walls_by_label(section):
     return {label: (lower, upper) for label, lower, upper in wall_settings(section)}
 
 
@@ -144,31 +155,33 @@ def free_molecular_form(delta: np.ndarray, g: np.ndarray) -> np.ndarray:
 
 
 # ---------------------------------------------------------------- tables
-def table_names(section: dict[str, Any]) -> list[str]:
-    names = [f"plane_channel_{p}" for p in section["problems"]]
-    if model_error_pairs(section)[0] is not None:
-        names.append("plane_channel_model_error")
-    return names
+def problem_table_names(section: dict[str, Any]) -> list[str]:
+    return [f"plane_channel_{p}" for p in section["problems"]]
 
 
-def _model_error_table(ds, section: dict[str, Any]) -> Table:
+def model_error_names(section: dict[str, Any]) -> list[str]:
+    """``[<prefix>model_error<suffix>]`` if the study holds a Boltzmann model and a model equation."""
+    return ["plane_channel_model_error"] if model_error_pairs(section)[0] is not None else []
+
+
+def model_error_table(ds, section: dict[str, Any]) -> Table:
     """G_P, G_T of each model equation over the linearized Boltzmann value, per wall and delta."""
     lbe, eqs, keys = model_error_pairs(section)
     delta = ds["delta"].values.astype(float)
     rows = []
-    for label in _walls(section):
+    for label in walls_by_label(section):
         cols: dict[str, np.ndarray] = {}
         for key in keys:
             problem = "poiseuille" if key == "G_P" else "thermal_creep"
             sel = dict(problem=problem, wall=label)
-            g_ref = _values(ds, key, model=lbe, **sel)
-            e_ref = _values(ds, f"{key}_error_estimate", model=lbe, **sel)
+            g_ref = values_of(ds, key, model=lbe, **sel)
+            e_ref = values_of(ds, f"{key}_error_estimate", model=lbe, **sel)
             cols[f"{key} {model_text(lbe)} [1]"] = g_ref
             cols[f"{key} {model_text(lbe)} error estimate [1]"] = e_ref
             cols[f"{key} {model_text(lbe)} status"] = ds["status"].sel(model=lbe, **sel).values
             for m in eqs:
-                ratio, err = model_error_ratio(_values(ds, key, model=m, **sel),
-                                               _values(ds, f"{key}_error_estimate", model=m, **sel), g_ref, e_ref)
+                ratio, err = model_error_ratio(values_of(ds, key, model=m, **sel),
+                                               values_of(ds, f"{key}_error_estimate", model=m, **sel), g_ref, e_ref)
                 cols[f"{key} {model_text(m)} / Boltzmann [1]"] = ratio
                 cols[f"{key} {model_text(m)} / Boltzmann error estimate [1]"] = err
         for j, d in enumerate(delta):
@@ -207,8 +220,10 @@ def _gas_columns(gas: str, delta: float, section: dict[str, Any], g: float, kind
     return cols
 
 
-def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
-    walls = _walls(section)
+@TABLES.register(problem_table_names)
+def problem_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
+    """One table per problem: the main coefficient, its ratios to the references, SI units per gas."""
+    walls = walls_by_label(section)
     delta = ds["delta"].values.astype(float)
     tables = {}
     for problem in section["problems"]:
@@ -290,9 +305,12 @@ def build_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
             notes.append(f"{key} * sqrt(pi): ratio to the free-molecular value 1/sqrt(pi) for diffuse walls "
                          "(derived from the free-molecular wall fluxes), if the solver uses that normalisation.")
         tables[f"plane_channel_{problem}"] = Table(frame, f"Plane channel, {problem.replace('_', ' ')}", notes)
-    if model_error_pairs(section)[0] is not None:
-        tables["plane_channel_model_error"] = _model_error_table(ds, section)
     return tables
+
+
+@TABLES.register(model_error_names)
+def model_error_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
+    return {"plane_channel_model_error": model_error_table(ds, section)}
 
 
 # ---------------------------------------------------------------- figures
@@ -302,14 +320,20 @@ SLIP_MIN_DELTA = 10.0  # Kn = 0.089
 FREE_MOLECULAR_FIG_MAX_DELTA = 0.1  # Kn = 8.9
 
 
-def figure_names(section: dict[str, Any]) -> list[str]:
-    names = [f"plane_channel_{MAIN_COEFFICIENT[p]}_vs_delta" for p in section["problems"]]
-    if "poiseuille" in section["problems"]:
-        names.append("plane_channel_correction_vs_kn")
-    names += [f"plane_channel_convergence_{p}" for p in section["problems"]]
-    if model_error_pairs(section)[0] is not None:
-        names.append("plane_channel_model_error_vs_delta")
-    return names
+def coefficient_figure_names(section: dict[str, Any]) -> list[str]:
+    return [f"plane_channel_{MAIN_COEFFICIENT[p]}_vs_delta" for p in section["problems"]]
+
+
+def correction_figure_names(section: dict[str, Any]) -> list[str]:
+    return ["plane_channel_correction_vs_kn"] if "poiseuille" in section["problems"] else []
+
+
+def convergence_figure_names(section: dict[str, Any]) -> list[str]:
+    return [f"plane_channel_convergence_{p}" for p in section["problems"]]
+
+
+def model_error_figure_names(section: dict[str, Any]) -> list[str]:
+    return ["plane_channel_model_error_vs_delta"] if model_error_pairs(section)[0] is not None else []
 
 
 def _accommodation_factor(lower: dict, upper: dict | None) -> float:
@@ -329,14 +353,13 @@ def free_molecular_slope(lower: dict, upper: dict | None) -> float:
     return _accommodation_factor(lower, upper) / SQRT_PI
 
 
-def _values(ds, key, **sel) -> np.ndarray:
+def values_of(ds, key, **sel) -> np.ndarray:
     if key not in ds:
         return np.full(ds.sizes["delta"], np.nan)
     return ds[key].sel(**sel).values.astype(float)
 
 
 def _wall_entries(walls) -> list[tuple[int, str, dict, dict | None]]:
-    from knudsweep.plot_style import wall_text
 
     return [(i, label, lower, upper) for i, (label, (lower, upper)) in enumerate(walls.items())
             ] if walls else []
@@ -366,7 +389,7 @@ def _coefficient_figure(ds, section, settings, problem):
     from knudsweep.figures import new_figure
 
     key = MAIN_COEFFICIENT[problem]
-    walls = _walls(section)
+    walls = walls_by_label(section)
     models = list(section["models"])
     delta = ds["delta"].values.astype(float)
     two = len(models) > 1 and key in ("G_P", "G_T")
@@ -383,7 +406,7 @@ def _coefficient_figure(ds, section, settings, problem):
         first = None
         for model in models:
             sel = dict(problem=problem, model=model, wall=label)
-            g = _values(ds, key, **sel)
+            g = values_of(ds, key, **sel)
             n_failed += ps.mark_failed(ax, delta, ds["status"].sel(**sel).values, style)
             if ps.plot_series(ax, delta, g, {**style, **model_marker(model)}, logy=(key in ("G_P", "G_T"))):
                 drawn = True
@@ -430,7 +453,7 @@ def _coefficient_figure(ds, section, settings, problem):
     if drawn:
         if key in ("G_P", "G_T"):
             ax.set_yscale("log")
-            ps.data_ylim(ax, _values(ds, key, problem=problem), pad=1.4)
+            ps.data_ylim(ax, values_of(ds, key, problem=problem), pad=1.4)
             ps.plain_log_ticks(ax.yaxis)
     else:
         ps.no_data(ax)
@@ -443,9 +466,9 @@ def _coefficient_figure(ds, section, settings, problem):
     if dax is not None:
         base = models[0]
         for i, label, lower, upper in _wall_entries(walls):
-            g0 = _values(ds, key, problem=problem, model=base, wall=label)
+            g0 = values_of(ds, key, problem=problem, model=base, wall=label)
             for model in models[1:]:
-                g = _values(ds, key, problem=problem, model=model, wall=label)
+                g = values_of(ds, key, problem=problem, model=model, wall=label)
                 ps.plot_series(dax, delta, 100.0 * (g - g0) / g0, {**ps.series_style(i), **model_marker(model)},
                                logy=False)
         dax.axhline(0.0, color=ps.REFERENCE_COLOR, lw=0.8, zorder=1)
@@ -463,7 +486,7 @@ def _correction_figure(ds, section, settings):
     from knudsweep import plot_style as ps
     from knudsweep.figures import new_figure
 
-    walls = _walls(section)
+    walls = walls_by_label(section)
     models = list(section["models"])
     delta = ds["delta"].values.astype(float)
     kn = SQRT_PI / (2.0 * delta)
@@ -471,7 +494,7 @@ def _correction_figure(ds, section, settings):
     drawn = False
     for i, label, lower, upper in _wall_entries(walls):
         for model in models:
-            g = _values(ds, "G_P", problem="poiseuille", model=model, wall=label)
+            g = values_of(ds, "G_P", problem="poiseuille", model=model, wall=label)
             order = np.argsort(kn)
             if ps.plot_series(ax, kn[order], (g / (delta / 6.0))[order],
                               {**ps.series_style(i), **model_marker(model)}):
@@ -502,7 +525,7 @@ def _convergence_figure(ds, section, settings, problem):
     from knudsweep import plot_style as ps
     from knudsweep.figures import new_figure
 
-    walls = _walls(section)
+    walls = walls_by_label(section)
     models = list(section["models"])
     delta = ds["delta"].values.astype(float)
     tol = float(section["resolution"]["tol"])
@@ -563,7 +586,7 @@ def _model_error_figure(ds, section, settings):
     from knudsweep.figures import new_figure
 
     lbe, eqs, keys = model_error_pairs(section)
-    walls = _walls(section)
+    walls = walls_by_label(section)
     delta = ds["delta"].values.astype(float)
     fig, axes = new_figure(settings, mosaic=[keys], scale=(1.0 if len(keys) == 1 else 1.6, 1.2), sharey=True)
     for n, key in enumerate(keys):
@@ -572,11 +595,11 @@ def _model_error_figure(ds, section, settings):
         drawn = False
         for i, label, lower, upper in _wall_entries(walls):
             sel = dict(problem=problem, wall=label)
-            g_ref = _values(ds, key, model=lbe, **sel)
-            e_ref = _values(ds, f"{key}_error_estimate", model=lbe, **sel)
+            g_ref = values_of(ds, key, model=lbe, **sel)
+            e_ref = values_of(ds, f"{key}_error_estimate", model=lbe, **sel)
             for m in eqs:
-                ratio, err = model_error_ratio(_values(ds, key, model=m, **sel),
-                                               _values(ds, f"{key}_error_estimate", model=m, **sel), g_ref, e_ref)
+                ratio, err = model_error_ratio(values_of(ds, key, model=m, **sel),
+                                               values_of(ds, f"{key}_error_estimate", model=m, **sel), g_ref, e_ref)
                 style = {**ps.series_style(i), **model_marker(m)}
                 if ps.plot_series(ax, delta, ratio, style, logy=False):
                     drawn = True
@@ -600,17 +623,6 @@ def _model_error_figure(ds, section, settings):
     return fig
 
 
-def build_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
-    figs = {}
-    for problem in section["problems"]:
-        figs[f"plane_channel_{MAIN_COEFFICIENT[problem]}_vs_delta"] = _coefficient_figure(ds, section, settings, problem)
-    if "poiseuille" in section["problems"]:
-        figs["plane_channel_correction_vs_kn"] = _correction_figure(ds, section, settings)
-    for problem in section["problems"]:
-        figs[f"plane_channel_convergence_{problem}"] = _convergence_figure(ds, section, settings, problem)
-    if model_error_pairs(section)[0] is not None:
-        figs["plane_channel_model_error_vs_delta"] = _model_error_figure(ds, section, settings)
-    return figs
 
 
 # ---------------------------------------------------------------- report captions
@@ -620,18 +632,24 @@ def _plain_wall(lower: dict, upper: dict | None) -> str:
     return wall_text(lower, upper).replace("$", "").replace("\\alpha", "alpha")
 
 
-def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
-    """Report caption (reStructuredText) of every figure: what is shown, models, walls, uncertainty."""
-    from knudsweep.plot_style import problem_text
-    from knudsweep.report import relative_error_sentence, status_sentence
-
-    walls = _walls(section)
+def _caption_context(ds, section: dict[str, Any]) -> dict[str, Any]:
+    """Text pieces every caption uses: models, walls, the delta span."""
+    walls = walls_by_label(section)
     models = ", ".join(model_text(m) for m in section["models"])
     if any(m in BOLTZMANN_MODELS for m in section["models"]):
         models += " (mid-size filled markers with a black edge: the linearized Boltzmann equation)"
-    wall_list = "; ".join(_plain_wall(lo, up) for lo, up in walls.values())
     delta = ds["delta"].values.astype(float)
-    span = f"delta = {delta.min():g} to {delta.max():g} ({delta.size} values)"
+    return {"models": models, "wall_list": "; ".join(_plain_wall(lo, up) for lo, up in walls.values()),
+            "span": f"delta = {delta.min():g} to {delta.max():g} ({delta.size} values)"}
+
+
+def coefficient_captions(ds, section: dict[str, Any]) -> dict[str, str]:
+    """Caption of each coefficient figure: what is shown, models, walls, references, uncertainty."""
+    from knudsweep.plot_style import problem_text
+    from knudsweep.report import relative_error_sentence, status_sentence
+
+    ctx = _caption_context(ds, section)
+    models, wall_list, span = ctx["models"], ctx["wall_list"], ctx["span"]
     c = section["conditions"]
     out = {}
     for problem in section["problems"]:
@@ -664,39 +682,82 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
         text.append(relative_error_sentence(ds, key, {"problem": problem}, key))
         text.append(status_sentence(ds, {"problem": problem}))
         out[name] = "\n\n".join(text)
-    if "poiseuille" in section["problems"]:
-        out["plane_channel_correction_vs_kn"] = "\n\n".join([
-            "Flow-rate correction factor G_P / (delta/6): the Poiseuille flow rate relative to no-slip continuum flow, "
-            "against the Knudsen number Kn = sqrt(pi)/(2 delta) (the axis on which correction factors are usually "
-            f"quoted; delta on the top axis). Kinetic models: {models} (large open markers BGK, small filled "
-            f"markers S-model). Walls: {wall_list}. The dotted line at 1 is the no-slip continuum.",
-            relative_error_sentence(ds, "G_P", {"problem": "poiseuille"}, "G_P"),
-            status_sentence(ds, {"problem": "poiseuille"}),
-        ])
-    lbe, eqs, keys = model_error_pairs(section)
-    if lbe is not None:
-        eq_text = ", ".join(model_text(m) for m in eqs)
-        text = [
-            f"Model error of the kinetic model equations ({eq_text}): their reduced flow rates "
-            f"{' and '.join(keys)} divided by the solution of the {model_text(lbe)} equation at the same delta and "
-            f"walls, against delta ({span}); one panel per flow rate. Colour and marker: wall ({wall_list}); marker "
-            "fill: model equation. The dotted line at 1 is agreement; delta uses the gas's viscosity in every model, "
-            "so the ratios tend to 1 as delta -> 0 (slowly, like 1/ln delta, between plates). Error bars: the discretisation error estimates of "
-            "both solutions, added (usually smaller than the markers).",
-        ]
-        for key in keys:
-            problem = "poiseuille" if key == "G_P" else "thermal_creep"
-            text.append(relative_error_sentence(ds, key, {"problem": problem, "model": lbe}, f"{key} ({model_text(lbe)})"))
-        text.append(status_sentence(ds, {"model": lbe}))
-        out["plane_channel_model_error_vs_delta"] = "\n\n".join(text)
+    return out
+
+
+def correction_captions(ds, section: dict[str, Any]) -> dict[str, str]:
+    from knudsweep.report import relative_error_sentence, status_sentence
+
+    ctx = _caption_context(ds, section)
+    return {"plane_channel_correction_vs_kn": "\n\n".join([
+        "Flow-rate correction factor G_P / (delta/6): the Poiseuille flow rate relative to no-slip continuum flow, "
+        "against the Knudsen number Kn = sqrt(pi)/(2 delta) (the axis on which correction factors are usually "
+        f"quoted; delta on the top axis). Kinetic models: {ctx['models']} (large open markers BGK, small filled "
+        f"markers S-model). Walls: {ctx['wall_list']}. The dotted line at 1 is the no-slip continuum.",
+        relative_error_sentence(ds, "G_P", {"problem": "poiseuille"}, "G_P"),
+        status_sentence(ds, {"problem": "poiseuille"}),
+    ])}
+
+
+def convergence_captions(ds, section: dict[str, Any]) -> dict[str, str]:
+    from knudsweep.plot_style import problem_text
+    from knudsweep.report import status_sentence
+
+    ctx = _caption_context(ds, section)
     tol = section["resolution"]["tol"]
+    out = {}
     for problem in section["problems"]:
         out[f"plane_channel_convergence_{problem}"] = "\n\n".join([
             f"Convergence of the iterative solution, {problem_text(problem)}. Top: iterations each point needed "
             f"to reach the tolerance against delta (colour and marker: wall; open/filled: BGK/S-model). Below, "
-            f"one panel per kinetic model ({models}): the relative change of the iterate per iteration for every "
-            f"wall and delta (colour: log10 delta), with the tolerance {tol:g} as a dashed line. Walls: {wall_list}. "
-            "Long histories are sampled at log-spaced iterations in the gathered sweep.",
+            f"one panel per kinetic model ({ctx['models']}): the relative change of the iterate per iteration for "
+            f"every wall and delta (colour: log10 delta), with the tolerance {tol:g} as a dashed line. Walls: "
+            f"{ctx['wall_list']}. Long histories are sampled at log-spaced iterations in the gathered sweep.",
             status_sentence(ds, {"problem": problem}),
         ])
     return out
+
+
+def model_error_captions(ds, section: dict[str, Any]) -> dict[str, str]:
+    from knudsweep.report import relative_error_sentence, status_sentence
+
+    ctx = _caption_context(ds, section)
+    lbe, eqs, keys = model_error_pairs(section)
+    eq_text = ", ".join(model_text(m) for m in eqs)
+    text = [
+        f"Model error of the kinetic model equations ({eq_text}): their reduced flow rates "
+        f"{' and '.join(keys)} divided by the solution of the {model_text(lbe)} equation at the same delta and "
+        f"walls, against delta ({ctx['span']}); one panel per flow rate. Colour and marker: wall "
+        f"({ctx['wall_list']}); marker fill: model equation. The dotted line at 1 is agreement; delta uses the "
+        "gas's viscosity in every model, so the ratios tend to 1 as delta -> 0 (slowly, like 1/ln delta, between "
+        "plates). Error bars: the discretisation error estimates of both solutions, added (usually smaller than "
+        "the markers).",
+    ]
+    for key in keys:
+        problem = "poiseuille" if key == "G_P" else "thermal_creep"
+        text.append(relative_error_sentence(ds, key, {"problem": problem, "model": lbe}, f"{key} ({model_text(lbe)})"))
+    text.append(status_sentence(ds, {"model": lbe}))
+    return {"plane_channel_model_error_vs_delta": "\n\n".join(text)}
+
+
+# ---------------------------------------------------------------- the registry of figures (in drawing order)
+@FIGURES.register(coefficient_figure_names, caption=coefficient_captions)
+def coefficient_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+    return {f"plane_channel_{MAIN_COEFFICIENT[p]}_vs_delta": _coefficient_figure(ds, section, settings, p)
+            for p in section["problems"]}
+
+
+@FIGURES.register(correction_figure_names, caption=correction_captions)
+def correction_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+    return {"plane_channel_correction_vs_kn": _correction_figure(ds, section, settings)}
+
+
+@FIGURES.register(convergence_figure_names, caption=convergence_captions)
+def convergence_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+    return {f"plane_channel_convergence_{p}": _convergence_figure(ds, section, settings, p)
+            for p in section["problems"]}
+
+
+@FIGURES.register(model_error_figure_names, caption=model_error_captions)
+def model_error_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+    return {"plane_channel_model_error_vs_delta": _model_error_figure(ds, section, settings)}

@@ -1,0 +1,240 @@
+"""Tube and rectangular-duct family, the grid: section checks, point values and identity, gather dimensions, cost.
+
+Grid: geometries x problems x kinetic models x wall settings x delta (or Kn).
+A geometry is the circular tube or a rectangular duct of one aspect ratio
+(width / height >= 1).
+
+Point identity (the file path below ``results/points/``)::
+
+    tube_duct/<geometry>/<problem>/model=<model>/wall=<wall label>/grid=<ns>-<nv>-<tol>/delta=<delta>.nc
+
+e.g. ``tube_duct/duct-A=4.0/thermal_creep/model=bgk/wall=maxwell-alpha=0.9/grid=nsauto-nvauto-tol1.0e-07/delta=1.0e+01.nc``.
+
+* The length in delta is the tube *radius* or the duct *height* (the smaller
+  side): delta = p a / (mu v0).  A Kn axis is turned into delta = sqrt(pi)/(2 Kn)
+  before the point is named, so ``kn`` and ``delta`` studies share files.
+* Gas, temperature and channel size are not part of a point (the solvers work
+  in reduced variables); they only convert results to SI units in the tables
+  and figures.
+* Resolution and tolerance are part of the point; iteration limits are not.
+
+Tables and figures are built from the gathered sweep in :mod:`knudsweep.families.tube_duct.report`.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from knudsweep.families import (
+    Point,
+    check_axis_choice,
+    delta_values,
+    grid_label,
+    one_wall_label,
+    reject_repeats,
+    wall_params,
+)
+from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
+from knudsweep.solver.kinetic_models import MODEL_NAMES
+
+NAME = "tube_duct"
+PROBLEMS = ("poiseuille", "thermal_creep")
+MODELS = MODEL_NAMES  # the kinetic model equations (knudsweep.solver.kinetic_models)
+MAIN_COEFFICIENT = {"poiseuille": "G_P", "thermal_creep": "G_T"}
+SQRT_PI = math.sqrt(math.pi)
+
+
+# ---------------------------------------------------------------- section helpers
+
+
+def geometry_settings(section: dict[str, Any]) -> list[tuple[str, str, float]]:
+    """``[(label, shape, aspect_ratio), ...]``: ``("tube", "tube", 1.0)``, ``("duct-A=4.0", "duct", 4.0)``."""
+    return [geometry_of(spec["shape"], spec.get("aspect_ratio", 1.0)) for spec in section["geometries"]]
+
+
+def geometry_of(shape: str, aspect_ratio: float = 1.0) -> tuple[str, str, float]:
+    """``(label, shape, aspect_ratio)`` of one cross-section; the label is its path segment and gather label."""
+    if shape == "tube":
+        if aspect_ratio != 1.0:  # the schema fills the default 1.0
+            raise ValueError("geometries.aspect_ratio: only for shape 'duct' (a tube has none; leave it out or 1)")
+        return ("tube", "tube", 1.0)
+    a = canonical(aspect_ratio)
+    return (f"duct-A={format_plain(a)}", "duct", a)
+
+
+wall_label = one_wall_label  # one wall per tube or duct
+
+
+def wall_settings(section: dict[str, Any]) -> list[tuple[str, dict]]:
+    out = []
+    for i, spec in enumerate(section["walls"]):
+        w = wall_params(spec, f"walls[{i}]")
+        out.append((wall_label(w), w))
+    return out
+
+
+def tangential_alpha(w: dict[str, Any]) -> float:
+    return w["alpha"] if w["model"] == "maxwell" else w["alpha_t"]
+
+
+def is_diffuse(w: dict[str, Any]) -> bool:
+    return tangential_alpha(w) == 1.0
+
+
+def check_section(section: dict[str, Any]) -> None:
+    from knudsweep.solver.duct import MAX_DELTA as DUCT_MAX
+    from knudsweep.solver.tube import MAX_DELTA as TUBE_MAX
+
+    axis = check_axis_choice(section)
+    reject_repeats("geometries", [label for label, _, _ in geometry_settings(section)])
+    reject_repeats("walls", [label for label, _ in wall_settings(section)])
+    res = section.get("resolution", {})
+    if res.get("accuracy") is not None and (res.get("n_space") is not None or res.get("n_velocity") is not None):
+        raise ValueError("resolution.accuracy: give either an accuracy target or n_space/n_velocity, not both "
+                         "(set n_space and n_velocity to null)")
+    deltas = delta_values(section)
+    if len(set(deltas)) != len(deltas):
+        raise ValueError(f"{axis}: values repeat after rounding to 6 significant digits")
+    top = min(TUBE_MAX, DUCT_MAX)
+    if deltas[-1] > top:
+        raise ValueError(
+            f"{axis}: delta must be in (0, {top:g}] for the tube and duct solvers "
+            f"(Kn >= {SQRT_PI / (2 * top):.3g}); got delta = {deltas[-1]:g}"
+        )
+    if "conditions" in section:
+        c = section["conditions"]
+        for key in ("pressure_ratios",):
+            if any(r <= 1.0 for r in c.get(key, [])):
+                raise ValueError(f"conditions.{key}: every ratio p_in/p_out must be > 1")
+        th = c.get("thermal", {})
+        if th and th.get("t_hot", 2.0) <= th.get("t_cold", 1.0):
+            raise ValueError("conditions.thermal.t_hot: must be > t_cold")
+
+
+def point_values(geometry: tuple[str, str, float], problem: str, model: str, delta: float, wall: dict[str, Any],
+                 resolution: dict[str, Any]) -> dict[str, Any]:
+    """Canonical values of one point (a study's grid and ``knudsweep solve`` both build them here).
+
+    ``geometry``: ``(label, shape, aspect_ratio)`` as :func:`geometry_of` gives it; ``wall``: canonical wall law
+    (:func:`knudsweep.families.wall_params`); ``resolution``: ``n_space``, ``n_velocity``, ``tol``, ``accuracy``.
+    """
+    label, shape, aspect = geometry
+    return {
+        "geometry": label, "shape": shape, "aspect_ratio": aspect,
+        "problem": problem, "model": model, "delta": canonical(delta),
+        "wall": wall_label(wall), "wall_params": wall,
+        "n_space": resolution.get("n_space"), "n_velocity": resolution.get("n_velocity"),
+        "tol": canonical(resolution["tol"]),
+        "accuracy": None if resolution.get("accuracy") is None else canonical(resolution["accuracy"]),
+    }
+
+
+def points(section: dict[str, Any]) -> list[Point]:
+    res = section["resolution"]
+    grid = grid_label(section)
+    out = []
+    for glabel, shape, aspect in geometry_settings(section):
+        for problem in section["problems"]:
+            for model in section["models"]:
+                for wlabel, w in wall_settings(section):
+                    for delta in delta_values(section):
+                        pid = point_id(NAME, [
+                            segment("", glabel), segment("", problem), segment("model", model),
+                            segment("wall", wlabel), segment("grid", grid), segment("delta", format_exp(delta)),
+                        ])
+                        values = point_values((glabel, shape, aspect), problem, model, delta, w, res)
+                        index = {"geometry": glabel, "problem": problem, "model": model, "wall": wlabel, "delta": delta}
+                        out.append(Point(NAME, pid, values, index))
+    return out
+
+
+def peak_memory_mb(section: dict[str, Any]) -> tuple[float, str]:
+    """The duct's distribution dominates (tube points need well under 100 MB)."""
+    from knudsweep.solver.duct import duct_memory_mb
+
+    res = section.get("resolution", {})
+    best = (0.0, "")
+    for label, shape, a in geometry_settings(section):
+        if shape != "duct":
+            continue
+        for d in delta_values(section):
+            mb = duct_memory_mb(d, a, res.get("n_space"), res.get("n_velocity"), res.get("accuracy"))
+            if mb > best[0]:
+                best = (mb, f"{label}, delta = {d:g}, n_space = {res.get('n_space')}, "
+                            f"n_velocity = {res.get('n_velocity')}")
+    return best
+
+
+def point_cost(values: dict[str, Any]) -> float:
+    """Seconds per point, measured on the demo grids (n_velocity 8, solver-default space grid):
+    tube 0.08-0.2 s with Maxwell walls, up to 0.8 s with Cercignani-Lampis walls at small
+    delta; duct 0.03-0.4 s, growing with the aspect ratio and with delta above 10."""
+    nv = (values.get("n_velocity") or 8) / 8.0
+    cl = 3.0 if values["wall_params"]["model"] == "cercignani_lampis" else 1.0
+    if values["shape"] == "tube":
+        cost = 0.2 * cl * nv**2
+    else:
+        cost = 0.06 * cl * math.sqrt(values["aspect_ratio"]) * (1.0 + values["delta"] / 50.0) * nv**2
+    if values.get("accuracy") is not None:
+        cost *= 4.0
+    return cost
+
+
+def gather_dims(section: dict[str, Any]) -> dict[str, list]:
+    return {
+        "geometry": [g for g, _, _ in geometry_settings(section)],
+        "problem": list(section["problems"]),
+        "model": list(section["models"]),
+        "wall": [w for w, _ in wall_settings(section)],
+        "delta": delta_values(section),
+    }
+
+
+def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
+    geos = geometry_settings(section)
+    walls = wall_settings(section)
+    deltas = delta_values(section)
+
+    def acc(w, key):
+        return float(w[key]) if key in w else float("nan")
+
+    return {
+        "geometry": {
+            "attrs": {"long_name": "channel cross-section"},
+            "extra": {
+                "shape": ([s for _, s, _ in geos], {"long_name": "tube or rectangular duct"}),
+                "aspect_ratio": ([a for _, _, a in geos], {"units": "1", "long_name": "duct width / height (1 for the tube)"}),
+            },
+        },
+        "problem": {"attrs": {"long_name": "driving problem"}},
+        "model": {"attrs": {"long_name": "kinetic model equation"}},
+        "wall": {
+            "attrs": {"long_name": "gas-surface interaction setting"},
+            "extra": {
+                "wall_model": ([w["model"] for _, w in walls], {"long_name": "wall model"}),
+                "alpha": ([acc(w, "alpha") for _, w in walls], {"units": "1", "long_name": "Maxwell accommodation coefficient"}),
+                "alpha_t": ([acc(w, "alpha_t") for _, w in walls], {"units": "1", "long_name": "Cercignani-Lampis tangential-momentum accommodation"}),
+                "alpha_n": ([acc(w, "alpha_n") for _, w in walls], {"units": "1", "long_name": "Cercignani-Lampis normal-energy accommodation"}),
+            },
+        },
+        "delta": {
+            "attrs": {"units": "1", "long_name": "rarefaction parameter delta = p a / (mu v0), a = tube radius or duct height"},
+            "extra": {"kn": ([canonical(SQRT_PI / (2.0 * d)) for d in deltas], {"units": "1", "long_name": "Knudsen number sqrt(pi) / (2 delta)"})},
+        },
+    }
+
+
+def coefficient_attrs(section: dict[str, Any]) -> dict[str, dict]:
+    """Attributes of the gathered flow rates: one variable holds tube and duct values, each
+    geometry with its own normalisation (knudsweep.solver.tube, knudsweep.solver.duct), so both are named."""
+    out = {}
+    for name, what, drive, tube, duct in (
+            ("G_P", "mass", "pressure gradient X_P", "4 int u r dr", "(2/A) int int u dy dz"),
+            ("Q_P", "heat", "pressure gradient X_P", "-4 int q r dr", "-(2/A) int int q dy dz"),
+            ("G_T", "mass", "temperature gradient X_T", "4 int u r dr", "(2/A) int int u dy dz"),
+            ("Q_T", "heat", "temperature gradient X_T", "-4 int q r dr", "-(2/A) int int q dy dz")):
+        out[name] = {"units": "1", "long_name": (
+            f"reduced {what} flow rate per unit {drive}; tube: {tube} (r in units of the radius); "
+            f"duct: per unit width, {duct} (y, z in units of the height, A = width / height)")}
+    return out
