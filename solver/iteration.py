@@ -27,10 +27,14 @@ It therefore stops on max(e_k, E_k) < tol (``require_small_change``), which
 left errors of 3e-11 to 1.1e-9 in the same measurement.  The plane channel's model-equation kernel applies the same
 rule inside its compiled loop (``plane_channel.kernels.source_iteration``).
 
-Acceleration is on by default for every channel solver (synthetic
-acceleration; accelerated and plain iterations converge to the same discrete
-solution, the plain one needs up to thousands of times more sweeps at large
-delta).  MAX_ITER_ACCELERATED and MAX_ITER_PLAIN are the default caps.
+Acceleration (synthetic; accelerated and plain iterations converge to the
+same discrete solution, the plain one needs up to thousands of times more
+sweeps at large delta) is on by default for tube, duct and the
+linearized-Boltzmann plane channel.  ``solve_plane_channel`` keeps plain
+iteration as its default: through it the linearized-Boltzmann model would
+otherwise change its Q_P by more than the tolerance (its accelerated
+iteration stops on the velocity change only; see that function).
+MAX_ITER_ACCELERATED and MAX_ITER_PLAIN are the default caps.
 """
 
 from __future__ import annotations

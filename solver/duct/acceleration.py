@@ -122,24 +122,6 @@ class DuctCorrection:
         return self.lu.solve(b).reshape(self.shape)
 
 
-def _correct_inflow(inflow, e, f1):
-    """Add the reflection of the corrected velocity to the wall inflow.
-
-    Molecules arriving at a wall carry the velocity next to it; the synthetic
-    correction e changes that velocity, so the specular part f1 (Maxwell:
-    1 - alpha; Cercignani-Lampis: 1 - alpha_t) of the re-emitted distribution
-    changes by f1 e_wall, as a drifting Maxwellian (Phi1 = e, Phi3 = 3/2 e).
-    Zero when e is zero, so the fixed point is unchanged.
-    """
-    wy1, wy3, wz1, wz3 = inflow
-    for q in (0, 2):
-        wy1[q] += f1 * e[0, :]
-        wy3[q] += 1.5 * f1 * e[0, :]
-    for q in (0, 1):
-        wz1[q] += f1 * e[:, 0]
-        wz3[q] += 1.5 * f1 * e[:, 0]
-
-
 class IterationState:
     """Packs the iteration state into one vector for Anderson mixing, and back.
 

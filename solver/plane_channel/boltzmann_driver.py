@@ -42,31 +42,27 @@ import time
 
 import numpy as np
 
+from knudsweep.solver.iteration import IterationControl, default_max_iter
+from knudsweep.solver.limits import SIGMA_P_BGK
 from knudsweep.solver.plane_channel import grids, kernels
 from knudsweep.solver.plane_channel import linearized_boltzmann as lb
 from knudsweep.solver.plane_channel.driver import plate_parameters
 from knudsweep.solver.resolution import check_estimate_options, solve_with_estimate
-from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
-from knudsweep.solver.walls import MaxwellWall
+from knudsweep.solver.result import CONVERGED, Quantity, SolverResult
+from knudsweep.solver.walls import MaxwellWall, slip_factor
 
 PROBLEMS = ("poiseuille", "thermal_creep")
 MOLECULES = ("hard_sphere", "vhs")
 DELTA_RANGE = (1e-3, 1e3)
 TOL_RANGE = (1e-14, 1e-2)
 MIN_SPEED, MAX_SPEED = 4, 24
-DEFAULT_MAX_ITER_PLAIN = 100_000
-DEFAULT_MAX_ITER_ACCELERATED = 2_000
 # below this delta the direction rule is graded towards mu = 0 (as grids.GRADED_BELOW for the model equations)
 GRADED_BELOW = 0.5
 # Slip length (units of ell) in the wall condition of the error equation:
-# the BGK diffuse value (as driver._SLIP_LENGTH), scaled by (2 - alpha)/alpha;
+# the BGK diffuse value (knudsweep.solver.limits), scaled by walls.slip_factor;
 # it sets only the speed of convergence, never the converged result.
-_SLIP_LENGTH = 1.0162
+_SLIP_LENGTH = SIGMA_P_BGK  # knudsweep.solver.limits
 
-_STATUS_REASON = {
-    kernels.MAX_ITER_CODE: "max_iter reached before the error estimate fell below tol",
-    kernels.NOT_FINITE_CODE: "non-finite values (NaN or inf) in the iteration",
-}
 
 
 def default_n_speed(delta: float) -> int:
@@ -179,7 +175,7 @@ def solve_plane_channel_boltzmann(
     n_space = grids.default_n_space(delta) if n_space is None else _check_int("n_space", n_space, grids.MIN_SPACE, grids.MAX_SPACE)
     n_velocity = default_n_speed(delta) if n_velocity is None else _check_int("n_velocity", n_velocity, MIN_SPEED, MAX_SPEED)
     if max_iter is None:
-        max_iter = DEFAULT_MAX_ITER_ACCELERATED if accelerate else DEFAULT_MAX_ITER_PLAIN
+        max_iter = default_max_iter(accelerate)
     else:
         max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
 
@@ -237,13 +233,10 @@ def _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, n_space
     r1 = np.zeros(n_space)
     x = np.zeros(n_space + 1)
     dummy = np.zeros((1, n_space, 2))
-    robin_low = _SLIP_LENGTH * (2.0 - lower_wall.alpha) / lower_wall.alpha
-    robin_up = _SLIP_LENGTH * (2.0 - upper_wall.alpha) / upper_wall.alpha
+    robin_low = _SLIP_LENGTH * slip_factor(lower_wall)
+    robin_up = _SLIP_LENGTH * slip_factor(upper_wall)
     nu_full = np.concatenate([nu, nu])
-    history = []
-    code, estimate, rho = kernels.MAX_ITER_CODE, math.inf, 0.0
-    changes: list[float] = []
-    lag = 4
+    control = IterationControl(tol, max_iter)
 
     def moments(out):
         flat = F[0].reshape(2 * m, n_space * 2)
@@ -251,9 +244,7 @@ def _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, n_space
         out[1] = (np.concatenate([Wq, Wq]) @ flat).reshape(n_space, 2)
         out[2] = (np.concatenate([Wp, -Wp]) @ flat).reshape(n_space, 2)
 
-    iterations = 0
-    for it in range(max_iter):
-        iterations = it + 1
+    while True:
         flat = F[0].reshape(2 * m, n_space * 2)
         KF = (K @ flat).reshape(2, m, n_space, 2)
         S[0] = kd * KF / nu[None, :, None, None]
@@ -278,20 +269,7 @@ def _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, n_space
             F[0, :, :, :, 0] += (x[:-1] + x[1:])[None, None, :]
             F[0, :, :, :, 1] += (x[1:] - x[:-1])[None, None, :]
         moments(M)
-        e = kernels._change_norm(M, M_old, wy, 0, 1e-3)
-        if not math.isfinite(e):
-            history.append(e)
-            code = kernels.NOT_FINITE_CODE
-            break
-        changes = (changes + [e])[-(lag + 1):]
-        if len(changes) == lag + 1 and changes[0] > 0.0:
-            rho = (e / changes[0]) ** (1.0 / lag)
-            estimate = 0.0 if e == 0.0 else (e * rho / (1.0 - rho) if rho < 1.0 else math.inf)
-        elif e == 0.0:
-            estimate = 0.0
-        history.append(estimate if math.isfinite(estimate) else e)
-        if estimate < tol:
-            code = kernels.CONVERGED_CODE
+        if control.stop(kernels._change_norm(M, M_old, wy, 0, 1e-3)):
             break
 
     integral = lambda f: float(wy @ f)  # noqa: E731
@@ -312,14 +290,9 @@ def _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, n_space
         "heat_flux": (M[1, :, 0], f"x-heat flux / (p v0 {drive_name})"),
         "shear_stress": (M[2, :, 0], f"shear stress P_xy / (p {drive_name})"),
     }
-    status, reason = CONVERGED, ""
-    if code != kernels.CONVERGED_CODE:
-        status, reason = FAILED, _STATUS_REASON[code]
-    elif not all(math.isfinite(v) for v, _ in coeffs.values()):
-        status, reason = FAILED, "non-finite coefficient"
-    convergence = ConvergenceRecord(
-        residuals=np.array(history), iterations=int(iterations), status=status, reason=reason, tolerance=tol
-    )
+    if control.status == CONVERGED and not all(math.isfinite(v) for v, _ in coeffs.values()):
+        control.fail("non-finite coefficient")
+    convergence = control.record()
     parameters = {
         "problem": problem, "delta": delta, "kinetic_model": f"boltzmann_{molecule}", "prandtl": lb.prandtl_number(ns, omega),
         **plate_parameters(lower_wall, upper_wall),
@@ -338,8 +311,7 @@ def _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, n_space
         "max_iter": int(max_iter),
         "accelerate": bool(accelerate),
         "acceleration": "diffusion-synthetic on the velocity (boltzmann_driver)" if accelerate else "none",
-        "contraction_estimate": float(rho),
-        "iteration_error_estimate": float(estimate),
+        **control.describe(),
     }
     yc = 0.5 * (y[1:] + y[:-1])
     return SolverResult(

@@ -4,41 +4,35 @@ from __future__ import annotations
 
 import math
 import time
+from dataclasses import dataclass
 
 import numpy as np
 
+from knudsweep.solver.iteration import default_max_iter
 from knudsweep.solver.kinetic_models import get_model
+from knudsweep.solver.limits import SIGMA_P_BGK, TEMPERATURE_JUMP_BGK
 from knudsweep.solver.plane_channel import grids, kernels
 from knudsweep.solver.plane_channel.boundary import wall_operators
 from knudsweep.solver.plane_channel.problems import PROBLEMS, build_tables, coefficients_and_profiles
-from knudsweep.solver.resolution import check_estimate_options, solve_with_estimate
+from knudsweep.solver.resolution import check_estimate_options, solve_channel
 from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
-from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
+from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall, slip_factor
 
 DELTA_RANGE = (1e-4, 1e4)
 # model names of the linearized Boltzmann equation -> molecule of knudsweep.solver.plane_channel.boltzmann_driver
 BOLTZMANN_MODELS = {"boltzmann_hard_sphere": "hard_sphere"}
 # relative change per iteration: below 1e-14 it is round-off of the double-precision sweep
 TOL_RANGE = (1e-14, 1e-2)
-DEFAULT_MAX_ITER_PLAIN = 200_000
-DEFAULT_MAX_ITER_ACCELERATED = 2_000
 # Slip length (units of ell = mu v0 / p) in the wall condition of the
-# synthetic error equation: the BGK diffuse value (check-values.md Sec. 2,
-# from memory), scaled per wall by (2 - a)/a, Maxwell's first-order slip
-# scaling (Maxwell, Phil. Trans. R. Soc. 170 (1879) 231, from memory;
-# a = alpha or alpha_t).  It sets only the speed of convergence, never the
-# converged result.  The scaled length diverged for unequal walls
-# while the upper-wall reflection lagged one sweep; with that lag removed
-# (kernels._close_upper_wall) it is stable and cut alpha = 0.3 from 73-92 to
-# 10-14 iterations (delta 1..1000).
-_SLIP_LENGTH = 1.0162
+# synthetic error equation: the BGK diffuse value (knudsweep.solver.limits)
+# times walls.slip_factor (Maxwell's (2 - a)/a).  It sets only the speed of
+# convergence, never the converged result; stable for unequal walls because
+# the upper-wall reflection is closed inside the sweep (kernels._close_upper_wall).
+_SLIP_LENGTH = SIGMA_P_BGK
 # Temperature-jump length (units of ell) of the heat-transfer error equation:
-# the BGK diffuse zeta_T (check-values.md Sec. 2, from memory) for every
-# model, scaled by (2 - a_E)/a_E.  Speed only, like _SLIP_LENGTH.  A scan of
-# 0.05..1.6 times this value gave 14-46 iterations (delta 1..1000, three
-# models) when the S-model heat flux is corrected too; more than ~1.2 times
-# it slowed the S-model and diverged at 1.45 times.
-_JUMP_LENGTH = 1.3027
+# the BGK diffuse value (knudsweep.solver.limits) for every model, scaled by
+# (2 - a_E)/a_E.  Speed only, like _SLIP_LENGTH.
+_JUMP_LENGTH = TEMPERATURE_JUMP_BGK
 
 
 def acceleration_parameters(problem, kinetic, delta, lower_wall, upper_wall):
@@ -68,12 +62,9 @@ def _wall_slip_factor(wall, energy: bool = False) -> float:
     Cercignani-Lampis energy accommodation: (alpha_n + alpha_t (2 - alpha_t)) / 2,
     the normal and tangential parts weighted equally (from memory; speed only).
     """
-    if isinstance(wall, MaxwellWall):
-        a = wall.alpha
-    elif energy:
-        a = 0.5 * (wall.alpha_n + wall.alpha_t * (2.0 - wall.alpha_t))
-    else:
-        a = wall.alpha_t
+    if not energy or isinstance(wall, MaxwellWall):
+        return slip_factor(wall)
+    a = 0.5 * (wall.alpha_n + wall.alpha_t * (2.0 - wall.alpha_t))
     return (2.0 - a) / a
 
 _STATUS_REASON = {
@@ -146,11 +137,15 @@ def solve_plane_channel(
         upper_wall None means the same as lower_wall.
     n_space : cells across the gap (default from delta, grids.default_n_space).
     n_velocity : positive half-range velocity nodes (default from delta).
-    max_iter : iteration cap per solve (default 200000 plain, 2000 accelerated).
+    max_iter : iteration cap per solve (default ``iteration.default_max_iter``: 200000 plain, 2000 accelerated).
     tol : stop when the estimated relative error of the primary moment
         (velocity, or temperature for heat transfer) is below tol.
     accelerate : synthetic acceleration of the iteration (all four problems;
-        kernels._synthetic_step).
+        kernels._synthetic_step).  Default off here, unlike tube and duct
+        (``knudsweep.solver.iteration``): the linearized-Boltzmann path's
+        accelerated iteration stops on the velocity change only, and its Q_P
+        then differs from the plain answer by 1.4e-7 at tol 1e-8 (delta = 1,
+        measured), more than the tolerance; studies choose it per model.
     accuracy : relative accuracy asked of every coefficient, in [1e-6, 0.1];
         the resolution is then chosen by climbing grids.resolution_ladder
         until the Richardson estimate (knudsweep.solver.resolution) is below it
@@ -190,21 +185,40 @@ def solve_plane_channel(
     else:
         n_velocity = _check_int("n_velocity", n_velocity, grids.MIN_VELOCITY, grids.MAX_VELOCITY)
     if max_iter is None:
-        max_iter = DEFAULT_MAX_ITER_ACCELERATED if accelerate else DEFAULT_MAX_ITER_PLAIN
+        max_iter = default_max_iter(accelerate)
     else:
         max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
 
-    def run(ns: int, nv: int, it_tol: float) -> SolverResult:
-        return _solve_once(problem, delta, kinetic, lower_wall, upper_wall, ns, nv, max_iter, it_tol, accelerate)
+    channel = PlaneChannelFlow(problem, delta, kinetic, lower_wall, upper_wall, max_iter, accelerate)
+    return solve_channel(channel, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate,
+                         t_start=t0)
 
-    return solve_with_estimate(
-        run, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate,
-        ladder=grids.resolution_ladder(delta),
-        coarse_level=(max(4, n_space // 2), grids.coarser_velocity(delta, n_velocity)),
-        t_start=t0,
-        coarse_how="one coarser ladder step (half the cells, 3/4 of the velocity nodes)",
-        ladder_how="accuracy-driven refinement along grids.resolution_ladder",
-    )
+
+@dataclass(frozen=True)
+class PlaneChannelFlow:
+    """One plane-channel problem with checked inputs (a :class:`knudsweep.solver.resolution.ChannelSolver`)."""
+
+    problem: str
+    delta: float
+    kinetic: object
+    lower_wall: object
+    upper_wall: object
+    max_iter: int
+    accelerate: bool
+
+    assumed_ratio = 4.0  # second order (knudsweep.solver.resolution); the scheme measures r = 5 to 8
+    coarse_how = "one coarser ladder step (half the cells, 3/4 of the velocity nodes)"
+    ladder_how = "accuracy-driven refinement along grids.resolution_ladder"
+
+    def resolution_ladder(self) -> list[tuple[int, int]]:
+        return grids.resolution_ladder(self.delta)
+
+    def coarser_level(self, n_space: int, n_velocity: int) -> tuple[int, int]:
+        return max(4, n_space // 2), grids.coarser_velocity(self.delta, n_velocity)
+
+    def solve_once(self, n_space: int, n_velocity: int, tol: float) -> SolverResult:
+        return _solve_once(self.problem, self.delta, self.kinetic, self.lower_wall, self.upper_wall, n_space,
+                           n_velocity, self.max_iter, tol, self.accelerate)
 
 
 def _solve_boltzmann(problem, model, delta, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol, accelerate,
