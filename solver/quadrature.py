@@ -93,7 +93,7 @@ def _discretised_measure(b: float) -> tuple[np.ndarray, np.ndarray]:
     return t[keep], w[keep]
 
 
-def _lanczos_recurrence(x: np.ndarray, w: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
+def lanczos_recurrence(x: np.ndarray, w: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
     """Recurrence coefficients alpha[0..n-1], beta[1..n-1] of the discrete measure sum w delta(x).
 
     Lanczos iteration on diag(x) started from sqrt(w), with full
@@ -120,7 +120,7 @@ def _lanczos_recurrence(x: np.ndarray, w: np.ndarray, n: int) -> tuple[np.ndarra
 def _gauss_rule_on_shifted_half_line(n: int, b: float) -> tuple[np.ndarray, np.ndarray]:
     t, w = _discretised_measure(b)
     mass = w.sum()  # = exp(b^2) int_b^inf exp(-x^2) dx
-    alpha, beta = _lanczos_recurrence(t, w, n)
+    alpha, beta = lanczos_recurrence(t, w, n)
     if n == 1:
         nodes_t, vectors = alpha.copy(), np.ones((1, 1))
     else:

@@ -12,6 +12,7 @@ from knudsweep.solver.iteration import default_max_iter
 from knudsweep.solver.kinetic_models import get_model
 from knudsweep.solver.limits import SIGMA_P_BGK, TEMPERATURE_JUMP_BGK
 from knudsweep.solver.plane_channel import grids, kernels
+from knudsweep.solver.kinetic_models import BOLTZMANN_MODELS  # linearized Boltzmann names -> molecule
 from knudsweep.solver.plane_channel.boundary import wall_operators
 from knudsweep.solver.plane_channel.problems import PROBLEMS, build_tables, coefficients_and_profiles
 from knudsweep.solver.resolution import check_estimate_options, solve_channel
@@ -19,8 +20,6 @@ from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quanti
 from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall, slip_factor
 
 DELTA_RANGE = (1e-4, 1e4)
-# model names of the linearized Boltzmann equation -> molecule of knudsweep.solver.plane_channel.boltzmann_driver
-BOLTZMANN_MODELS = {"boltzmann_hard_sphere": "hard_sphere"}
 # relative change per iteration: below 1e-14 it is round-off of the double-precision sweep
 TOL_RANGE = (1e-14, 1e-2)
 # Slip length (units of ell = mu v0 / p) in the wall condition of the

@@ -79,6 +79,8 @@ import numba
 import numpy as np
 from scipy.special import erf, gamma as gamma_fn, hyp1f1
 
+from knudsweep.solver.quadrature import lanczos_recurrence
+
 SQRT_PI = math.sqrt(math.pi)
 # graded direction rules: Gauss-Legendre above this mu, graded panels below
 _MU_SPLIT = 0.1
@@ -180,23 +182,9 @@ def collision_frequency(c: np.ndarray, omega: float = 0.5, general: bool = False
 
 
 def _gauss_rule(x: np.ndarray, w: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
-    """n-point Gauss rule of the discrete measure sum w delta(x) (Lanczos, full re-orthogonalisation; Golub & Welsch 1969)."""
-    q = np.sqrt(w) / math.sqrt(w.sum())
-    basis = np.zeros((n, x.size))
-    alpha = np.zeros(n)
-    beta = np.zeros(max(n - 1, 0))
-    for k in range(n):
-        basis[k] = q
-        r = x * q
-        alpha[k] = q @ r
-        if k == n - 1:
-            break
-        for _ in range(2):
-            r -= basis[: k + 1].T @ (basis[: k + 1] @ r)
-        beta[k] = np.linalg.norm(r)
-        q = r / beta[k]
-    J = np.diag(alpha) + np.diag(beta, 1) + np.diag(beta, -1)
-    nodes, vec = np.linalg.eigh(J)
+    """n-point Gauss rule of the discrete measure sum w delta(x) (Golub & Welsch 1969, Math. Comp. 23, 221)."""
+    alpha, beta = lanczos_recurrence(x, w, n)
+    nodes, vec = np.linalg.eigh(np.diag(alpha) + np.diag(beta, 1) + np.diag(beta, -1))
     return nodes, w.sum() * vec[0] ** 2
 
 

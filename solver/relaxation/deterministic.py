@@ -47,6 +47,7 @@ from dataclasses import dataclass
 import numpy as np
 from numba import njit
 
+from knudsweep.solver.kinetic_models import MODEL_NAMES, get_model
 from knudsweep.solver.relaxation.h_function import (
     _relative_entropy_grid,
     axis_overlap,
@@ -54,9 +55,9 @@ from knudsweep.solver.relaxation.h_function import (
     binned_probabilities_grid,
 )
 
-MODEL_EQUATIONS = ("bgk", "s_model", "es_bgk")
+MODEL_EQUATIONS = MODEL_NAMES  # the registry of model equations (solver.kinetic_models)
 MODEL_CODE = {"bgk": 0, "s_model": 1, "es_bgk": 2}
-PRANDTL = 2.0 / 3.0
+PRANDTL = get_model("es_bgk").prandtl  # the ES-BGK target's Prandtl number
 
 # Columns of the per-output record (shared layout with the particle solver
 # where the quantities coincide).
