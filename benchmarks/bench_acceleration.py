@@ -56,25 +56,30 @@ def machine_description() -> str:
         pass
     usable = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else os.cpu_count()
     load = ", ".join(f"{x:.2f}" for x in os.getloadavg()) if hasattr(os, "getloadavg") else "n/a"
-    return "\n".join([
-        f"CPU: {model}; logical cores {os.cpu_count()}, usable {usable}",
-        f"numba threads: {numba.get_num_threads()} (NUMBA_NUM_THREADS {numba.config.NUMBA_NUM_THREADS}); "
-        f"threading layer: {numba.config.THREADING_LAYER}",
-        f"python {platform.python_version()}, numba {numba.__version__}, numpy {np.__version__}, {platform.platform()}",
-        f"load average (1, 5, 15 min): {load}",
-    ])
+    return "\n".join(
+        [
+            f"CPU: {model}; logical cores {os.cpu_count()}, usable {usable}",
+            f"numba threads: {numba.get_num_threads()} (NUMBA_NUM_THREADS {numba.config.NUMBA_NUM_THREADS}); "
+            f"threading layer: {numba.config.THREADING_LAYER}",
+            f"python {platform.python_version()}, numba {numba.__version__}, numpy {np.__version__}, {platform.platform()}",
+            f"load average (1, 5, 15 min): {load}",
+        ]
+    )
 
 
 # --- the three geometries, Poiseuille flow --------------------------------------------
 
+
 def plane(delta, accelerate, max_iter=None):
-    return solve_plane_channel("poiseuille", delta=delta, accelerate=accelerate, tol=TOL,
-                               max_iter=max_iter, error_estimate=False)
+    return solve_plane_channel(
+        "poiseuille", delta=delta, accelerate=accelerate, tol=TOL, max_iter=max_iter, error_estimate=False
+    )
 
 
 def plane_heat(delta, accelerate, max_iter=None):
-    return solve_plane_channel("heat_transfer", delta=delta, accelerate=accelerate, tol=TOL,
-                               max_iter=max_iter, error_estimate=False)
+    return solve_plane_channel(
+        "heat_transfer", delta=delta, accelerate=accelerate, tol=TOL, max_iter=max_iter, error_estimate=False
+    )
 
 
 def tube(delta, accelerate, max_iter=None):
@@ -89,8 +94,12 @@ def duct(delta, accelerate, max_iter=None):
     return solve_duct("poiseuille", delta=delta, aspect_ratio=2.0, accelerate=accelerate, tol=TOL, max_iter=max_iter)
 
 
-GEOMETRIES = {"plane channel": (plane, "G_P"), "plane channel heat transfer": (plane_heat, "heat_flux"),
-              "tube": (tube, "G_P"), "duct A=2": (duct, "G_P")}
+GEOMETRIES = {
+    "plane channel": (plane, "G_P"),
+    "plane channel heat transfer": (plane_heat, "heat_flux"),
+    "tube": (tube, "G_P"),
+    "duct A=2": (duct, "G_P"),
+}
 PROBLEM_LABEL = {"plane channel heat transfer": "heat flux between walls at T0 -/+ dT/2"}
 # plain-iteration caps: the full count is measured while it stays affordable
 PLAIN_CAP = {"plane channel": 60_000, "plane channel heat transfer": 60_000, "tube": 1_000, "duct A=2": 1_000}
@@ -100,8 +109,10 @@ PLAIN_TIMING_CAP = 100  # iterations run only to time one plain iteration
 def bench_geometry(name, solve, coef, growth):
     """Table of plain vs accelerated; returns the measured plain counts {delta: iterations}."""
     print(f"\n{name}: {PROBLEM_LABEL.get(name, 'Poiseuille')}, BGK, diffuse wall, tol {TOL:g}")
-    print(f"{'delta':>8} | {'plain it':>10} {'plain s':>9} | {'accel it':>8} {'accel s':>8} | "
-          f"{'it ratio':>9} {'time ratio':>10} | {'rel diff':>8}")
+    print(
+        f"{'delta':>8} | {'plain it':>10} {'plain s':>9} | {'accel it':>8} {'accel s':>8} | "
+        f"{'it ratio':>9} {'time ratio':>10} | {'rel diff':>8}"
+    )
     measured: dict[float, int] = {}
     too_long = False
     for delta in DELTAS:
@@ -129,8 +140,11 @@ def bench_geometry(name, solve, coef, growth):
             too_long = True
             p_t = p_it * p_t_per_it
             mark, diff = "~", f"{'(capped)':>8}"
-        print(f"{delta:8.3g} | {mark}{p_it:9d} {mark}{p_t:8.3g} | {a_it:8d} {a_t:8.3f} | "
-              f"{mark}{p_it / a_it:8.3g} {mark}{p_t / a_t:9.3g} | {diff}", flush=True)
+        print(
+            f"{delta:8.3g} | {mark}{p_it:9d} {mark}{p_t:8.3g} | {a_it:8d} {a_t:8.3f} | "
+            f"{mark}{p_it / a_it:8.3g} {mark}{p_t / a_t:9.3g} | {diff}",
+            flush=True,
+        )
     return measured
 
 
@@ -179,8 +193,10 @@ def main() -> None:
     measured = bench_geometry("plane channel", plane, "G_P", growth=None)
     growth = measured_growth(measured)
     d1, d2 = sorted(measured)[-2:]
-    print(f"   growth exponent of the plain count, delta {d1:g} -> {d2:g}: {growth:.2f} "
-          f"(used for every '~' row beyond the last converged plain run)")
+    print(
+        f"   growth exponent of the plain count, delta {d1:g} -> {d2:g}: {growth:.2f} "
+        f"(used for every '~' row beyond the last converged plain run)"
+    )
     for name in names[1:]:
         # the heat-transfer problem measures its own growth (its slow modes differ)
         own = name.startswith("plane channel")
@@ -189,8 +205,12 @@ def main() -> None:
     cases = [
         ("plane channel delta=0.01", lambda: plane(0.01, True)),
         ("plane channel delta=1000", lambda: plane(1000.0, True)),
-        ("plane 1000, 4000 x 64 nodes", lambda: solve_plane_channel(
-            "poiseuille", delta=1000.0, accelerate=True, tol=TOL, n_space=4000, n_velocity=64, error_estimate=False)),
+        (
+            "plane 1000, 4000 x 64 nodes",
+            lambda: solve_plane_channel(
+                "poiseuille", delta=1000.0, accelerate=True, tol=TOL, n_space=4000, n_velocity=64, error_estimate=False
+            ),
+        ),
     ]
     if not args.quick:
         cases += [("tube delta=10", lambda: tube(10.0, True)), ("duct A=2 delta=10", lambda: duct(10.0, True))]

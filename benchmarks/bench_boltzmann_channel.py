@@ -36,8 +36,10 @@ def main() -> None:
             lb.speed_matrices(n, 2 * n, omega)
         print(f"operator build omega = {omega}: {time.perf_counter() - t:.2f} s (8 and 6 speeds)")
     solve_plane_channel_boltzmann("poiseuille", delta=1.0, molecule="vhs", omega=0.81)
-    print(f"{'problem':>13} {'delta':>6} | {'S-model s':>9} {'it':>4} {'G':>10} | {'LBE s':>7} {'it':>4} {'G':>10} {'est. err':>9} | "
-          f"{'time ratio':>10} {'G_S/G_LBE':>9} | {'VHS Ar s':>8} {'G':>10} {'est. err':>9}")
+    print(
+        f"{'problem':>13} {'delta':>6} | {'S-model s':>9} {'it':>4} {'G':>10} | {'LBE s':>7} {'it':>4} {'G':>10} {'est. err':>9} | "
+        f"{'time ratio':>10} {'G_S/G_LBE':>9} | {'VHS Ar s':>8} {'G':>10} {'est. err':>9}"
+    )
     for problem, name in (("poiseuille", "G_P"), ("thermal_creep", "G_T")):
         for delta in DELTAS:
             t = time.perf_counter()

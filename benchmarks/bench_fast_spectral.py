@@ -31,7 +31,6 @@ from knudsweep.solver.relaxation import deterministic as det  # noqa: E402
 from knudsweep.solver.relaxation import fast_spectral as fs  # noqa: E402
 from knudsweep.solver.relaxation import solve_relaxation  # noqa: E402
 from knudsweep.solver.relaxation.cross_sections import molecular_model  # noqa: E402
-from knudsweep.solver.relaxation.h_function import equiprobable_edges  # noqa: E402
 from knudsweep.solver.relaxation.initial_states import initial_density_on_grid, make_initial_state  # noqa: E402
 
 TARGET_S = 10.0
@@ -97,8 +96,14 @@ def main() -> None:
     solve_relaxation(method="fast_spectral", n_velocity=8, velocity_half_width=7.0, t_end=0.25, n_output=2)
     from knudsweep.families.relaxation import FAMILY
 
-    section = {"gases": ["Ar"], "pressures": [100.0], "temperatures": [300.0], "initial_states": ["anisotropic"],
-               "methods": ["fast_spectral", "dsmc"], "n_particles": [20000]}
+    section = {
+        "gases": ["Ar"],
+        "pressures": [100.0],
+        "temperatures": [300.0],
+        "initial_states": ["anisotropic"],
+        "methods": ["fast_spectral", "dsmc"],
+        "n_particles": [20000],
+    }
     print(f"{'method':<32} {'wall s':>7} {'CPU s':>7} {'model s':>8} {'target':>7}")
     for name in ("hard_sphere", "vhs"):
         for method in ("fast_spectral", "dsmc"):
@@ -109,6 +114,7 @@ def main() -> None:
             label = f"{method} {name}" + (" N=32" if method != "dsmc" else " 20000 x 8")
             target = f"{TARGET_S:>7.0f}" if method != "dsmc" else f"{'':>7}"
             print(f"{label:<32} {wall:>7.1f} {cpu:>7.1f} {FAMILY.point_cost(values):>8.1f} {target}")
+
 
 if __name__ == "__main__":
     main()

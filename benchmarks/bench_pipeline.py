@@ -37,9 +37,22 @@ from knudsweep.solver.result import ConvergenceRecord, Quantity, SolverResult  #
 
 
 def smk(workdir: Path, study: Path, *args: str) -> float:
-    cmd = [sys.executable, "-m", "snakemake", "--snakefile", str(REPO / "Snakefile"),
-           "--directory", str(workdir), "--configfile", str(study),
-           "--profile", "none", "--workflow-profile", "none", *args]
+    cmd = [
+        sys.executable,
+        "-m",
+        "snakemake",
+        "--snakefile",
+        str(REPO / "Snakefile"),
+        "--directory",
+        str(workdir),
+        "--configfile",
+        str(study),
+        "--profile",
+        "none",
+        "--workflow-profile",
+        "none",
+        *args,
+    ]
     t0 = time.perf_counter()
     subprocess.run(cmd, check=True, capture_output=True, text=True)
     return time.perf_counter() - t0
@@ -49,7 +62,8 @@ def study_dict(name: str, deltas, walls=1, problems=("poiseuille",), models=("bg
     return {
         "study": name,
         "plane_channel": {
-            "problems": list(problems), "models": list(models),
+            "problems": list(problems),
+            "models": list(models),
             "walls": [{"alpha": round(1.0 - 0.05 * i, 6)} for i in range(walls)],
             "delta": deltas,
             "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1e-6},
@@ -76,7 +90,9 @@ def bench_dry_run(tmp: Path) -> None:
 def synthetic_result(delta: float, rng) -> SolverResult:
     n = int(rng.integers(10, 40))
     return SolverResult(
-        family="plane_channel", problem="poiseuille", parameters={"delta": delta},
+        family="plane_channel",
+        problem="poiseuille",
+        parameters={"delta": delta},
         coefficients={"G_P": Quantity(delta / 6 + 1.0, "1", "G_P"), "Q_P": Quantity(0.1, "1", "Q_P")},
         convergence=ConvergenceRecord(np.geomspace(1, 1e-8, n), n, "converged", "", 1e-8),
         wall_time=0.1,
@@ -102,8 +118,11 @@ def bench_gather(tmp: Path, n_points: int) -> None:
     rng = np.random.default_rng(1)
     t0 = time.perf_counter()
     for p in plan.points.values():
-        write_result(synthetic_result(p.values["delta"], rng), root / plan.point_file(p.pid),
-                     {"point_id": p.pid, "point_values": p.values})
+        write_result(
+            synthetic_result(p.values["delta"], rng),
+            root / plan.point_file(p.pid),
+            {"point_id": p.pid, "point_values": p.values},
+        )
     write_batches(plan, root)
     t_write = time.perf_counter() - t0
     times = {}
@@ -111,8 +130,10 @@ def bench_gather(tmp: Path, n_points: int) -> None:
         t0 = time.perf_counter()
         gather_study(plan, root / f"sweep{workers}.nc", workers=workers, root=root)
         times[workers] = time.perf_counter() - t0
-    print(f"2. gather of {len(plan.points):,} synthetic points in {len(plan.batches)} batch files "
-          f"(writing them took {t_write:.1f} s)")
+    print(
+        f"2. gather of {len(plan.points):,} synthetic points in {len(plan.batches)} batch files "
+        f"(writing them took {t_write:.1f} s)"
+    )
     for w, t in times.items():
         print(f"   {w} worker process(es): {t:8.2f} s  ({1e3 * t / len(plan.points):.3f} ms per point)")
     print(f"   speed-up with 2 processes: {times[1] / times[2]:.2f}")

@@ -34,8 +34,16 @@ def _dsmc_rate(model: str, n: int, t_short: float, repeats: int = REPEATS) -> fl
         best = float("inf")
         for _ in range(repeats):
             start = time.perf_counter()
-            r = solve_relaxation(method="dsmc", molecular_model=model, initial_state="equilibrium",
-                                 n_particles=n, n_replicas=1, t_end=t_end, n_output=2, seed=1)
+            r = solve_relaxation(
+                method="dsmc",
+                molecular_model=model,
+                initial_state="equilibrium",
+                n_particles=n,
+                n_replicas=1,
+                t_end=t_end,
+                n_output=2,
+                seed=1,
+            )
             best = min(best, time.perf_counter() - start)
         # same seed, so the collision count of each end time is the same in every repeat
         runs.append((best, r.profiles["collisions_per_particle"].value[-1] * n / 2))
@@ -48,8 +56,15 @@ def main() -> None:
     args = parser.parse_args()
     numba.set_num_threads(1)
     # compile once outside the timings
-    solve_relaxation(method="dsmc", initial_state="equilibrium", n_particles=1000, n_replicas=1, t_end=0.2,
-                     n_output=2, h_bins_per_axis=4)
+    solve_relaxation(
+        method="dsmc",
+        initial_state="equilibrium",
+        n_particles=1000,
+        n_replicas=1,
+        t_end=0.2,
+        n_output=2,
+        h_bins_per_axis=4,
+    )
     solve_relaxation(method="s_model", t_end=0.02, n_output=2)
     print("particle method, one thread (collisions per second, differenced over end times)")
     print(f"{'model':<12} {'N':>9} {'coll/s':>12} {'ratio to 1e7':>13}")
@@ -64,8 +79,15 @@ def main() -> None:
         for method in ("bgk", "s_model", "es_bgk"):
             steps = 200 if not args.quick else 50
             start = time.perf_counter()
-            solve_relaxation(method=method, initial_state="two_beams", beam_fraction=0.3, n_velocity=nv,
-                             t_end=0.01 * steps, n_output=2, time_step=0.01)
+            solve_relaxation(
+                method=method,
+                initial_state="two_beams",
+                beam_fraction=0.3,
+                n_velocity=nv,
+                t_end=0.01 * steps,
+                n_output=2,
+                time_step=0.01,
+            )
             print(f"{method:<8} {nv:>4}^3 {(time.perf_counter() - start) / steps:>10.2e}")
 
 

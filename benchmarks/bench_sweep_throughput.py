@@ -59,7 +59,9 @@ def study_dict(n: int) -> dict:
     return {
         "study": f"throughput{n}",
         "plane_channel": {
-            "problems": list(PROBLEMS), "models": list(MODELS), "gases": ["Ar"],
+            "problems": list(PROBLEMS),
+            "models": list(MODELS),
+            "gases": ["Ar"],
             "walls": [{"model": "maxwell", "alpha": a} for a in ALPHAS],
             "delta": {"start": 0.01, "stop": 100.0, "num": m},
             "resolution": {"n_space": None, "n_velocity": None, "tol": TOL},
@@ -94,8 +96,9 @@ def tasks_of(study: dict, root: Path) -> list[tuple]:
 
     s = validate_study(study)
     plan = StudyPlan(s)
-    return [(p.family, pid, dict(p.values), s[p.family], str(root / plan.point_file(pid)))
-            for pid, p in plan.points.items()]
+    return [
+        (p.family, pid, dict(p.values), s[p.family], str(root / plan.point_file(pid))) for pid, p in plan.points.items()
+    ]
 
 
 def run_pool(tasks: list[tuple], workers: int, threads: int = 1) -> tuple[float, float, float]:
@@ -106,8 +109,9 @@ def run_pool(tasks: list[tuple], workers: int, threads: int = 1) -> tuple[float,
     t0 = time.perf_counter()
     ctx = multiprocessing.get_context("spawn")
     chunk = max(1, min(16, len(tasks) // (workers * 8)))
-    with ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=_init_worker,
-                             initargs=(threads,)) as pool:
+    with ProcessPoolExecutor(
+        max_workers=workers, mp_context=ctx, initializer=_init_worker, initargs=(threads,)
+    ) as pool:
         family, pid, values, section, output = tasks[0]
         warm = [(family, pid, values, section, f"{output}.warm{i}") for i in range(workers)]
         list(pool.map(_solve_task, warm, chunksize=1))
@@ -118,10 +122,24 @@ def run_pool(tasks: list[tuple], workers: int, threads: int = 1) -> tuple[float,
     return t_start, elapsed, float(sum(times))
 
 
-def snakemake(workdir: Path, config: Path, *args: str, profiles=("--profile", "none", "--workflow-profile", "none")
-              ) -> tuple[float, str]:
-    cmd = [sys.executable, "-m", "snakemake", "--snakefile", str(REPO / "Snakefile"), "--directory", str(workdir),
-           "--configfile", str(config), *profiles, "--cores", str(CORES), *args]
+def snakemake(
+    workdir: Path, config: Path, *args: str, profiles=("--profile", "none", "--workflow-profile", "none")
+) -> tuple[float, str]:
+    cmd = [
+        sys.executable,
+        "-m",
+        "snakemake",
+        "--snakefile",
+        str(REPO / "Snakefile"),
+        "--directory",
+        str(workdir),
+        "--configfile",
+        str(config),
+        *profiles,
+        "--cores",
+        str(CORES),
+        *args,
+    ]
     t0 = time.perf_counter()
     r = subprocess.run(cmd, capture_output=True, text=True)
     if r.returncode != 0:
@@ -154,12 +172,18 @@ def bench_size(n: int, tmp: Path) -> None:
     lines = re.findall(r"knudsweep: batch (\S+): (\d+) points?, (\d+) solved", out)
     solved = sum(int(x[2]) for x in lines)
     print(f"\n{n:,} points ({len(lines)} batch job(s), {solved} solved by them)")
-    print(f"   direct pool, {CORES} processes: {t_direct:8.1f} s  -> {60 * n / t_direct:9.0f} points/min "
-          f"(per-point solve + write summed {solver_s:.1f} s; pool start-up {t_start:.1f} s more)")
-    print(f"   Snakemake, batch files:     {t_smk:8.1f} s  -> {60 * n / t_smk:9.0f} points/min "
-          f"(everything: Snakemake start-up, DAG, job start, imports, solve, write)")
-    print(f"   Snakemake / direct:         {t_smk / t_direct:8.2f}  "
-          f"(/ direct with its start-up: {t_smk / (t_direct + t_start):.2f})")
+    print(
+        f"   direct pool, {CORES} processes: {t_direct:8.1f} s  -> {60 * n / t_direct:9.0f} points/min "
+        f"(per-point solve + write summed {solver_s:.1f} s; pool start-up {t_start:.1f} s more)"
+    )
+    print(
+        f"   Snakemake, batch files:     {t_smk:8.1f} s  -> {60 * n / t_smk:9.0f} points/min "
+        f"(everything: Snakemake start-up, DAG, job start, imports, solve, write)"
+    )
+    print(
+        f"   Snakemake / direct:         {t_smk / t_direct:8.2f}  "
+        f"(/ direct with its start-up: {t_smk / (t_direct + t_start):.2f})"
+    )
     print(f"   gather into sweep.nc (Snakemake job incl. start-up): {t_gather:.1f} s")
 
 
@@ -169,16 +193,23 @@ def bench_inside_batch(tmp: Path) -> None:
         "plane channel, 96 points": study_dict(96),
         "tube, 12 points": {
             "study": "inside",
-            "tube_duct": {"geometries": [{"shape": "tube"}], "problems": ["poiseuille"], "models": ["bgk"], "gases": ["Ar"],
-                          "walls": [{"model": "maxwell", "alpha": 1.0}, {"model": "maxwell", "alpha": 0.9}],
-                          "delta": [0.01, 0.1, 1.0, 3.0, 10.0, 30.0]},
+            "tube_duct": {
+                "geometries": [{"shape": "tube"}],
+                "problems": ["poiseuille"],
+                "models": ["bgk"],
+                "gases": ["Ar"],
+                "walls": [{"model": "maxwell", "alpha": 1.0}, {"model": "maxwell", "alpha": 0.9}],
+                "delta": [0.01, 0.1, 1.0, 3.0, 10.0, 30.0],
+            },
         },
     }
     for label, study in cases.items():
         _, t_proc, _ = run_pool(tasks_of(study, tmp / "inside-proc"), CORES, 1)
         _, t_thread, _ = run_pool(tasks_of(study, tmp / "inside-thread"), 1, CORES)
-        print(f"   {label:26s}: processes {t_proc:6.1f} s, threads {t_thread:6.1f} s  "
-              f"(threads / processes = {t_thread / t_proc:.2f})")
+        print(
+            f"   {label:26s}: processes {t_proc:6.1f} s, threads {t_thread:6.1f} s  "
+            f"(threads / processes = {t_thread / t_proc:.2f})"
+        )
 
 
 def bench_demo(tmp: Path) -> None:
@@ -190,8 +221,21 @@ def bench_demo(tmp: Path) -> None:
     work = tmp / "demo"
     exe = Path(sys.executable).with_name("knudsweep")
     t0 = time.perf_counter()
-    r = subprocess.run([str(exe), "run", "--cores", str(CORES), "--directory", str(work),
-                        "--configfile", str(REPO / "config/config.yaml")], cwd=REPO, capture_output=True, text=True)
+    r = subprocess.run(
+        [
+            str(exe),
+            "run",
+            "--cores",
+            str(CORES),
+            "--directory",
+            str(work),
+            "--configfile",
+            str(REPO / "config/config.yaml"),
+        ],
+        cwd=REPO,
+        capture_output=True,
+        text=True,
+    )
     elapsed = time.perf_counter() - t0
     if r.returncode != 0:
         raise SystemExit(f"knudsweep run failed:\n{r.stderr[-3000:]}")
@@ -200,10 +244,14 @@ def bench_demo(tmp: Path) -> None:
     for fam in plan.families:
         with xr.open_dataset(work / plan.sweep_file, group=fam) as ds:
             solver += float(np.nansum(ds["wall_time"].values))
-    print(f"\n4. demo study end to end ({len(plan.points)} points, {len(plan.batches)} batch jobs, "
-          f"solve + gather + tables + figures, warm numba cache)")
-    print(f"   knudsweep run --cores {CORES}: {elapsed:6.1f} s; solver time recorded in sweep.nc {solver:.1f} s "
-          f"({solver / CORES:.1f} s on {CORES} cores); run / (solver / cores) = {elapsed / (solver / CORES):.2f}")
+    print(
+        f"\n4. demo study end to end ({len(plan.points)} points, {len(plan.batches)} batch jobs, "
+        f"solve + gather + tables + figures, warm numba cache)"
+    )
+    print(
+        f"   knudsweep run --cores {CORES}: {elapsed:6.1f} s; solver time recorded in sweep.nc {solver:.1f} s "
+        f"({solver / CORES:.1f} s on {CORES} cores); run / (solver / cores) = {elapsed / (solver / CORES):.2f}"
+    )
 
 
 def main() -> None:

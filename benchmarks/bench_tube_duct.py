@@ -77,9 +77,16 @@ def main():
         default_points()
         return
     print(f"numba threads: {numba.get_num_threads()}   tol = {args.tol:g}   plain cap = {args.plain_cap}")
-    print(f"{'case':<28s} {'G':>12s} {'it_acc':>6s} {'t_acc/s':>8s} {'it_plain':>12s} {'t_plain/s':>10s}      {'it ratio':>9s} {'t ratio':>9s}")
+    print(
+        f"{'case':<28s} {'G':>12s} {'it_acc':>6s} {'t_acc/s':>8s} {'it_plain':>12s} {'t_plain/s':>10s}      {'it ratio':>9s} {'t ratio':>9s}"
+    )
     for d in (0.01, 1.0, 10.0, 100.0, 1000.0):
-        run(f"tube poiseuille d={d:g}", lambda d=d, **kw: solve_tube("poiseuille", **{"delta": d, **kw}), args.tol, args.plain_cap)
+        run(
+            f"tube poiseuille d={d:g}",
+            lambda d=d, **kw: solve_tube("poiseuille", **{"delta": d, **kw}),
+            args.tol,
+            args.plain_cap,
+        )
     for d in (1.0, 10.0, 100.0, 1000.0):
         run(
             f"duct A=2 poiseuille d={d:g}",
@@ -91,14 +98,18 @@ def main():
     # sweep; the duct lags it by one sweep like the Maxwell wall.
     cl = CercignaniLampisWall(0.8, 0.5)
     for d in (1.0, 100.0):
-        run(f"tube CL(0.8,0.5) d={d:g}", lambda d=d, **kw: solve_tube("poiseuille", **{"delta": d, "wall": cl, **kw}), args.tol, args.plain_cap)
+        run(
+            f"tube CL(0.8,0.5) d={d:g}",
+            lambda d=d, **kw: solve_tube("poiseuille", **{"delta": d, "wall": cl, **kw}),
+            args.tol,
+            args.plain_cap,
+        )
         run(
             f"duct A=2 CL(0.8,0.5) d={d:g}",
             lambda d=d, **kw: solve_duct("poiseuille", **{"delta": d, "aspect_ratio": 2.0, "wall": cl, **kw}),
             args.tol,
             args.plain_cap,
         )
-
 
     default_points()
 

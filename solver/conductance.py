@@ -112,7 +112,7 @@ def compute_table(
     deltas=None,
     *,
     model: str = "bgk",
-    wall=MaxwellWall(1.0),
+    wall=MaxwellWall(1.0),  # noqa: B008  (frozen dataclass, safe default)
     aspect_ratio: float = 1.0,
     n_space: int | None = None,
     n_velocity: int | None = None,
@@ -180,7 +180,9 @@ def hagen_poiseuille_conductance(gas, temperature, pressure, radius, length) -> 
     return math.pi * a**4 * _positive("pressure", pressure) / (8.0 * mu * _positive("length", length))
 
 
-def conductance(table: FlowRateTable, gas, temperature, pressure, length, *, radius=None, width=None, height=None) -> dict:
+def conductance(
+    table: FlowRateTable, gas, temperature, pressure, length, *, radius=None, width=None, height=None
+) -> dict:
     """Conductance of a long tube/duct in the linear regime at mean pressure p.
 
     Returns a dict: delta, G_P, mass_flow_per_pa [kg/(s Pa)], conductance_m3_s,
@@ -259,15 +261,21 @@ def flow_at_pressure_ratio(
             return y[0] - math.log(1e-6 * min(p_in, p_out))
 
         hit_floor.terminal = True
-        sol = solve_ivp(rhs, (0.0, length), [math.log(p_in)], rtol=1e-9, atol=1e-12, events=hit_floor, dense_output=True)
+        sol = solve_ivp(
+            rhs, (0.0, length), [math.log(p_in)], rtol=1e-9, atol=1e-12, events=hit_floor, dense_output=True
+        )
         if sol.status == 1:
             return -1e3, sol  # pressure collapsed: mass flow far too large
         return float(sol.y[0, -1]) - math.log(p_out), sol
 
     # bracket: linear estimate at the mean pressure, widened geometrically
     t_mid = 0.5 * (t_in + t_out)
-    ref = s * a * max(p_in, p_out) / (gasmod.most_probable_speed(gas, t_mid) * length) * (
-        table.g(gasmod.delta_from_pressure(gas, max(p_in, p_out), t_mid, a))[0] + 1.0
+    ref = (
+        s
+        * a
+        * max(p_in, p_out)
+        / (gasmod.most_probable_speed(gas, t_mid) * length)
+        * (table.g(gasmod.delta_from_pressure(gas, max(p_in, p_out), t_mid, a))[0] + 1.0)
     )
     lo, hi = -ref, ref
     for _ in range(60):
@@ -286,7 +294,9 @@ def flow_at_pressure_ratio(
     return {"mass_flow": m_dot, "x": x, "p": p, "conductance_m3_s": cond}
 
 
-def thermomolecular_pressure_ratio(table: FlowRateTable, gas, t_cold, t_hot, p_cold, *, radius=None, width=None, height=None) -> float:
+def thermomolecular_pressure_ratio(
+    table: FlowRateTable, gas, t_cold, t_hot, p_cold, *, radius=None, width=None, height=None
+) -> float:
     """p_hot / p_cold at zero net flow: d ln p / d ln T = G_T / G_P (check-values 6).
 
     Integrated from the cold end (p_cold, t_cold) to t_hot; independent of the

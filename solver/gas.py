@@ -92,17 +92,22 @@ def get_gas(name: str) -> GasData:
     """Return the data of gas ``name``; an unknown name lists the known ones."""
     table = _load_table(str(_gas_file()))
     if name not in table:
-        raise UnknownGasError(
-            f"gas: unknown gas {name!r}; known gases are {', '.join(table)}"
-        )
+        raise UnknownGasError(f"gas: unknown gas {name!r}; known gases are {', '.join(table)}")
     return table[name]
 
 
 def gas_record(name: str) -> dict[str, float]:
     """The numbers of gas ``name`` that results depend on (SI), for identities and provenance."""
     g = get_gas(name)
-    return {"mass": g.mass, "mu_ref": g.mu_ref, "omega": g.omega, "d_vhs": g.d_vhs, "d_vss": g.d_vss,
-            "alpha_vss": g.alpha_vss, "t_ref": g.t_ref}
+    return {
+        "mass": g.mass,
+        "mu_ref": g.mu_ref,
+        "omega": g.omega,
+        "d_vhs": g.d_vhs,
+        "d_vss": g.d_vss,
+        "alpha_vss": g.alpha_vss,
+        "t_ref": g.t_ref,
+    }
 
 
 def _as_gas(gas: GasData | str) -> GasData:
@@ -162,17 +167,13 @@ def equivalent_free_path(gas: GasData | str, pressure: float, temperature: float
     return viscosity(gas, temperature) * most_probable_speed(gas, temperature) / p
 
 
-def delta_from_pressure(
-    gas: GasData | str, pressure: float, temperature: float, length: float
-) -> float:
+def delta_from_pressure(gas: GasData | str, pressure: float, temperature: float, length: float) -> float:
     """Rarefaction parameter delta = p a / (mu v0) for length scale a [m]."""
     a = _check_positive("length", length)
     return a / equivalent_free_path(gas, pressure, temperature)
 
 
-def pressure_from_delta(
-    gas: GasData | str, delta: float, temperature: float, length: float
-) -> float:
+def pressure_from_delta(gas: GasData | str, delta: float, temperature: float, length: float) -> float:
     """Pressure [Pa] at which the length a [m] has rarefaction parameter delta."""
     d = _check_positive("delta", delta)
     a = _check_positive("length", length)
@@ -191,9 +192,7 @@ def kn_from_delta(delta: float) -> float:
 
 def number_density(pressure: float, temperature: float) -> float:
     """Ideal-gas number density n = p / (k T) in 1/m^3."""
-    return _check_positive("pressure", pressure) / (
-        BOLTZMANN * _check_positive("temperature", temperature)
-    )
+    return _check_positive("pressure", pressure) / (BOLTZMANN * _check_positive("temperature", temperature))
 
 
 def mean_collision_time(gas: GasData | str, pressure: float, temperature: float) -> float:

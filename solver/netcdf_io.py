@@ -121,8 +121,18 @@ POINT_FORMAT = "NETCDF3_64BIT_OFFSET"
 
 
 # Global attributes that a file's numbers depend on for their meaning; they enter its checksum.
-CHECKED_ATTRS = ("family", "problem", "parameters", "status", "status_reason", "code_version",
-                 "point_layout", "point_id", "point_values", "batch")
+CHECKED_ATTRS = (
+    "family",
+    "problem",
+    "parameters",
+    "status",
+    "status_reason",
+    "code_version",
+    "point_layout",
+    "point_id",
+    "point_values",
+    "batch",
+)
 CHECKSUM_ATTR = "content_sha256"
 
 
@@ -206,9 +216,7 @@ def write_dataset(ds: xr.Dataset, path: str | os.PathLike) -> Path:
     return atomic_replace(path, lambda tmp: write_point_netcdf(ds, tmp))
 
 
-def write_result(
-    result: SolverResult, path: str | os.PathLike, provenance: dict[str, Any] | None = None
-) -> Path:
+def write_result(result: SolverResult, path: str | os.PathLike, provenance: dict[str, Any] | None = None) -> Path:
     """Write ``result`` as a CF netCDF file at ``path`` (atomic)."""
     return write_dataset(to_dataset(result, provenance), path)
 

@@ -156,8 +156,14 @@ def choose_resolution(
         errors, ratio = estimate_error(values, history[-2][1], coarser, assumed_ratio)
         rel = relative_error(values, errors)
         choice = ResolutionChoice(
-            n_space=int(level[0]), n_velocity=int(level[1]), values=values, error_estimate=errors,
-            relative_estimate=rel, ratio=ratio, target=target, met=rel <= target,
+            n_space=int(level[0]),
+            n_velocity=int(level[1]),
+            values=values,
+            error_estimate=errors,
+            relative_estimate=rel,
+            ratio=ratio,
+            target=target,
+            met=rel <= target,
             levels=[lv for lv, _ in history],
         )
         if choice.met:
@@ -255,7 +261,12 @@ def solve_with_estimate(
                 fine_v = result_values(res)
                 errors, ratio = estimate_error(fine_v, result_values(coarse), assumed_ratio=assumed_ratio)
                 choice = ResolutionChoice(
-                    n_space, n_velocity, fine_v, errors, relative_error(fine_v, errors), ratio,
+                    n_space,
+                    n_velocity,
+                    fine_v,
+                    errors,
+                    relative_error(fine_v, errors),
+                    ratio,
                     levels=[coarse_level, (n_space, n_velocity)],
                 )
                 attach_estimate(res, choice, coarse_how)
@@ -336,14 +347,30 @@ class ChannelSolver(Protocol):
         ...
 
 
-def solve_channel(problem: ChannelSolver, n_space: int, n_velocity: int, *, tol: float, accuracy: float | None,
-                  error_estimate: bool, t_start: float):
+def solve_channel(
+    problem: ChannelSolver,
+    n_space: int,
+    n_velocity: int,
+    *,
+    tol: float,
+    accuracy: float | None,
+    error_estimate: bool,
+    t_start: float,
+):
     """:func:`solve_with_estimate` on a :class:`ChannelSolver` at the default or given (n_space, n_velocity)."""
     return solve_with_estimate(
-        problem.solve_once, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate,
+        problem.solve_once,
+        n_space,
+        n_velocity,
+        tol=tol,
+        accuracy=accuracy,
+        error_estimate=error_estimate,
         ladder=problem.resolution_ladder() if accuracy is not None else None,
-        coarse_level=problem.coarser_level(n_space, n_velocity), t_start=t_start,
-        assumed_ratio=problem.assumed_ratio, coarse_how=problem.coarse_how, ladder_how=problem.ladder_how,
+        coarse_level=problem.coarser_level(n_space, n_velocity),
+        t_start=t_start,
+        assumed_ratio=problem.assumed_ratio,
+        coarse_how=problem.coarse_how,
+        ladder_how=problem.ladder_how,
     )
 
 

@@ -30,9 +30,7 @@ class Quantity:
         self.value = np.asarray(self.value, dtype=float) if not np.isscalar(self.value) else float(self.value)
         ndim = 0 if np.isscalar(self.value) else np.ndim(self.value)
         if len(self.dims) != ndim:
-            raise ValueError(
-                f"dims: {self.long_name or 'quantity'} has {ndim} dimensions but dims={self.dims}"
-            )
+            raise ValueError(f"dims: {self.long_name or 'quantity'} has {ndim} dimensions but dims={self.dims}")
 
 
 @dataclass

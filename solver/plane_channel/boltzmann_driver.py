@@ -64,7 +64,6 @@ GRADED_BELOW = 0.5
 _SLIP_LENGTH = SIGMA_P_BGK  # knudsweep.solver.limits
 
 
-
 def default_n_speed(delta: float) -> int:
     """Speed nodes: 8 (velocity-convergence study in tests/verification/test_plane_channel_boltzmann.py)."""
     return 8
@@ -148,7 +147,9 @@ def solve_plane_channel_boltzmann(
     try:
         delta = float(delta)
     except (TypeError, ValueError):
-        raise ValueError(f"delta: must be a number in [{DELTA_RANGE[0]:g}, {DELTA_RANGE[1]:g}], got {delta!r}") from None
+        raise ValueError(
+            f"delta: must be a number in [{DELTA_RANGE[0]:g}, {DELTA_RANGE[1]:g}], got {delta!r}"
+        ) from None
     if not (DELTA_RANGE[0] <= delta <= DELTA_RANGE[1]):
         raise ValueError(f"delta: must be in [{DELTA_RANGE[0]:g}, {DELTA_RANGE[1]:g}], got {delta!r}")
     if molecule not in MOLECULES:
@@ -172,19 +173,33 @@ def solve_plane_channel_boltzmann(
     accuracy = check_estimate_options(accuracy, error_estimate, n_space, n_velocity)
     if not isinstance(accelerate, bool):
         raise ValueError(f"accelerate: must be True or False, got {accelerate!r}")
-    n_space = grids.default_n_space(delta) if n_space is None else _check_int("n_space", n_space, grids.MIN_SPACE, grids.MAX_SPACE)
-    n_velocity = default_n_speed(delta) if n_velocity is None else _check_int("n_velocity", n_velocity, MIN_SPEED, MAX_SPEED)
+    n_space = (
+        grids.default_n_space(delta)
+        if n_space is None
+        else _check_int("n_space", n_space, grids.MIN_SPACE, grids.MAX_SPACE)
+    )
+    n_velocity = (
+        default_n_speed(delta) if n_velocity is None else _check_int("n_velocity", n_velocity, MIN_SPEED, MAX_SPEED)
+    )
     if max_iter is None:
         max_iter = default_max_iter(accelerate)
     else:
         max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
 
     def run(ns, nv, it_tol):
-        return _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, ns, nv, max_iter, it_tol, accelerate)
+        return _solve_once(
+            problem, delta, molecule, omega, lower_wall, upper_wall, ns, nv, max_iter, it_tol, accelerate
+        )
 
     return solve_with_estimate(
-        run, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate,
-        ladder=resolution_ladder(delta), coarse_level=(max(grids.MIN_SPACE, n_space // 2), _coarser_speed(n_velocity)),
+        run,
+        n_space,
+        n_velocity,
+        tol=tol,
+        accuracy=accuracy,
+        error_estimate=error_estimate,
+        ladder=resolution_ladder(delta),
+        coarse_level=(max(grids.MIN_SPACE, n_space // 2), _coarser_speed(n_velocity)),
         t_start=t0,
         coarse_how="one coarser ladder step (half the cells, 3/4 of the speed nodes)",
         ladder_how="accuracy-driven refinement along boltzmann_driver.resolution_ladder",
@@ -265,7 +280,9 @@ def _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, n_space
             r = ((np.concatenate([W, W]) * nu_full) @ dF).reshape(n_space, 2)
             r0[:] = r[:, 0]
             r1[:] = r[:, 1]
-            kernels._solve_diffusion_correction(wy, 1.0 / delta, robin_low, robin_up, r0, r1, 2.0 * kd, 0.0, 0, dummy, dummy, x)
+            kernels._solve_diffusion_correction(
+                wy, 1.0 / delta, robin_low, robin_up, r0, r1, 2.0 * kd, 0.0, 0, dummy, dummy, x
+            )
             F[0, :, :, :, 0] += (x[:-1] + x[1:])[None, None, :]
             F[0, :, :, :, 1] += (x[1:] - x[:-1])[None, None, :]
         moments(M)
@@ -294,7 +311,10 @@ def _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, n_space
         control.fail("non-finite coefficient")
     convergence = control.record()
     parameters = {
-        "problem": problem, "delta": delta, "kinetic_model": f"boltzmann_{molecule}", "prandtl": lb.prandtl_number(ns, omega),
+        "problem": problem,
+        "delta": delta,
+        "kinetic_model": f"boltzmann_{molecule}",
+        "prandtl": lb.prandtl_number(ns, omega),
         **plate_parameters(lower_wall, upper_wall),
     }
     discretization = {
@@ -303,8 +323,11 @@ def _solve_once(problem, delta, molecule, omega, lower_wall, upper_wall, n_space
         "space_scheme": "linear discontinuous Galerkin (upwind), profiles are cell averages",
         **vs.description,
         "n_velocity": int(n_speed),
-        "collision_operator": ("linearized Boltzmann, hard spheres" if molecule == "hard_sphere" else
-                               f"linearized Boltzmann, VHS omega = {omega:g}")
+        "collision_operator": (
+            "linearized Boltzmann, hard spheres"
+            if molecule == "hard_sphere"
+            else f"linearized Boltzmann, VHS omega = {omega:g}"
+        )
         + ", kernel decomposition with Legendre moments (linearized_boltzmann)",
         "viscosity_factor": kappa_hs,
         "tol": tol,

@@ -81,7 +81,9 @@ def cercignani_lampis_normal_matrix(c: np.ndarray, w: np.ndarray, alpha_n: float
     return A / flux[:, None], defect
 
 
-def reflection_matrix(wall: MaxwellWall | CercignaniLampisWall, degree: int, c: np.ndarray, w: np.ndarray) -> tuple[np.ndarray, float]:
+def reflection_matrix(
+    wall: MaxwellWall | CercignaniLampisWall, degree: int, c: np.ndarray, w: np.ndarray
+) -> tuple[np.ndarray, float]:
     """R_degree for ``wall`` on nodes (c, w), and the kernel defect (0 for Maxwell)."""
     m = c.size
     if isinstance(wall, MaxwellWall):

@@ -9,10 +9,12 @@ from dataclasses import dataclass
 import numpy as np
 
 from knudsweep.solver.iteration import default_max_iter
-from knudsweep.solver.kinetic_models import get_model
+from knudsweep.solver.kinetic_models import (
+    BOLTZMANN_MODELS,  # linearized Boltzmann names -> molecule
+    get_model,
+)
 from knudsweep.solver.limits import SIGMA_P_BGK, TEMPERATURE_JUMP_BGK
 from knudsweep.solver.plane_channel import grids, kernels
-from knudsweep.solver.kinetic_models import BOLTZMANN_MODELS  # linearized Boltzmann names -> molecule
 from knudsweep.solver.plane_channel.boundary import wall_operators
 from knudsweep.solver.plane_channel.problems import PROBLEMS, build_tables, coefficients_and_profiles
 from knudsweep.solver.resolution import check_estimate_options, solve_channel
@@ -66,6 +68,7 @@ def _wall_slip_factor(wall, energy: bool = False) -> float:
     a = 0.5 * (wall.alpha_n + wall.alpha_t * (2.0 - wall.alpha_t))
     return (2.0 - a) / a
 
+
 _STATUS_REASON = {
     kernels.MAX_ITER_CODE: "max_iter reached before the error estimate fell below tol",
     kernels.NOT_FINITE_CODE: "non-finite values (NaN or inf) in the iteration",
@@ -84,8 +87,11 @@ def plate_parameters(lower_wall, upper_wall) -> dict:
     ``wall_model_lower``, ``alpha_lower`` (or ``alpha_t_lower``, ``alpha_n_lower``), the same ``_upper``:
     the tube and the duct, with one wall, store the same names without a suffix.
     """
-    return {f"{key}_{side}": value for side, wall in (("lower", lower_wall), ("upper", upper_wall))
-            for key, value in wall.describe().items()}
+    return {
+        f"{key}_{side}": value
+        for side, wall in (("lower", lower_wall), ("upper", upper_wall))
+        for key, value in wall.describe().items()
+    }
 
 
 def check_inputs(problem, delta, model, lower_wall, upper_wall, tol):
@@ -94,7 +100,9 @@ def check_inputs(problem, delta, model, lower_wall, upper_wall, tol):
     try:
         delta = float(delta)
     except (TypeError, ValueError):
-        raise ValueError(f"delta: must be a number in [{DELTA_RANGE[0]:g}, {DELTA_RANGE[1]:g}], got {delta!r}") from None
+        raise ValueError(
+            f"delta: must be a number in [{DELTA_RANGE[0]:g}, {DELTA_RANGE[1]:g}], got {delta!r}"
+        ) from None
     if not (DELTA_RANGE[0] <= delta <= DELTA_RANGE[1]):
         raise ValueError(f"delta: must be in [{DELTA_RANGE[0]:g}, {DELTA_RANGE[1]:g}], got {delta!r}")
     kinetic = get_model(model)
@@ -166,8 +174,20 @@ def solve_plane_channel(
     A run that does not converge is returned with status "failed" and a reason.
     """
     if isinstance(model, str) and model in BOLTZMANN_MODELS:
-        return _solve_boltzmann(problem, model, delta, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol,
-                                accelerate, accuracy, error_estimate)
+        return _solve_boltzmann(
+            problem,
+            model,
+            delta,
+            lower_wall,
+            upper_wall,
+            n_space,
+            n_velocity,
+            max_iter,
+            tol,
+            accelerate,
+            accuracy,
+            error_estimate,
+        )
     t0 = time.perf_counter()
     if upper_wall is None:
         upper_wall = lower_wall
@@ -189,8 +209,9 @@ def solve_plane_channel(
         max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
 
     channel = PlaneChannelFlow(problem, delta, kinetic, lower_wall, upper_wall, max_iter, accelerate)
-    return solve_channel(channel, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate,
-                         t_start=t0)
+    return solve_channel(
+        channel, n_space, n_velocity, tol=tol, accuracy=accuracy, error_estimate=error_estimate, t_start=t0
+    )
 
 
 @dataclass(frozen=True)
@@ -216,12 +237,34 @@ class PlaneChannelFlow:
         return max(4, n_space // 2), grids.coarser_velocity(self.delta, n_velocity)
 
     def solve_once(self, n_space: int, n_velocity: int, tol: float) -> SolverResult:
-        return _solve_once(self.problem, self.delta, self.kinetic, self.lower_wall, self.upper_wall, n_space,
-                           n_velocity, self.max_iter, tol, self.accelerate)
+        return _solve_once(
+            self.problem,
+            self.delta,
+            self.kinetic,
+            self.lower_wall,
+            self.upper_wall,
+            n_space,
+            n_velocity,
+            self.max_iter,
+            tol,
+            self.accelerate,
+        )
 
 
-def _solve_boltzmann(problem, model, delta, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol, accelerate,
-                     accuracy, error_estimate) -> SolverResult:
+def _solve_boltzmann(
+    problem,
+    model,
+    delta,
+    lower_wall,
+    upper_wall,
+    n_space,
+    n_velocity,
+    max_iter,
+    tol,
+    accelerate,
+    accuracy,
+    error_estimate,
+) -> SolverResult:
     """The linearized Boltzmann equation (``boltzmann_driver``): Poiseuille and thermal creep, Maxwell walls."""
     from knudsweep.solver.plane_channel import boltzmann_driver
 
@@ -229,19 +272,34 @@ def _solve_boltzmann(problem, model, delta, lower_wall, upper_wall, n_space, n_v
         raise ValueError(f"problem: model {model} solves {', '.join(boltzmann_driver.PROBLEMS)} only, got {problem!r}")
     for name, wall in (("lower_wall", lower_wall), ("upper_wall", upper_wall)):
         if wall is not None and not isinstance(wall, MaxwellWall):
-            raise ValueError(f"{name}: model {model} takes Maxwell walls only (MaxwellWall, alpha in [0.01, 1]), "
-                             f"got {type(wall).__name__}")
+            raise ValueError(
+                f"{name}: model {model} takes Maxwell walls only (MaxwellWall, alpha in [0.01, 1]), "
+                f"got {type(wall).__name__}"
+            )
     return boltzmann_driver.solve_plane_channel_boltzmann(
-        problem, delta=delta, molecule=BOLTZMANN_MODELS[model], lower_wall=lower_wall, upper_wall=upper_wall,
-        n_space=n_space, n_velocity=n_velocity, max_iter=max_iter, tol=tol, accelerate=accelerate,
-        accuracy=accuracy, error_estimate=error_estimate,
+        problem,
+        delta=delta,
+        molecule=BOLTZMANN_MODELS[model],
+        lower_wall=lower_wall,
+        upper_wall=upper_wall,
+        n_space=n_space,
+        n_velocity=n_velocity,
+        max_iter=max_iter,
+        tol=tol,
+        accelerate=accelerate,
+        accuracy=accuracy,
+        error_estimate=error_estimate,
     )
 
 
-def _solve_once(problem, delta, kinetic, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol, accelerate) -> SolverResult:
+def _solve_once(
+    problem, delta, kinetic, lower_wall, upper_wall, n_space, n_velocity, max_iter, tol, accelerate
+) -> SolverResult:
     """One solve at a fixed resolution (inputs already checked)."""
     t0 = time.perf_counter()
-    accel_kind, kappa, robin_low, robin_up, lag_factor = acceleration_parameters(problem, kinetic, delta, lower_wall, upper_wall)
+    accel_kind, kappa, robin_low, robin_up, lag_factor = acceleration_parameters(
+        problem, kinetic, delta, lower_wall, upper_wall
+    )
     if not accelerate:
         accel_kind = 0
 
@@ -265,9 +323,31 @@ def _solve_once(problem, delta, kinetic, lower_wall, upper_wall, n_space, n_velo
         for a in range(R_up.shape[0]):
             G[a] = np.linalg.inv(eye - R_up[a] @ (T[:, None] * R_low[a]) * T[None, :])
     iterations, code, estimate, rho = kernels.source_iteration(
-        F, *cell, tables.P, tables.Q, tables.src, d, R_low, R_up,
-        tables.Fw_low, tables.Fw_up, wy, tables.fix_mass, tables.primary, tables.integral_floor, max_iter, tol, history,
-        accel_kind, kappa, lag_factor, robin_low, robin_up, close_walls, T, G,
+        F,
+        *cell,
+        tables.P,
+        tables.Q,
+        tables.src,
+        d,
+        R_low,
+        R_up,
+        tables.Fw_low,
+        tables.Fw_up,
+        wy,
+        tables.fix_mass,
+        tables.primary,
+        tables.integral_floor,
+        max_iter,
+        tol,
+        history,
+        accel_kind,
+        kappa,
+        lag_factor,
+        robin_low,
+        robin_up,
+        close_walls,
+        T,
+        G,
     )
     M = np.zeros((tables.P.shape[0], n_space, 2))
     kernels.compute_moments(F, tables.P, M)

@@ -130,7 +130,9 @@ def velocity_set(delta: float, n_velocity: int) -> tuple[np.ndarray, np.ndarray,
     panels = max(2, (n_velocity - outer) // points)
     decades = math.log10(split / smallest)
     per_decade = (panels - 1 - 1e-9) / decades  # so that ceil() gives panels - 1
-    c, w = graded_half_range(outer, split=split, smallest=smallest, points_per_panel=points, panels_per_decade=per_decade)
+    c, w = graded_half_range(
+        outer, split=split, smallest=smallest, points_per_panel=points, panels_per_decade=per_decade
+    )
     desc = {
         "velocity_rule": "graded_half_range",
         "n_velocity": int(c.size),

@@ -417,9 +417,37 @@ def _synthetic_step(M, M_old, accel_kind, d, kappa, lag_factor, robin_low, robin
 
 
 @njit(cache=True)
-def source_iteration(F, g, A11, A12, A21, A22, P, Q, src, d, R_low, R_up, Fw_low, Fw_up, wy, fix_mass,
-                     primary, integral_floor, max_iter, tol, history, accel_kind, kappa, lag_factor, robin_low, robin_up,
-                     close_walls, T, G):
+def source_iteration(
+    F,
+    g,
+    A11,
+    A12,
+    A21,
+    A22,
+    P,
+    Q,
+    src,
+    d,
+    R_low,
+    R_up,
+    Fw_low,
+    Fw_up,
+    wy,
+    fix_mass,
+    primary,
+    integral_floor,
+    max_iter,
+    tol,
+    history,
+    accel_kind,
+    kappa,
+    lag_factor,
+    robin_low,
+    robin_up,
+    close_walls,
+    T,
+    G,
+):
     """Source iteration to convergence, optionally with synthetic acceleration.
 
     One loop: moment -> gain (sources) -> kinetic sweep [-> exact

@@ -77,7 +77,8 @@ from functools import lru_cache
 
 import numba
 import numpy as np
-from scipy.special import erf, gamma as gamma_fn, hyp1f1
+from scipy.special import erf, hyp1f1
+from scipy.special import gamma as gamma_fn
 
 from knudsweep.solver.quadrature import lanczos_recurrence
 
@@ -134,7 +135,15 @@ def _gain_factor_one(s, b, beta):
         while True:
             for q in range(_GX.size):
                 v = lo + 0.5 * (hi - lo) * (_GX[q] + 1.0)
-                total += 0.5 * (hi - lo) * _GW[q] * v * (s * s + v * v) ** beta * math.exp(-(v - b) ** 2) * _i0e(2.0 * b * v)
+                total += (
+                    0.5
+                    * (hi - lo)
+                    * _GW[q]
+                    * v
+                    * (s * s + v * v) ** beta
+                    * math.exp(-((v - b) ** 2))
+                    * _i0e(2.0 * b * v)
+                )
             lo = hi
             if lo >= 1.0:
                 break
@@ -148,7 +157,7 @@ def _gain_factor_one(s, b, beta):
         a = lo + p * width
         for q in range(_GX.size):
             v = a + 0.5 * width * (_GX[q] + 1.0)
-            total += 0.5 * width * _GW[q] * v * (s * s + v * v) ** beta * math.exp(-(v - b) ** 2) * _i0e(2.0 * b * v)
+            total += 0.5 * width * _GW[q] * v * (s * s + v * v) ** beta * math.exp(-((v - b) ** 2)) * _i0e(2.0 * b * v)
     return 2.0 * total
 
 
@@ -176,7 +185,7 @@ def collision_frequency(c: np.ndarray, omega: float = 0.5, general: bool = False
         return math.pi * gamma_fn(1.5 + 0.5 * g) / gamma_fn(1.5) * hyp1f1(-0.5 * g, 1.5, -(c**2))
     small = c < 1e-6
     cs = np.where(small, 1.0, c)
-    nu = math.pi * (np.exp(-cs**2) / SQRT_PI + (cs + 0.5 / cs) * erf(cs))
+    nu = math.pi * (np.exp(-(cs**2)) / SQRT_PI + (cs + 0.5 / cs) * erf(cs))
     # series at c -> 0: 2 sqrt(pi) (1 + c^2 / 3 + ...)
     return np.where(small, 2.0 * SQRT_PI * (1.0 + c**2 / 3.0), nu)
 
@@ -291,8 +300,9 @@ def _lagrange_matrix(nodes: np.ndarray, x: np.ndarray) -> np.ndarray:
 
 
 @lru_cache(maxsize=16)
-def speed_matrices(n_speed: int, n_legendre: int, omega: float = 0.5, general: bool = False
-                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+def speed_matrices(
+    n_speed: int, n_legendre: int, omega: float = 0.5, general: bool = False
+) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """(c, wc, nu, M) with M[l-1, i, j] = int_0^inf (c'^3 / c_i) k_l(c_i, c') ell_j(c') dc', l = 1..n_legendre.
 
     omega: VHS viscosity index; ``general``: hard spheres through the VHS route (a check)."""
@@ -350,13 +360,15 @@ class VelocitySet:
         return np.outer(self.wc * self.c**2, self.wmu * (1.0 - self.mu**2)).ravel()
 
 
-def velocity_set(n_speed: int, n_mu: int, n_legendre: int, graded_smallest: float | None = None,
-                 omega: float = 0.5) -> VelocitySet:
+def velocity_set(
+    n_speed: int, n_mu: int, n_legendre: int, graded_smallest: float | None = None, omega: float = 0.5
+) -> VelocitySet:
     omega = check_omega(omega)
     c, wc, nu, _ = speed_matrices(n_speed, n_legendre, omega)
     mu, wmu = direction_rule(n_mu, graded_smallest)
     desc = {
-        "velocity_rule": "speed Gauss (c^2 exp(-c^2)) x direction double-Gauss" + (" graded" if graded_smallest else ""),
+        "velocity_rule": "speed Gauss (c^2 exp(-c^2)) x direction double-Gauss"
+        + (" graded" if graded_smallest else ""),
         "n_speed": int(n_speed),
         "n_direction": int(2 * mu.size),
         "n_legendre": int(n_legendre),

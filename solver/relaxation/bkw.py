@@ -37,11 +37,7 @@ def bkw_density(speed: np.ndarray, t: float) -> np.ndarray:
     """f(v, t) at |v| = speed."""
     k = bkw_k(t)
     v2 = np.asarray(speed, dtype=float) ** 2
-    return (
-        np.exp(-v2 / (2.0 * k))
-        * ((5.0 * k - 3.0) / k + (1.0 - k) * v2 / k**2)
-        / (2.0 * (2.0 * math.pi * k) ** 1.5)
-    )
+    return np.exp(-v2 / (2.0 * k)) * ((5.0 * k - 3.0) / k + (1.0 - k) * v2 / k**2) / (2.0 * (2.0 * math.pi * k) ** 1.5)
 
 
 def bkw_marginal(u: np.ndarray, t: float) -> np.ndarray:

@@ -85,9 +85,7 @@ def molecular_model(name: str, gas: GasData) -> MolecularModel:
         return MolecularModel("hard_sphere", 0.5, 1.0)
     if name == "maxwell":
         return MolecularModel("maxwell", 1.0, 1.0)
-    raise ValueError(
-        f"molecular_model: must be one of {', '.join(MOLECULAR_MODELS)}, got {name!r}"
-    )
+    raise ValueError(f"molecular_model: must be one of {', '.join(MOLECULAR_MODELS)}, got {name!r}")
 
 
 def check_model(model: MolecularModel) -> MolecularModel:

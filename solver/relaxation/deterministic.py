@@ -163,8 +163,9 @@ def _grid_moments(f: np.ndarray, v: np.ndarray, w: float, out: np.ndarray) -> No
 
 
 @njit(cache=True)
-def _continuous_target(code: int, v: np.ndarray, mom: np.ndarray, prandtl: float,
-                       lam_inv: np.ndarray, lam_det: float, out: np.ndarray) -> None:
+def _continuous_target(
+    code: int, v: np.ndarray, mom: np.ndarray, prandtl: float, lam_inv: np.ndarray, lam_det: float, out: np.ndarray
+) -> None:
     """Target G of model ``code`` at the nodes from the moments ``mom`` (layout of _grid_moments).
 
     For ES-BGK lam_inv / lam_det are the inverse and determinant of Lambda.
@@ -186,8 +187,12 @@ def _continuous_target(code: int, v: np.ndarray, mom: np.ndarray, prandtl: float
         cz = v[i, 2] - uz
         c2 = cx * cx + cy * cy + cz * cz
         if code == 2:
-            quad = (lam_inv[0, 0] * cx * cx + lam_inv[1, 1] * cy * cy + lam_inv[2, 2] * cz * cz
-                    + 2.0 * (lam_inv[0, 1] * cx * cy + lam_inv[0, 2] * cx * cz + lam_inv[1, 2] * cy * cz))
+            quad = (
+                lam_inv[0, 0] * cx * cx
+                + lam_inv[1, 1] * cy * cy
+                + lam_inv[2, 2] * cz * cz
+                + 2.0 * (lam_inv[0, 1] * cx * cy + lam_inv[0, 2] * cx * cz + lam_inv[1, 2] * cy * cz)
+            )
             out[i] = norm_es * math.exp(-0.5 * quad)
         else:
             m = norm_m * math.exp(-0.5 * c2 / theta)
@@ -198,8 +203,9 @@ def _continuous_target(code: int, v: np.ndarray, mom: np.ndarray, prandtl: float
 
 
 @njit(cache=True)
-def _correction_system(g: np.ndarray, v: np.ndarray, w: float, a: np.ndarray,
-                       moments: np.ndarray, jac: np.ndarray, gd: np.ndarray) -> None:
+def _correction_system(
+    g: np.ndarray, v: np.ndarray, w: float, a: np.ndarray, moments: np.ndarray, jac: np.ndarray, gd: np.ndarray
+) -> None:
     """gd = g exp(a.phi); moments = sum phi gd w; jac = sum phi phi^T gd w."""
     moments[:] = 0.0
     jac[:, :] = 0.0
@@ -229,8 +235,9 @@ def _exponential_step(f: np.ndarray, gd: np.ndarray, decay: float) -> None:
         f[i] = decay * f[i] + (1.0 - decay) * gd[i]
 
 
-def conservative_target(g: np.ndarray, v: np.ndarray, w: float, target: np.ndarray,
-                        tol: float = 2e-15, max_iter: int = 60) -> np.ndarray:
+def conservative_target(
+    g: np.ndarray, v: np.ndarray, w: float, target: np.ndarray, tol: float = 2e-15, max_iter: int = 60
+) -> np.ndarray:
     """G_d = g exp(a.phi) whose conserved moments equal ``target`` (5 numbers), Newton on a.
 
     Converged when every moment residual is below tol times the moment scale
@@ -258,18 +265,14 @@ def conservative_target(g: np.ndarray, v: np.ndarray, w: float, target: np.ndarr
     if np.all(np.abs(resid) <= 1e-12 * scale):
         # round-off floor reached although the strict tolerance was not
         return gd
-    raise NewtonFailure(
-        f"conservative target: Newton did not converge, residual {np.max(np.abs(resid) / scale):.3e}"
-    )
+    raise NewtonFailure(f"conservative target: Newton did not converge, residual {np.max(np.abs(resid) / scale):.3e}")
 
 
 def _es_tensor(mom: np.ndarray, prandtl: float) -> tuple[np.ndarray, float]:
     rho = mom[0]
     u = mom[1:4] / rho
     theta = (2.0 * mom[4] / rho - u @ u) / 3.0
-    big_theta = np.array(
-        [[mom[5], mom[8], mom[9]], [mom[8], mom[6], mom[10]], [mom[9], mom[10], mom[7]]]
-    ) / rho
+    big_theta = np.array([[mom[5], mom[8], mom[9]], [mom[8], mom[6], mom[10]], [mom[9], mom[10], mom[7]]]) / rho
     lam = theta / prandtl * np.eye(3) - (1.0 - prandtl) / prandtl * big_theta
     det = float(np.linalg.det(lam))
     if not det > 0.0:
@@ -308,8 +311,7 @@ class GridRecord:
     sum f ln(f/M_d) w, and the x-marginal interpolated to the HIST_* bins.
     """
 
-    def __init__(self, grid: VelocityGrid, m_eq: np.ndarray, edges: np.ndarray, n_output: int,
-                 axis_overlaps=None):
+    def __init__(self, grid: VelocityGrid, m_eq: np.ndarray, edges: np.ndarray, n_output: int, axis_overlaps=None):
         self.grid = grid
         self.v = grid.nodes()
         self.m_eq = m_eq

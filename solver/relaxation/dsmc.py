@@ -154,8 +154,17 @@ def _bracket_tables(coef: float, expo: float):
 
 
 @njit(cache=True)
-def _record(v: np.ndarray, edges: np.ndarray, counts: np.ndarray, ncoll: float, majorant: float,
-            out: np.ndarray, hist_lo: float, hist_width: float, hist: np.ndarray) -> None:
+def _record(
+    v: np.ndarray,
+    edges: np.ndarray,
+    counts: np.ndarray,
+    ncoll: float,
+    majorant: float,
+    out: np.ndarray,
+    hist_lo: float,
+    hist_width: float,
+    hist: np.ndarray,
+) -> None:
     """Moments, binned H and the x-marginal histogram of the current sample."""
     n = v.shape[0]
     ux = 0.0
@@ -214,9 +223,22 @@ def _record(v: np.ndarray, edges: np.ndarray, counts: np.ndarray, ncoll: float, 
 
 
 @njit(cache=True)
-def _run_replica(rs: np.ndarray, kind: int, params: np.ndarray, n: int, coef: float, expo: float,
-                 inv_alpha: float, dt: float, steps_per_output: int, edges: np.ndarray,
-                 hist_lo: float, hist_width: float, out: np.ndarray, hist_out: np.ndarray) -> int:
+def _run_replica(
+    rs: np.ndarray,
+    kind: int,
+    params: np.ndarray,
+    n: int,
+    coef: float,
+    expo: float,
+    inv_alpha: float,
+    dt: float,
+    steps_per_output: int,
+    edges: np.ndarray,
+    hist_lo: float,
+    hist_width: float,
+    out: np.ndarray,
+    hist_out: np.ndarray,
+) -> int:
     """One replica: sample the initial state, run NTC collisions, record at each output.
 
     out[n_output, N_COLUMNS] and hist_out[n_output, n_bins] are filled; the
@@ -330,19 +352,60 @@ def _run_replica(rs: np.ndarray, kind: int, params: np.ndarray, n: int, coef: fl
 
 
 @njit(parallel=True, cache=True)
-def _run_replicas(states: np.ndarray, kind: int, params: np.ndarray, n: int, coef: float,
-                  expo: float, inv_alpha: float, dt: float, steps_per_output: int,
-                  edges: np.ndarray, hist_lo: float, hist_width: float, out: np.ndarray,
-                  hist_out: np.ndarray, exceed: np.ndarray) -> None:
+def _run_replicas(
+    states: np.ndarray,
+    kind: int,
+    params: np.ndarray,
+    n: int,
+    coef: float,
+    expo: float,
+    inv_alpha: float,
+    dt: float,
+    steps_per_output: int,
+    edges: np.ndarray,
+    hist_lo: float,
+    hist_width: float,
+    out: np.ndarray,
+    hist_out: np.ndarray,
+    exceed: np.ndarray,
+) -> None:
     """Independent replicas in parallel; replica r writes only out[r], hist_out[r], exceed[r]."""
     for r in prange(states.shape[0]):
-        exceed[r] = _run_replica(states[r], kind, params, n, coef, expo, inv_alpha, dt,
-                                 steps_per_output, edges, hist_lo, hist_width, out[r], hist_out[r])
+        exceed[r] = _run_replica(
+            states[r],
+            kind,
+            params,
+            n,
+            coef,
+            expo,
+            inv_alpha,
+            dt,
+            steps_per_output,
+            edges,
+            hist_lo,
+            hist_width,
+            out[r],
+            hist_out[r],
+        )
 
 
-def run_particles(seed: int, n_replicas: int, kind: int, params, n_particles: int, coef: float,
-                  expo: float, alpha: float, dt: float, steps_per_output: int, n_output: int,
-                  edges: np.ndarray, hist_lo: float, hist_width: float, n_hist: int):
+def run_particles(
+    seed: int,
+    n_replicas: int,
+    kind: int,
+    params,
+    n_particles: int,
+    coef: float,
+    expo: float,
+    alpha: float,
+    dt: float,
+    steps_per_output: int,
+    n_output: int,
+    edges: np.ndarray,
+    hist_lo: float,
+    hist_width: float,
+    n_hist: int,
+):
     """Checked-input wrapper around the replica kernel.
 
     Returns (moments[R, n_output, N_COLUMNS], x-marginal[R, n_output, n_hist],
@@ -354,8 +417,21 @@ def run_particles(seed: int, n_replicas: int, kind: int, params, n_particles: in
     out = np.zeros((n_replicas, n_output, N_COLUMNS))
     hist = np.zeros((n_replicas, n_output, n_hist))
     exceed = np.zeros(n_replicas, dtype=np.int64)
-    _run_replicas(states, int(kind), np.asarray(params, dtype=float), int(n_particles), float(coef),
-                  float(expo), 1.0 / float(alpha), float(dt), int(steps_per_output),
-                  np.ascontiguousarray(edges, dtype=float), float(hist_lo), float(hist_width),
-                  out, hist, exceed)
+    _run_replicas(
+        states,
+        int(kind),
+        np.asarray(params, dtype=float),
+        int(n_particles),
+        float(coef),
+        float(expo),
+        1.0 / float(alpha),
+        float(dt),
+        int(steps_per_output),
+        np.ascontiguousarray(edges, dtype=float),
+        float(hist_lo),
+        float(hist_width),
+        out,
+        hist,
+        exceed,
+    )
     return out, hist, exceed

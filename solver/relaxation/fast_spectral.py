@@ -77,12 +77,12 @@ from knudsweep.solver.relaxation.cross_sections import MolecularModel
 from knudsweep.solver.relaxation.initial_states import InitialState, initial_density_on_grid
 
 # Defaults (accuracy studied in tests/verification/test_relaxation_fast_spectral.py).
-DEFAULT_TRUNCATION = 0.6   # R / L
-DEFAULT_POLAR = 5          # Gauss-Legendre nodes in cos(theta) on the half sphere
-DEFAULT_AZIMUTH = 10       # uniform azimuth nodes
-DEFAULT_RADIAL = 48        # Gauss-Legendre nodes in rho on [0, R]
-DEFAULT_RANK_TOL = 1e-3    # relative singular value kept in the radial expansion
-FFT_BATCH = 8              # directions transformed per scipy.fft call
+DEFAULT_TRUNCATION = 0.6  # R / L
+DEFAULT_POLAR = 5  # Gauss-Legendre nodes in cos(theta) on the half sphere
+DEFAULT_AZIMUTH = 10  # uniform azimuth nodes
+DEFAULT_RADIAL = 48  # Gauss-Legendre nodes in rho on [0, R]
+DEFAULT_RANK_TOL = 1e-3  # relative singular value kept in the radial expansion
+FFT_BATCH = 8  # directions transformed per scipy.fft call
 SCHEME = "SSP-RK3 (Shu & Osher 1988)"
 
 
@@ -95,11 +95,11 @@ class SpectralOperator:
     truncation: float
     rank: int
     n_directions: int
-    gain_x: np.ndarray   # (r*M, N, N, N//2+1) phi_r(xi.e)
-    gain_y: np.ndarray   # (r*M, N, N, N//2+1) w_e psi_r(|xi_perp|)
-    loss: np.ndarray     # (N, N, N//2+1)
+    gain_x: np.ndarray  # (r*M, N, N, N//2+1) phi_r(xi.e)
+    gain_y: np.ndarray  # (r*M, N, N, N//2+1) w_e psi_r(|xi_perp|)
+    loss: np.ndarray  # (N, N, N//2+1)
     constraints: np.ndarray  # C (5, N**3)
-    projector: np.ndarray    # C^T (C C^T)^-1 (N**3, 5)
+    projector: np.ndarray  # C^T (C C^T)^-1 (N**3, 5)
     equilibrium_term: np.ndarray | None = None  # Q_s(M_d), set by set_equilibrium
 
     @property
@@ -118,8 +118,9 @@ def radial_kernel(model: MolecularModel, radius: float, rho: np.ndarray) -> np.n
     return coef * rx ** (2.0 * alpha - 1.0) * ry * g ** (k + 1.0 - 2.0 * alpha)
 
 
-def radial_separation(model: MolecularModel, radius: float, n_radial: int = DEFAULT_RADIAL,
-                      rank_tol: float = DEFAULT_RANK_TOL):
+def radial_separation(
+    model: MolecularModel, radius: float, n_radial: int = DEFAULT_RADIAL, rank_tol: float = DEFAULT_RANK_TOL
+):
     """Nodes rho (n_radial) and weighted factors c, d (r, n_radial) with
     sum_ij w_i w_j G_ij F_i H_j = sum_r (sum_i c_ri F_i)(sum_j d_rj H_j) to relative ``rank_tol``."""
     x, w = np.polynomial.legendre.leggauss(n_radial)
@@ -142,8 +143,7 @@ def half_sphere(n_polar: int, n_azimuth: int) -> tuple[np.ndarray, np.ndarray]:
     ct, wt = x[keep], w[keep]
     st = np.sqrt(1.0 - ct * ct)
     ph = 2.0 * math.pi * np.arange(n_azimuth) / n_azimuth
-    e = np.stack([np.outer(st, np.cos(ph)).ravel(), np.outer(st, np.sin(ph)).ravel(),
-                  np.repeat(ct, n_azimuth)], axis=1)
+    e = np.stack([np.outer(st, np.cos(ph)).ravel(), np.outer(st, np.sin(ph)).ravel(), np.repeat(ct, n_azimuth)], axis=1)
     we = np.repeat(wt, n_azimuth) * (2.0 * math.pi / n_azimuth)
     return e, we
 
@@ -174,18 +174,27 @@ def _radial_table(rho: np.ndarray, coef: np.ndarray, t_max: float, radius: float
 
     step = 1.5e-3 / radius
     nodes = np.linspace(0.0, t_max, max(int(math.ceil(t_max / step)), 4) + 1)
-    values = kernel(np.multiply.outer(nodes, rho)) @ coef.T   # (n_nodes, rank)
+    values = kernel(np.multiply.outer(nodes, rho)) @ coef.T  # (n_nodes, rank)
     return CubicSpline(nodes, values, axis=0)
 
 
-def build_operator(model: MolecularModel, grid: det.VelocityGrid, truncation: float = DEFAULT_TRUNCATION,
-                   n_polar: int = DEFAULT_POLAR, n_azimuth: int = DEFAULT_AZIMUTH,
-                   n_radial: int = DEFAULT_RADIAL, rank_tol: float = DEFAULT_RANK_TOL) -> SpectralOperator:
+def build_operator(
+    model: MolecularModel,
+    grid: det.VelocityGrid,
+    truncation: float = DEFAULT_TRUNCATION,
+    n_polar: int = DEFAULT_POLAR,
+    n_azimuth: int = DEFAULT_AZIMUTH,
+    n_radial: int = DEFAULT_RADIAL,
+    rank_tol: float = DEFAULT_RANK_TOL,
+) -> SpectralOperator:
     """Multipliers phi_r(xi.e), w_e psi_r(|xi_perp|), the loss multiplier L and the conservation projector."""
     if not (0.2 <= float(truncation) <= 2.0):
         raise ValueError(f"collision_truncation: must lie in [0.2, 2] (R / L), got {truncation!r}")
-    for name, val, lo, hi in (("n_polar", n_polar, 1, 64), ("n_azimuth", n_azimuth, 1, 128),
-                              ("n_radial", n_radial, 4, 512)):
+    for name, val, lo, hi in (
+        ("n_polar", n_polar, 1, 64),
+        ("n_azimuth", n_azimuth, 1, 128),
+        ("n_radial", n_radial, 4, 512),
+    ):
         if int(val) != val or not (lo <= val <= hi):
             raise ValueError(f"{name}: must be an integer in [{lo}, {hi}], got {val!r}")
     n, half_width = grid.n, grid.half_width
@@ -203,7 +212,7 @@ def build_operator(model: MolecularModel, grid: det.VelocityGrid, truncation: fl
     for j in range(m):
         s = xi_x * e[j, 0] + xi_y * e[j, 1] + xi_z * e[j, 2]
         t = np.sqrt(np.maximum(xi2 - s * s, 0.0))
-        phi_s = phi(np.abs(s))                                    # (..., rank); phi_r is even
+        phi_s = phi(np.abs(s))  # (..., rank); phi_r is even
         psi_t = psi(t)
         for r in range(rank):
             gain_x[r * m + j] = phi_s[..., r] * keep
@@ -276,9 +285,18 @@ def ssp_rk3_step(f: np.ndarray, dt: float, op: SpectralOperator) -> np.ndarray:
     return f / 3.0 + (2.0 / 3.0) * (f2 + dt * collision(f2, op))
 
 
-def run_fast_spectral(model: MolecularModel, state: InitialState, grid: det.VelocityGrid, dt: float,
-                      steps: int, n_output: int, edges: np.ndarray, operator: SpectralOperator | None = None,
-                      keep_distribution: bool = False, **operator_options) -> dict:
+def run_fast_spectral(
+    model: MolecularModel,
+    state: InitialState,
+    grid: det.VelocityGrid,
+    dt: float,
+    steps: int,
+    n_output: int,
+    edges: np.ndarray,
+    operator: SpectralOperator | None = None,
+    keep_distribution: bool = False,
+    **operator_options,
+) -> dict:
     """Relax ``state`` under eq. (1); records at n_output times, ``steps`` steps of ``dt`` apart.
 
     Returns the dictionary of the model-equation path of :func:`knudsweep.solver.relaxation.solve`
@@ -306,8 +324,8 @@ def run_fast_spectral(model: MolecularModel, state: InitialState, grid: det.Velo
     return out
 
 
-GAUSS_WEIGHT_CUT = 3.5    # in sqrt(T): g Gaussian up to here ...
-GAUSS_WEIGHT_RAMP = 1.5   # ... then its exponent levels off (C1) over this width, flat beyond
+GAUSS_WEIGHT_CUT = 3.5  # in sqrt(T): g Gaussian up to here ...
+GAUSS_WEIGHT_RAMP = 1.5  # ... then its exponent levels off (C1) over this width, flat beyond
 
 
 def _weight_exponent(v: np.ndarray, temperature: float) -> np.ndarray:
@@ -319,8 +337,9 @@ def _weight_exponent(v: np.ndarray, temperature: float) -> np.ndarray:
     return 0.5 * np.minimum(x, c) ** 2 + c * beyond - 0.5 * c * beyond**2 / r
 
 
-def gaussian_axis_overlap(grid: det.VelocityGrid, edges: np.ndarray, temperature: float,
-                          points: int = 6, n_gauss: int = 8) -> np.ndarray:
+def gaussian_axis_overlap(
+    grid: det.VelocityGrid, edges: np.ndarray, temperature: float, points: int = 6, n_gauss: int = 8
+) -> np.ndarray:
     """O[i, a] = (1/h) int_{cell a} g(v) L_i(v) dv / g(v_i), g(v) = exp(-min(v**2, 25 T) / (2 T)): share of
     node i in H cell a on one axis when f/g is interpolated locally (Lagrange on the ``points``
     nearest nodes) and integrated against the Gaussian g of the axis temperature T.
@@ -359,13 +378,21 @@ def gaussian_axis_overlap(grid: det.VelocityGrid, edges: np.ndarray, temperature
 
 def _axis_overlaps(grid: det.VelocityGrid, edges: np.ndarray):
     """Per-output overlaps of the three axes at the axis temperatures P_aa / rho of the moments."""
+
     def overlaps(mom: np.ndarray) -> list[np.ndarray]:
         return [gaussian_axis_overlap(grid, edges, float(mom[5 + a] / mom[0])) for a in range(3)]
+
     return overlaps
 
 
-def operator_size(model: MolecularModel, n: int, n_polar: int = DEFAULT_POLAR, n_azimuth: int = DEFAULT_AZIMUTH,
-                  n_radial: int = DEFAULT_RADIAL, rank_tol: float = DEFAULT_RANK_TOL) -> tuple[int, int, float]:
+def operator_size(
+    model: MolecularModel,
+    n: int,
+    n_polar: int = DEFAULT_POLAR,
+    n_azimuth: int = DEFAULT_AZIMUTH,
+    n_radial: int = DEFAULT_RADIAL,
+    rank_tol: float = DEFAULT_RANK_TOL,
+) -> tuple[int, int, float]:
     """(rank r, directions M, peak bytes) of one run on an n**3 grid, without building the operator.
 
     The rank does not depend on the truncation radius (G is homogeneous in rho).  Bytes:

@@ -86,9 +86,15 @@ class DecayFit:
 
     def record(self) -> dict:
         """Plain-data summary for the result's discretization record."""
-        return {"kind": self.kind, "t_first": self.t_first, "t_last": self.t_last, "n_points": self.n_points,
-                "rate_statistical_uncertainty": self.rate_statistical,
-                "rate_window_uncertainty": self.rate_window, "note": self.note}
+        return {
+            "kind": self.kind,
+            "t_first": self.t_first,
+            "t_last": self.t_last,
+            "n_points": self.n_points,
+            "rate_statistical_uncertainty": self.rate_statistical,
+            "rate_window_uncertainty": self.rate_window,
+            "note": self.note,
+        }
 
 
 def nan_fit(note: str, kind: str = KIND_EXPONENTIAL) -> DecayFit:
@@ -182,6 +188,7 @@ def _variants(win: np.ndarray, min_points: int) -> list[np.ndarray]:
 
 # --------------------------------------------------------------------------- single exponential
 
+
 def _exp_rate(t, y, sigma):
     """Rate and amplitude of a exp(-r (t - t_0)): weighted least squares (sigma) or log-linear (sigma None)."""
     t1 = t[0]
@@ -193,8 +200,9 @@ def _exp_rate(t, y, sigma):
     if sigma is None:
         return -float(slope), float(sign * math.exp(intercept))
     p0 = (math.exp(intercept), max(-slope, 1e-6))
-    popt, _ = curve_fit(lambda tt, a, r: a * np.exp(-r * (tt - t1)), t, ys, p0=p0, sigma=sigma,
-                        absolute_sigma=True, maxfev=2000)
+    popt, _ = curve_fit(
+        lambda tt, a, r: a * np.exp(-r * (tt - t1)), t, ys, p0=p0, sigma=sigma, absolute_sigma=True, maxfev=2000
+    )
     return float(popt[1]), float(popt[0] * sign)
 
 
@@ -213,18 +221,27 @@ def _exp_fit_on(t, curves, mean, se, win, min_points, kind=KIND_EXPONENTIAL, not
         def variant(w):
             return lambda y, r: _exp_rate(t[w], y[w], None if sigma is None else sigma[w])[0]
 
-        rate, stat, window = _estimate([variant(win)] + [variant(w) for w in _variants(win, min_points)],
-                                       curves, mean, se)
+        rate, stat, window = _estimate(
+            [variant(win)] + [variant(w) for w in _variants(win, min_points)], curves, mean, se
+        )
         amp = _exp_rate(tw, mean[win], None if sigma is None else sigma[win])[1]
     except (RuntimeError, ValueError, np.linalg.LinAlgError) as exc:
         return nan_fit(f"least-squares fit failed: {exc}", kind)
     stat = max(stat, slope_se)
-    return DecayFit(rate, math.hypot(stat, window), amp, float(tw[0]), float(tw[-1]), int(win.size), note, kind,
-                    stat, window)
+    return DecayFit(
+        rate, math.hypot(stat, window), amp, float(tw[0]), float(tw[-1]), int(win.size), note, kind, stat, window
+    )
 
 
-def fit_decay(t: np.ndarray, curves: np.ndarray, t_start: float = 0.0, snr: float = 5.0,
-              min_fraction: float = 0.02, min_points: int = 4, kind: str = KIND_EXPONENTIAL) -> DecayFit:
+def fit_decay(
+    t: np.ndarray,
+    curves: np.ndarray,
+    t_start: float = 0.0,
+    snr: float = 5.0,
+    min_fraction: float = 0.02,
+    min_points: int = 4,
+    kind: str = KIND_EXPONENTIAL,
+) -> DecayFit:
     """Single exponential fitted to ``curves[R, T]`` at times ``t[T]`` from ``t_start`` (see module doc)."""
     t = np.asarray(t, dtype=float)
     curves, mean, se = _stats(curves)
@@ -236,11 +253,12 @@ def fit_decay(t: np.ndarray, curves: np.ndarray, t_start: float = 0.0, snr: floa
 
 # --------------------------------------------------------------------------- two exponentials
 
+
 def _two_exp_chi2(t, y, w, r, q):
     """Weighted misfit of the best C exp(-r t) + D exp(-q t) for each r (array), with C and D."""
     r = np.atleast_1d(np.asarray(r, dtype=float))
-    a = np.exp(-np.outer(r, t)) * w          # (n_r, T)
-    b = np.exp(-q * t) * w                   # (T,)
+    a = np.exp(-np.outer(r, t)) * w  # (n_r, T)
+    b = np.exp(-q * t) * w  # (T,)
     z = y * w
     aa, ab, bb = np.sum(a * a, axis=1), a @ b, b @ b
     az, bz = a @ z, b @ z
@@ -259,8 +277,12 @@ def _two_exp_rate(t, y, w, q):
     chi = _two_exp_chi2(t, y, w, grid, q)[0]
     k = int(np.argmin(chi))
     lo_b, hi_b = grid[max(k - 1, 0)], grid[min(k + 1, grid.size - 1)]
-    res = minimize_scalar(lambda r: float(_two_exp_chi2(t, y, w, r, q)[0][0]), bounds=(lo_b, hi_b),
-                          method="bounded", options={"xatol": 1e-12 * q})
+    res = minimize_scalar(
+        lambda r: float(_two_exp_chi2(t, y, w, r, q)[0][0]),
+        bounds=(lo_b, hi_b),
+        method="bounded",
+        options={"xatol": 1e-12 * q},
+    )
     r = float(res.x)
     if r >= hi * (1 - 1e-6):
         raise ValueError("slow rate at the bound 0.95 x fast rate")
@@ -268,9 +290,16 @@ def _two_exp_rate(t, y, w, q):
     return r, float(c[0]), float(d[0])
 
 
-def fit_two_exponentials(t: np.ndarray, curves: np.ndarray, fast_rate: float,
-                         fast_rate_jackknife: np.ndarray | None = None, t_start: float = 0.0,
-                         snr: float = 5.0, min_fraction: float = 1e-3, min_points: int = 6) -> DecayFit:
+def fit_two_exponentials(
+    t: np.ndarray,
+    curves: np.ndarray,
+    fast_rate: float,
+    fast_rate_jackknife: np.ndarray | None = None,
+    t_start: float = 0.0,
+    snr: float = 5.0,
+    min_fraction: float = 1e-3,
+    min_points: int = 6,
+) -> DecayFit:
     """Slow rate r of y = C exp(-r t) + D exp(-q t), q = ``fast_rate`` fixed (see module doc).
 
     ``fast_rate_jackknife[R]``: q from each leave-one-replica-out subset, so that
@@ -297,8 +326,11 @@ def fit_two_exponentials(t: np.ndarray, curves: np.ndarray, fast_rate: float,
         return nan_fit(f"fewer than {min_points} output times above the noise/threshold after t={t_start:.3g}", kind)
     tw = t[win]
     weight = (1.0 / np.maximum(se, 1e-12 * scale)) if se is not None else np.ones(t.size)
-    qs = (np.full(curves.shape[0], fast_rate) if fast_rate_jackknife is None
-          else np.asarray(fast_rate_jackknife, dtype=float))
+    qs = (
+        np.full(curves.shape[0], fast_rate)
+        if fast_rate_jackknife is None
+        else np.asarray(fast_rate_jackknife, dtype=float)
+    )
 
     def variant(w):
         def est(y, r):
@@ -306,6 +338,7 @@ def fit_two_exponentials(t: np.ndarray, curves: np.ndarray, fast_rate: float,
             if not (math.isfinite(q) and q > 0):
                 raise ValueError("no fast rate for this replica subset")
             return _two_exp_rate(t[w], y[w], weight[w], q)[0]
+
         return est
 
     try:
@@ -319,11 +352,22 @@ def fit_two_exponentials(t: np.ndarray, curves: np.ndarray, fast_rate: float,
         c = _two_exp_rate(tw, mean[win], weight[win], fast_rate)[1]
     except (RuntimeError, ValueError, np.linalg.LinAlgError) as exc:
         return nan_fit(f"two-exponential fit failed: {exc}", kind)
-    return DecayFit(rate, math.hypot(stat, window), c, float(tw[0]), float(tw[-1]), int(win.size),
-                    f"fast rate q = {fast_rate:.6g} fixed", kind, stat, window)
+    return DecayFit(
+        rate,
+        math.hypot(stat, window),
+        c,
+        float(tw[0]),
+        float(tw[-1]),
+        int(win.size),
+        f"fast rate q = {fast_rate:.6g} fixed",
+        kind,
+        stat,
+        window,
+    )
 
 
 # --------------------------------------------------------------------------- model-free descriptions
+
 
 def _crossing(t, y, level):
     """First time y/y[0] falls to ``level``: (linear-in-ln-y time, cubic-in-ln-y time) or None."""
@@ -366,6 +410,7 @@ def e_folding_time(t: np.ndarray, curves: np.ndarray) -> DecayFit:
             if c is None:
                 raise ValueError("no crossing")
             return 1.0 / c[which]
+
         return est
 
     try:
@@ -373,8 +418,18 @@ def e_folding_time(t: np.ndarray, curves: np.ndarray) -> DecayFit:
     except ValueError as exc:
         return nan_fit(str(exc), kind)
     k = int(np.searchsorted(t, cross[0]))
-    return DecayFit(rate, math.hypot(stat, window), float(mean[0]), 0.0, float(t[min(k, t.size - 1)]),
-                    k + 1, "window part: cubic instead of linear interpolation of ln y", kind, stat, window)
+    return DecayFit(
+        rate,
+        math.hypot(stat, window),
+        float(mean[0]),
+        0.0,
+        float(t[min(k, t.size - 1)]),
+        k + 1,
+        "window part: cubic instead of linear interpolation of ln y",
+        kind,
+        stat,
+        window,
+    )
 
 
 def _quadratic_slope(t, y, sigma):
@@ -413,18 +468,30 @@ def initial_rate(t: np.ndarray, curves: np.ndarray, t_e: float, min_points: int 
             if np.any(y[w] * np.sign(y[0]) <= 0):
                 raise ValueError("sign change")
             return _quadratic_slope(t[w], y[w], None if se is None else np.maximum(se[w], 1e-12 * abs(mean[0])))
+
         return est
 
     try:
         rate, stat, window = _estimate([variant(w1), variant(w2)], curves, mean, se)
     except (ValueError, np.linalg.LinAlgError) as exc:
         return nan_fit(f"initial-rate fit failed: {exc}", kind)
-    return DecayFit(rate, math.hypot(stat, window), float(mean[0]), float(t[w1[0]]), float(t[w1[-1]]),
-                    int(w1.size), "window part: quadratic over [0, 2 t_e] instead of [0, t_e]", kind, stat, window)
+    return DecayFit(
+        rate,
+        math.hypot(stat, window),
+        float(mean[0]),
+        float(t[w1[0]]),
+        float(t[w1[-1]]),
+        int(w1.size),
+        "window part: quadratic over [0, 2 t_e] instead of [0, t_e]",
+        kind,
+        stat,
+        window,
+    )
 
 
-def late_rate(t: np.ndarray, curves: np.ndarray, snr: float = 5.0, min_fraction: float = 0.02,
-              min_points: int = 4) -> DecayFit:
+def late_rate(
+    t: np.ndarray, curves: np.ndarray, snr: float = 5.0, min_fraction: float = 0.02, min_points: int = 4
+) -> DecayFit:
     """Single exponential from the first output with |y| < |y(0)|/e^2 to the noise or min_fraction cut."""
     kind = KIND_LATE
     t = np.asarray(t, dtype=float)

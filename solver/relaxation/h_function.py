@@ -94,8 +94,7 @@ def axis_overlap(axis: np.ndarray, spacing: float, edges: np.ndarray) -> np.ndar
 
 def binned_probabilities_grid(f: np.ndarray, n: int, weight: float, overlap: np.ndarray) -> np.ndarray:
     """p_b: overlap-weighted sum of f w over the grid cells in H cell b (f on an n**3 grid), normalised."""
-    p = np.einsum("ijl,ia,jb,lc->abc", f.reshape(n, n, n) * weight, overlap, overlap, overlap,
-                  optimize=True).ravel()
+    p = np.einsum("ijl,ia,jb,lc->abc", f.reshape(n, n, n) * weight, overlap, overlap, overlap, optimize=True).ravel()
     return p / p.sum()
 
 

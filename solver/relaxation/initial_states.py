@@ -66,8 +66,13 @@ def make_initial_state(
     if name == "anisotropic":
         ratios = np.asarray(axis_temperature_ratios, dtype=float)
         # the ratio test keeps the mean finite (1e308 would overflow it) and no axis frozen
-        if (ratios.shape != (3,) or not np.all(np.isfinite(ratios)) or np.any(ratios <= 0.0)
-                or ratios.max() > 1.0e300 or ratios.max() > 1.0e4 * ratios.min()):
+        if (
+            ratios.shape != (3,)
+            or not np.all(np.isfinite(ratios))
+            or np.any(ratios <= 0.0)
+            or ratios.max() > 1.0e300
+            or ratios.max() > 1.0e4 * ratios.min()
+        ):
             raise ValueError(
                 "axis_temperature_ratios: need three finite numbers > 0 whose largest is at most 1e4 times the smallest, "
                 f"got {axis_temperature_ratios!r}"
@@ -76,8 +81,7 @@ def make_initial_state(
         return InitialState(
             name,
             tuple(float(r) for r in ratios),
-            "Gaussian with axis temperatures T_x, T_y, T_z = "
-            + ", ".join(f"{r:.4g}" for r in ratios) + " T",
+            "Gaussian with axis temperatures T_x, T_y, T_z = " + ", ".join(f"{r:.4g}" for r in ratios) + " T",
         )
     if name == "two_beams":
         w = float(beam_fraction)

@@ -19,6 +19,7 @@ import time as _time
 from typing import Any
 
 import numpy as np
+
 from knudsweep.solver import gas as gasmod
 from knudsweep.solver.kinetic_models import MODEL_NAMES, RELAXATION_BOLTZMANN
 from knudsweep.solver.relaxation import deterministic as det
@@ -194,10 +195,19 @@ def solve_relaxation(
     edges = equiprobable_edges(k_bins)
 
     parameters: dict[str, Any] = {
-        "method": method, "gas": g.name, "pressure": pressure, "temperature": temperature,
-        "initial_state": state.name, "molecular_model": model.name, "omega": model.omega,
-        "alpha_vss": model.alpha, "t_end": t_end, "n_output": n_output, "seed": seed,
-        "h_bins_per_axis": k_bins, "initial_state_description": state.description,
+        "method": method,
+        "gas": g.name,
+        "pressure": pressure,
+        "temperature": temperature,
+        "initial_state": state.name,
+        "molecular_model": model.name,
+        "omega": model.omega,
+        "alpha_vss": model.alpha,
+        "t_end": t_end,
+        "n_output": n_output,
+        "seed": seed,
+        "h_bins_per_axis": k_bins,
+        "initial_state_description": state.description,
     }
     if state.name == "anisotropic":
         parameters["axis_temperature_ratios"] = list(state.params)
@@ -212,12 +222,19 @@ def solve_relaxation(
         n_cells = k_bins**3
         need = max(MIN_PARTICLES, MIN_PER_CELL * n_cells)
         if n_particles < need:
-            return _failed(parameters, discretization, times, tau_c, t_wall,
-                           f"n_particles={n_particles} too small: need >= {need} "
-                           f"({MIN_PER_CELL} per H cell for h_bins_per_axis={k_bins}, and >= {MIN_PARTICLES})")
+            return _failed(
+                parameters,
+                discretization,
+                times,
+                tau_c,
+                t_wall,
+                f"n_particles={n_particles} too small: need >= {need} "
+                f"({MIN_PER_CELL} per H cell for h_bins_per_axis={k_bins}, and >= {MIN_PARTICLES})",
+            )
         data = _run_dsmc(model, state, n_particles, n_replicas, seed, dt, steps_per_output, n_output, edges)
-        discretization.update(n_particles=n_particles, n_replicas=n_replicas,
-                              scheme="no-time-counter (Bird 1994)", h_cells=n_cells)
+        discretization.update(
+            n_particles=n_particles, n_replicas=n_replicas, scheme="no-time-counter (Bird 1994)", h_cells=n_cells
+        )
     elif method == "fast_spectral":
         half_width = fs.spectral_half_width(state) if velocity_half_width is None else velocity_half_width
         grid = det.make_grid(n_velocity, half_width)
@@ -226,13 +243,23 @@ def solve_relaxation(
         except det.NewtonFailure as exc:  # the start cannot be normalised on this grid
             return _failed(parameters, discretization, times, tau_c, t_wall, str(exc))
         min_f, max_f = data.pop("min_distribution"), data.pop("max_distribution")
-        discretization.update(n_velocity=grid.n, velocity_half_width=grid.half_width,
-                              scheme="fast spectral (Mouhot & Pareschi 2006), " + fs.SCHEME,
-                              min_distribution=min_f, max_distribution=max_f)
+        discretization.update(
+            n_velocity=grid.n,
+            velocity_half_width=grid.half_width,
+            scheme="fast spectral (Mouhot & Pareschi 2006), " + fs.SCHEME,
+            min_distribution=min_f,
+            max_distribution=max_f,
+        )
         if not min_f >= -MAX_NEGATIVE_FRACTION * max_f:
-            return _failed(parameters, discretization, times, tau_c, t_wall,
-                           f"distribution not resolved: min f = {min_f:.3e} below -{MAX_NEGATIVE_FRACTION:g} "
-                           f"x max f = {max_f:.3e} (raise n_velocity or velocity_half_width)")
+            return _failed(
+                parameters,
+                discretization,
+                times,
+                tau_c,
+                t_wall,
+                f"distribution not resolved: min f = {min_f:.3e} below -{MAX_NEGATIVE_FRACTION:g} "
+                f"x max f = {max_f:.3e} (raise n_velocity or velocity_half_width)",
+            )
     else:
         half_width = grid_half_width(state) if velocity_half_width is None else velocity_half_width
         grid = det.make_grid(n_velocity, half_width)
@@ -240,18 +267,29 @@ def solve_relaxation(
             data = _run_model_equation(method, model, state, grid, dt, steps_per_output, n_output, edges)
         except det.NewtonFailure as exc:
             return _failed(parameters, discretization, times, tau_c, t_wall, str(exc))
-        discretization.update(n_velocity=grid.n, velocity_half_width=grid.half_width,
-                              scheme="exponential relaxation step, conservative discrete target (Mieussens 2000)",
-                              min_distribution=data.pop("min_distribution"))
+        discretization.update(
+            n_velocity=grid.n,
+            velocity_half_width=grid.half_width,
+            scheme="exponential relaxation step, conservative discrete target (Mieussens 2000)",
+            min_distribution=data.pop("min_distribution"),
+        )
         data.pop("max_distribution")
-    bad = [name for name, arr in data.items() if isinstance(arr, np.ndarray) and name != "collisions"
-           and not np.all(np.isfinite(arr))]
+    bad = [
+        name
+        for name, arr in data.items()
+        if isinstance(arr, np.ndarray) and name != "collisions" and not np.all(np.isfinite(arr))
+    ]
     if bad:
-        return _failed(parameters, discretization, times, tau_c, t_wall,
-                       f"non-finite values in {', '.join(bad)}")
+        return _failed(parameters, discretization, times, tau_c, t_wall, f"non-finite values in {', '.join(bad)}")
     if data["energy_drift"] > MAX_ENERGY_DRIFT:
-        return _failed(parameters, discretization, times, tau_c, t_wall,
-                       f"energy drift {data['energy_drift']:.3e} exceeds {MAX_ENERGY_DRIFT:.0e}")
+        return _failed(
+            parameters,
+            discretization,
+            times,
+            tau_c,
+            t_wall,
+            f"energy drift {data['energy_drift']:.3e} exceeds {MAX_ENERGY_DRIFT:.0e}",
+        )
     return _assemble(parameters, discretization, times, tau_c, mu_over_p, model, state, data, t_wall, n_output)
 
 
@@ -261,17 +299,30 @@ def _model_for(name, g):
 
 def _run_dsmc(model, state, n, n_rep, seed, dt, steps, n_output, edges) -> dict[str, Any]:
     out, hist, exceed = dsmc.run_particles(
-        seed, n_rep, state.code, state.params, n, model.sigma_cr_coefficient, model.collision_exponent,
-        model.alpha, dt, steps, n_output, edges, HIST_LO, HIST_WIDTH, HIST_BINS,
+        seed,
+        n_rep,
+        state.code,
+        state.params,
+        n,
+        model.sigma_cr_coefficient,
+        model.collision_exponent,
+        model.alpha,
+        dt,
+        steps,
+        n_output,
+        edges,
+        HIST_LO,
+        HIST_WIDTH,
+        HIST_BINS,
     )
     k = edges.size + 1  # cells per axis
-    temp = out[:, :, dsmc.COL_TXX:dsmc.COL_TYZ + 1]  # R, T, 6
-    momentum = out[:, :, dsmc.COL_UX:dsmc.COL_UZ + 1]
+    temp = out[:, :, dsmc.COL_TXX : dsmc.COL_TYZ + 1]  # R, T, 6
+    momentum = out[:, :, dsmc.COL_UX : dsmc.COL_UZ + 1]
     energy = out[:, :, dsmc.COL_ENERGY]
     return {
         "temperature": temp,
         "fourth_moment": out[:, :, dsmc.COL_M4],
-        "heat_flux": out[:, :, dsmc.COL_QX:dsmc.COL_QZ + 1],
+        "heat_flux": out[:, :, dsmc.COL_QX : dsmc.COL_QZ + 1],
         "h_function": out[:, :, dsmc.COL_H] - sampling_bias(k, n),
         "h_fine": None,
         "collisions": 2.0 * out[:, :, dsmc.COL_COLLISIONS] / n,
@@ -311,10 +362,16 @@ def _stats(a: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 def _time_coords(times, tau_c, n_bins=HIST_BINS):
     centres = HIST_LO + (np.arange(n_bins) + 0.5) * HIST_WIDTH
     return {
-        "time": Quantity(times, "1", "time in mean collision times tau_c (tau_c = lambda/c_mean, lambda Bird's "
-                         "viscosity-based free path of the molecular model calibrated to mu(T); see time_s)", ("time",)),
-        "velocity_x": Quantity(centres, "1", "bin centre of the x velocity component in units of sqrt(k T/m)",
-                               ("velocity_x",)),
+        "time": Quantity(
+            times,
+            "1",
+            "time in mean collision times tau_c (tau_c = lambda/c_mean, lambda Bird's "
+            "viscosity-based free path of the molecular model calibrated to mu(T); see time_s)",
+            ("time",),
+        ),
+        "velocity_x": Quantity(
+            centres, "1", "bin centre of the x velocity component in units of sqrt(k T/m)", ("velocity_x",)
+        ),
     }
 
 
@@ -337,44 +394,71 @@ def _assemble(parameters, discretization, times, tau_c, mu_over_p, model, state,
         profiles[name] = Quantity(mean * scale, units, long_name, dims)
         profiles[name + "_std"] = Quantity(std * scale, units, "replica standard deviation of " + name, dims)
 
-    add("h_function", data["h_function"], "1",
+    add(
+        "h_function",
+        data["h_function"],
+        "1",
         "relative H-function sum p_b ln(B p_b) on B equiprobable cells of the equilibrium Maxwellian, "
-        "minus the sampling bias (B-1)/(2N) for particles")
+        "minus the sampling bias (B-1)/(2N) for particles",
+    )
     for i, ax in enumerate(("xx", "yy", "zz")):
         add(f"temperature_{ax}", tens[:, :, i], "K", f"kinetic temperature m <c_{ax[0]}^2>/k", scale=temperature)
-    add("anisotropy", aniso, "1",
-        "projection of the traceless temperature tensor (T_ij - T delta_ij)/T on its initial direction")
+    add(
+        "anisotropy",
+        aniso,
+        "1",
+        "projection of the traceless temperature tensor (T_ij - T delta_ij)/T on its initial direction",
+    )
     add("heat_flux_x", heat_x, "1", "heat flux q_x / (n k T sqrt(k T/m)) = <c^2 c_x>/2 in reduced units")
     add("fourth_moment", m4, "1", "<c^4> / (k T/m)^2 (equilibrium value 15)")
     if data["collisions"] is not None:
         add("collisions_per_particle", data["collisions"], "1", "collisions per particle since t = 0")
     else:
-        profiles["collisions_per_particle"] = Quantity(np.full(n_output, np.nan), "1",
-                                                       "collisions per particle (particle method only)", ("time",))
-        profiles["collisions_per_particle_std"] = Quantity(np.full(n_output, np.nan), "1",
-                                                           "replica standard deviation of collisions_per_particle", ("time",))
-    add("velocity_distribution_x", data["distribution"], "1",
-        "marginal distribution f_x(v_x) in units of 1/sqrt(k T/m), bin averages", dims=("time", "velocity_x"))
+        profiles["collisions_per_particle"] = Quantity(
+            np.full(n_output, np.nan), "1", "collisions per particle (particle method only)", ("time",)
+        )
+        profiles["collisions_per_particle_std"] = Quantity(
+            np.full(n_output, np.nan), "1", "replica standard deviation of collisions_per_particle", ("time",)
+        )
+    add(
+        "velocity_distribution_x",
+        data["distribution"],
+        "1",
+        "marginal distribution f_x(v_x) in units of 1/sqrt(k T/m), bin averages",
+        dims=("time", "velocity_x"),
+    )
     h_fine = data["h_fine"]
     profiles["h_function_grid"] = Quantity(
-        h_fine if h_fine is not None else np.full(n_output, np.nan), "1",
-        "relative H-function sum f ln(f/M_d) w on the velocity grid (deterministic methods)", ("time",))
+        h_fine if h_fine is not None else np.full(n_output, np.nan),
+        "1",
+        "relative H-function sum f ln(f/M_d) w on the velocity grid (deterministic methods)",
+        ("time",),
+    )
 
     fits, extra = _relaxation_fits(times, state, aniso, heat_x, m4)
 
     coefficients: dict[str, Quantity] = {
-        "mean_collision_time_s": Quantity(tau_c, "s", "mean collision time tau_c = factor * mu/p of the molecular model"),
+        "mean_collision_time_s": Quantity(
+            tau_c, "s", "mean collision time tau_c = factor * mu/p of the molecular model"
+        ),
         "viscosity_over_pressure_s": Quantity(mu_over_p, "s", "mu(T)/p"),
-        "pressure_over_viscosity_reduced": Quantity(model.pressure_over_viscosity, "1",
-                                                    "p/mu in units of 1/tau_c, mu the first Chapman-Enskog "
-                                                    "viscosity of the molecular model (Bird 1994 eqs. 4.62, 4.64; "
-                                                    "for hard spheres about 1.6 % below the converged value, "
-                                                    "Chapman & Cowling 1970, value from memory); the model "
-                                                    "equations relax at this p/mu"),
+        "pressure_over_viscosity_reduced": Quantity(
+            model.pressure_over_viscosity,
+            "1",
+            "p/mu in units of 1/tau_c, mu the first Chapman-Enskog "
+            "viscosity of the molecular model (Bird 1994 eqs. 4.62, 4.64; "
+            "for hard spheres about 1.6 % below the converged value, "
+            "Chapman & Cowling 1970, value from memory); the model "
+            "equations relax at this p/mu",
+        ),
         "h_function_sampling_bias": Quantity(data["h_bias"], "1", "(B-1)/(2N) subtracted from h_function"),
-        "momentum_drift": Quantity(data["momentum_drift"], "1", "max |mean velocity| / sqrt(kT/m) over time and replicas"),
+        "momentum_drift": Quantity(
+            data["momentum_drift"], "1", "max |mean velocity| / sqrt(kT/m) over time and replicas"
+        ),
         "energy_drift": Quantity(data["energy_drift"], "1", "max |energy per particle - 3/2| in units of kT"),
-        "majorant_exceedances": Quantity(data["exceedances"], "1", "candidate pairs above the majorant (sigma c_r)_max"),
+        "majorant_exceedances": Quantity(
+            data["exceedances"], "1", "candidate pairs above the majorant (sigma c_r)_max"
+        ),
     }
     if "mass_drift" in data:
         coefficients["mass_drift"] = Quantity(data["mass_drift"], "1", "max |density - 1| on the velocity grid")
@@ -388,10 +472,12 @@ def _assemble(parameters, discretization, times, tau_c, mu_over_p, model, state,
         label = f"{name.replace('_', ' ')} relaxation time ({fit.kind})"
         coefficients[f"{name}_relaxation_time"] = Quantity(fit.time, "1", f"{label} in mean collision times")
         coefficients[f"{name}_relaxation_time_uncertainty"] = Quantity(
-            fit.time_uncertainty, "1", f"standard uncertainty of the {label}, fit window included")
+            fit.time_uncertainty, "1", f"standard uncertainty of the {label}, fit window included"
+        )
         coefficients[f"{name}_relaxation_time_s"] = Quantity(fit.time * tau_c, "s", label)
         coefficients[f"{name}_relaxation_time_s_uncertainty"] = Quantity(
-            fit.time_uncertainty * tau_c, "s", f"standard uncertainty of the {label}, fit window included")
+            fit.time_uncertainty * tau_c, "s", f"standard uncertainty of the {label}, fit window included"
+        )
     for (name, part), fit in extra.items():
         discretization[f"{name}_{part}_fit"] = fit.record()
         if not fit.ok:
@@ -399,11 +485,26 @@ def _assemble(parameters, discretization, times, tau_c, mu_over_p, model, state,
         label = f"{name.replace('_', ' ')} {part} relaxation time 1/rate ({fit.kind})"
         coefficients[f"{name}_{part}_relaxation_time"] = Quantity(fit.time, "1", f"{label} in mean collision times")
         coefficients[f"{name}_{part}_relaxation_time_uncertainty"] = Quantity(
-            fit.time_uncertainty, "1", f"standard uncertainty of the {label}, fit window included")
-    conv = ConvergenceRecord(np.zeros(0), iterations=int((n_output - 1) * discretization["steps_per_output"]),
-                             status=CONVERGED, reason="", tolerance=MAX_ENERGY_DRIFT)
-    return SolverResult(FAMILY, state.name, parameters, coords, profiles, coefficients, discretization, conv,
-                        _time.perf_counter() - t_wall)
+            fit.time_uncertainty, "1", f"standard uncertainty of the {label}, fit window included"
+        )
+    conv = ConvergenceRecord(
+        np.zeros(0),
+        iterations=int((n_output - 1) * discretization["steps_per_output"]),
+        status=CONVERGED,
+        reason="",
+        tolerance=MAX_ENERGY_DRIFT,
+    )
+    return SolverResult(
+        FAMILY,
+        state.name,
+        parameters,
+        coords,
+        profiles,
+        coefficients,
+        discretization,
+        conv,
+        _time.perf_counter() - t_wall,
+    )
 
 
 def _fit_opts(curves: np.ndarray) -> dict[str, float]:
@@ -431,8 +532,10 @@ def _relaxation_fits(times, state, aniso, heat_x, m4):
     """
     fits: dict[str, DecayFit] = {}
     extra: dict[tuple[str, str], DecayFit] = {}
-    signals = {"anisotropy": (aniso, _has_anisotropy(state), "no initial anisotropy"),
-               "heat_flux": (heat_x, _has_heat_flux(state), "no initial heat flux")}
+    signals = {
+        "anisotropy": (aniso, _has_anisotropy(state), "no initial anisotropy"),
+        "heat_flux": (heat_x, _has_heat_flux(state), "no initial heat flux"),
+    }
     for name, (curves, present, why) in signals.items():
         if not present:
             fits[name] = nan_fit(why, KIND_E_FOLDING)
@@ -447,7 +550,8 @@ def _relaxation_fits(times, state, aniso, heat_x, m4):
         whole = fit_decay(times, aniso, **_fit_opts(aniso))
         jack = exponential_rate_jackknife(times, aniso, whole)
         fits["fourth_moment"] = fit_two_exponentials(
-            times, y4, 2.0 * whole.rate, None if jack is None else 2.0 * jack, **_fit_opts(y4))
+            times, y4, 2.0 * whole.rate, None if jack is None else 2.0 * jack, **_fit_opts(y4)
+        )
     else:
         fits["fourth_moment"] = fit_decay(times, y4, **_fit_opts(y4))
     return fits, extra
@@ -459,8 +563,16 @@ def _failed(parameters, discretization, times, tau_c, t_wall, reason) -> SolverR
     coords = _time_coords(times, tau_c)
     nan_t = np.full(n_output, np.nan)
     profiles = {"time_s": Quantity(times * tau_c, "s", "time in seconds", ("time",))}
-    for name in ("h_function", "temperature_xx", "temperature_yy", "temperature_zz", "anisotropy",
-                 "heat_flux_x", "fourth_moment", "collisions_per_particle"):
+    for name in (
+        "h_function",
+        "temperature_xx",
+        "temperature_yy",
+        "temperature_zz",
+        "anisotropy",
+        "heat_flux_x",
+        "fourth_moment",
+        "collisions_per_particle",
+    ):
         profiles[name] = Quantity(nan_t, "1", name.replace("_", " "), ("time",))
         profiles[name + "_std"] = Quantity(nan_t, "1", "replica standard deviation of " + name, ("time",))
     for name in ("temperature_xx", "temperature_yy", "temperature_zz"):
@@ -472,12 +584,24 @@ def _failed(parameters, discretization, times, tau_c, t_wall, reason) -> SolverR
     coefficients = {"mean_collision_time_s": Quantity(tau_c, "s", "mean collision time")}
     for name in FIT_NAMES:
         for suffix, units in (("", "1"), ("_uncertainty", "1"), ("_s", "s"), ("_s_uncertainty", "s")):
-            coefficients[f"{name}_relaxation_time{suffix}"] = Quantity(math.nan, units, f"{name} relaxation time{suffix}")
+            coefficients[f"{name}_relaxation_time{suffix}"] = Quantity(
+                math.nan, units, f"{name} relaxation time{suffix}"
+            )
     for name in ("anisotropy", "heat_flux"):
         for part in ("initial", "late"):
             for suffix in ("", "_uncertainty"):
                 coefficients[f"{name}_{part}_relaxation_time{suffix}"] = Quantity(
-                    math.nan, "1", f"{name} {part} relaxation time{suffix}")
+                    math.nan, "1", f"{name} {part} relaxation time{suffix}"
+                )
     conv = ConvergenceRecord(np.zeros(0), 0, FAILED, reason, MAX_ENERGY_DRIFT)
-    return SolverResult(FAMILY, parameters["initial_state"], parameters, coords, profiles, coefficients,
-                        discretization, conv, _time.perf_counter() - t_wall)
+    return SolverResult(
+        FAMILY,
+        parameters["initial_state"],
+        parameters,
+        coords,
+        profiles,
+        coefficients,
+        discretization,
+        conv,
+        _time.perf_counter() - t_wall,
+    )

@@ -22,9 +22,14 @@ from knudsweep.point_job import solve_point
 
 STUDY = {
     "study": "bits",
-    "plane_channel": {"problems": ["poiseuille"], "models": ["bgk"], "gases": ["Ar"],
-                      "walls": [{"model": "maxwell", "alpha": 1.0}], "delta": [1.0],
-                      "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1e-6}},
+    "plane_channel": {
+        "problems": ["poiseuille"],
+        "models": ["bgk"],
+        "gases": ["Ar"],
+        "walls": [{"model": "maxwell", "alpha": 1.0}],
+        "delta": [1.0],
+        "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1e-6},
+    },
 }
 
 
@@ -45,8 +50,8 @@ def _flip_bit_of(path, value: float, byteorder: str, bit: int = 54) -> None:
     raw = struct.pack(f"{byteorder}d", value)
     at = data.find(raw)
     assert at >= 0 and data.find(raw, at + 1) < 0, "the value must occur exactly once"
-    word = int.from_bytes(data[at:at + 8], "big" if byteorder == ">" else "little") ^ (1 << bit)
-    data[at:at + 8] = word.to_bytes(8, "big" if byteorder == ">" else "little")
+    word = int.from_bytes(data[at : at + 8], "big" if byteorder == ">" else "little") ^ (1 << bit)
+    data[at : at + 8] = word.to_bytes(8, "big" if byteorder == ">" else "little")
     path.write_bytes(bytes(data))
 
 

@@ -14,20 +14,19 @@ import time
 from pathlib import Path
 
 import numpy as np
+from fault_helpers import check_complete, wait_for
 
 from knudsweep.cli import main
 from knudsweep.config import validate_study
 from knudsweep.plan import StudyPlan
 from knudsweep.point_files import identity, write_point
 from knudsweep.solver.netcdf_io import write_result
-from knudsweep.status import clean_stray_temporaries, sidecar_path, stray_temporaries, study_status
 from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
-
-from fault_helpers import check_complete, wait_for
+from knudsweep.status import clean_stray_temporaries, sidecar_path, stray_temporaries, study_status
 
 SEED = 7
 
-WRITER = textwrap.dedent('''
+WRITER = textwrap.dedent("""
     import sys, numpy as np
     from pathlib import Path
     from knudsweep.solver.netcdf_io import to_dataset, write_dataset
@@ -46,7 +45,7 @@ WRITER = textwrap.dedent('''
     while True:
         write_dataset(ds, out / f"p{i}.nc")
         i += 1
-''')
+""")
 
 
 def test_writer_killed_mid_write_leaves_no_partial_file(tmp_path, capsys):
@@ -82,8 +81,10 @@ def test_writer_killed_mid_write_leaves_no_partial_file(tmp_path, capsys):
         for p in stray:
             p.unlink()
     with capsys.disabled():
-        print(f"\n[faults] writer SIGKILLed {kills} times, {mid_write} inside write_dataset "
-              "(temporary present); 0 partial files under a final name")
+        print(
+            f"\n[faults] writer SIGKILLed {kills} times, {mid_write} inside write_dataset "
+            "(temporary present); 0 partial files under a final name"
+        )
     assert mid_write >= 1  # the kill moments are seeded; at least one landed mid-write
 
 
@@ -91,24 +92,29 @@ def test_writer_killed_mid_write_leaves_no_partial_file(tmp_path, capsys):
 
 STUDY = {
     "study": "lock",
-    "plane_channel": {"problems": ["poiseuille"], "models": ["bgk"], "walls": [{"alpha": 1.0}],
-                      "delta": [1.0], "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1e-6}},
+    "plane_channel": {
+        "problems": ["poiseuille"],
+        "models": ["bgk"],
+        "walls": [{"alpha": 1.0}],
+        "delta": [1.0],
+        "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1e-6},
+    },
 }
 
-SOLVE_JOB = textwrap.dedent('''
+SOLVE_JOB = textwrap.dedent("""
     import json, sys
     from knudsweep.batch_job import run_batch
     pid, values, root, study, log = json.loads(sys.argv[1])
     run_batch("plane_channel/b0", {pid: values}, root + "/batch.nc", study, log_path=log, root=root)
-''')
+""")
 
-HOLDER = textwrap.dedent('''
+HOLDER = textwrap.dedent("""
     import fcntl, sys, time
     fh = open(sys.argv[1], "a+")
     fcntl.flock(fh, fcntl.LOCK_EX)
     open(sys.argv[2], "w").write("locked")
     time.sleep(600)
-''')
+""")
 
 
 def _solve_job(tmp_path, name):
@@ -117,8 +123,12 @@ def _solve_job(tmp_path, name):
     out = tmp_path / "results" / "points" / f"{point.pid}.nc"
     log = tmp_path / f"{name}.log"
     args = json.dumps([point.pid, point.values, str(tmp_path), study, str(log)])
-    return point, out, log, subprocess.Popen([sys.executable, "-c", SOLVE_JOB, args],
-                                             stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    return (
+        point,
+        out,
+        log,
+        subprocess.Popen([sys.executable, "-c", SOLVE_JOB, args], stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL),
+    )
 
 
 def test_killed_lock_holder_releases_the_point_and_a_waiting_job_computes_it(tmp_path):
@@ -132,8 +142,9 @@ def test_killed_lock_holder_releases_the_point_and_a_waiting_job_computes_it(tmp
     try:
         assert wait_for(lambda: (tmp_path / "held").exists(), 60, holder)
         _, _, log, job = _solve_job(tmp_path, "waiter")
-        assert wait_for(lambda: log.exists() and "waiting for it to finish" in log.read_text(), 120, job), \
+        assert wait_for(lambda: log.exists() and "waiting for it to finish" in log.read_text(), 120, job), (
             log.read_text() if log.exists() else "no log"
+        )
         assert not out.exists() and job.poll() is None  # it waits; nothing is computed twice
     finally:
         holder.kill()  # SIGKILL: the kernel drops its flock, no stale lock remains
@@ -168,19 +179,25 @@ def test_second_job_on_a_point_finished_meanwhile_keeps_the_file(tmp_path):
 
 BIG = {
     "study": "three_hundred",
-    "plane_channel": {"problems": ["poiseuille", "thermal_creep", "couette", "heat_transfer"],
-                      "models": ["bgk"], "walls": [{"alpha": 1.0}],
-                      "delta": {"start": 0.01, "stop": 100.0, "num": 75},
-                      "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1e-6}},
+    "plane_channel": {
+        "problems": ["poiseuille", "thermal_creep", "couette", "heat_transfer"],
+        "models": ["bgk"],
+        "walls": [{"alpha": 1.0}],
+        "delta": {"start": 0.01, "stop": 100.0, "num": 75},
+        "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1e-6},
+    },
 }
 
 
 def synthetic(point, status=CONVERGED):
     return SolverResult(
-        family="plane_channel", problem=point.values["problem"], parameters={"delta": point.values["delta"]},
+        family="plane_channel",
+        problem=point.values["problem"],
+        parameters={"delta": point.values["delta"]},
         coefficients={} if status == FAILED else {"G": Quantity(point.values["delta"], "1", "test value")},
-        convergence=ConvergenceRecord(np.geomspace(1, 1e-7, 9), 9, status,
-                                      "max_iter reached" if status == FAILED else "", 1e-6),
+        convergence=ConvergenceRecord(
+            np.geomspace(1, 1e-7, 9), 9, status, "max_iter reached" if status == FAILED else "", 1e-6
+        ),
         wall_time=0.01,
     )
 
@@ -206,8 +223,9 @@ def test_status_of_a_300_point_study(tmp_path, capsys):
         write_result(synthetic(plan.points[pid], FAILED if pid in failed else CONVERGED), path, ident)
 
     def expected(pid):
-        return ("missing" if pid in missing else "corrupt" if pid in corrupt
-                else "failed" if pid in failed else "converged")
+        return (
+            "missing" if pid in missing else "corrupt" if pid in corrupt else "failed" if pid in failed else "converged"
+        )
 
     first = {r.pid: r for r in study_status(plan, tmp_path)}  # reads the files, writes sidecars
     second = {r.pid: r for r in study_status(plan, tmp_path)}  # from the sidecars
@@ -220,8 +238,12 @@ def test_status_of_a_300_point_study(tmp_path, capsys):
     # a rewritten file invalidates its sidecar (size / mtime changed)
     changed = next(p for p in pids if expected(p) == "converged" and p not in outdated)
     time.sleep(0.01)
-    write_point(synthetic(plan.points[changed], FAILED), tmp_path / plan.point_file(changed), changed,
-                plan.points[changed].values)
+    write_point(
+        synthetic(plan.points[changed], FAILED),
+        tmp_path / plan.point_file(changed),
+        changed,
+        plan.points[changed].values,
+    )
     assert {r.pid: r.state for r in study_status(plan, tmp_path)}[changed] == "failed"
 
     # stray temporaries: an abandoned one (dead writer, 2 min old) is removed, a live one kept

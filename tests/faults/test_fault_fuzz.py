@@ -25,7 +25,9 @@ BASE = {
     "study": "fuzz",
     "description": "fuzzing base",
     "plane_channel": {
-        "problems": ["poiseuille"], "models": ["bgk"], "gases": ["Ar"],
+        "problems": ["poiseuille"],
+        "models": ["bgk"],
+        "gases": ["Ar"],
         "walls": [{"model": "maxwell", "alpha": 0.9}],
         "delta": [0.1, 1.0],
         "conditions": {"temperature": 300.0, "gap": 2.0e-6},
@@ -36,9 +38,33 @@ BASE = {
     "figures": {"formats": ["png"], "width": 5.0, "height": 3.5, "dpi": 60},
 }
 
-BAD_VALUES = [None, True, False, "", "text", "1e-6", -1, 0, -1e-9, 1e300, -1e300, 10**20,
-              math.nan, math.inf, -math.inf, [], {}, [None], ["x"], {"x": 1}, [-1.0], [math.nan],
-              {"start": 1.0, "stop": 0.1, "num": 3}, {"start": 0.1, "stop": 1.0}, "../../etc"]
+BAD_VALUES = [
+    None,
+    True,
+    False,
+    "",
+    "text",
+    "1e-6",
+    -1,
+    0,
+    -1e-9,
+    1e300,
+    -1e300,
+    10**20,
+    math.nan,
+    math.inf,
+    -math.inf,
+    [],
+    {},
+    [None],
+    ["x"],
+    {"x": 1},
+    [-1.0],
+    [math.nan],
+    {"start": 1.0, "stop": 0.1, "num": 3},
+    {"start": 0.1, "stop": 1.0},
+    "../../etc",
+]
 
 
 def _paths(node, prefix=()):
@@ -73,8 +99,14 @@ def _set(study, path, value, mode):
 def _related(reported: str, mutated: tuple) -> bool:
     """The reported key path is the mutated one, inside it, or one of its parents."""
     m = key_path(list(mutated))
-    return reported == m or reported.startswith(m + ".") or reported.startswith(m + "[") \
-        or m.startswith(reported + ".") or m.startswith(reported + "[") or reported == "<top level>"
+    return (
+        reported == m
+        or reported.startswith(m + ".")
+        or reported.startswith(m + "[")
+        or m.startswith(reported + ".")
+        or m.startswith(reported + "[")
+        or reported == "<top level>"
+    )
 
 
 def _finite_everywhere(node):
@@ -95,16 +127,28 @@ def counts(capsys):
         print("\n[faults] fuzzing " + "; ".join(f"{k}: {v}" for k, v in data.items()))
 
 
-FUZZ = settings(max_examples=250, deadline=None, derandomize=True, database=None,
-                suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
+FUZZ = settings(
+    max_examples=250,
+    deadline=None,
+    derandomize=True,
+    database=None,
+    suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture],
+)
 
 
 def test_fuzz_study_validation(counts, capsys):
     tally = {"tried": 0, "rejected cleanly": 0, "accepted (valid after all)": 0}
 
     @FUZZ
-    @given(st.lists(st.tuples(st.sampled_from(PATHS), st.sampled_from(BAD_VALUES),
-                              st.sampled_from(["set", "delete", "unknown_key"])), min_size=1, max_size=3))
+    @given(
+        st.lists(
+            st.tuples(
+                st.sampled_from(PATHS), st.sampled_from(BAD_VALUES), st.sampled_from(["set", "delete", "unknown_key"])
+            ),
+            min_size=1,
+            max_size=3,
+        )
+    )
     def check(mutations):
         study = copy.deepcopy(BASE)
         touched = []
@@ -125,7 +169,7 @@ def test_fuzz_study_validation(counts, capsys):
             return
         # accepted: it must really be usable (planning never raises) and finite
         assert _finite_everywhere(valid), valid
-        StudyPlan(valid).points
+        assert StudyPlan(valid).points is not None
         tally["accepted (valid after all)"] += 1
 
     check()
@@ -138,11 +182,24 @@ def test_fuzz_study_files(counts, tmp_path):
     path = tmp_path / "study.yaml"
 
     @FUZZ
-    @given(st.one_of(st.binary(max_size=200),
-                     st.text(max_size=200).map(lambda t: t.encode("utf-8", "surrogatepass")),
-                     st.sampled_from([b"[" * 3000, b"{a: " * 3000, b"study: x\nplane_channel: !!python/object:os.system {}\n",
-                                      b"study: [", b"\xff\xfe", b"- 1\n- 2\n", b"study: .nan\n",
-                                      b"study: ok\nplane_channel: {delta: [.nan]}\n"])))
+    @given(
+        st.one_of(
+            st.binary(max_size=200),
+            st.text(max_size=200).map(lambda t: t.encode("utf-8", "surrogatepass")),
+            st.sampled_from(
+                [
+                    b"[" * 3000,
+                    b"{a: " * 3000,
+                    b"study: x\nplane_channel: !!python/object:os.system {}\n",
+                    b"study: [",
+                    b"\xff\xfe",
+                    b"- 1\n- 2\n",
+                    b"study: .nan\n",
+                    b"study: ok\nplane_channel: {delta: [.nan]}\n",
+                ]
+            ),
+        )
+    )
     def check(data):
         path.write_bytes(data)
         tally["tried"] += 1
@@ -162,18 +219,27 @@ def test_fuzz_study_files(counts, tmp_path):
 # ----------------------------------------------------------------------- CLI
 
 FLOAT_OPTIONS = {  # option: (valid low, valid high, allowed range as in the CLI)
-    "--delta": (1e-3, 1e3), "--alpha": (0.05, 1.0), "--alpha-upper": (0.05, 1.0),
-    "--tol": (1e-10, 1e-3), "--temperature": (10.0, 1000.0),
+    "--delta": (1e-3, 1e3),
+    "--alpha": (0.05, 1.0),
+    "--alpha-upper": (0.05, 1.0),
+    "--tol": (1e-10, 1e-3),
+    "--temperature": (10.0, 1000.0),
 }
 INT_OPTIONS = {"--n-space": (8, 64), "--n-velocity": (4, 32), "--max-iter": (1, 1000), "--threads": (1, 2)}
 INVALID_FLOATS = {
-    "--delta": [0.0, -1.0, 2e6, math.inf], "--alpha": [0.0, -0.5, 1.5, 1e9], "--alpha-upper": [0.0, 2.0],
-    "--tol": [0.0, -1e-8, 0.5, 1.0], "--temperature": [0.0, -300.0, 2e4],
+    "--delta": [0.0, -1.0, 2e6, math.inf],
+    "--alpha": [0.0, -0.5, 1.5, 1e9],
+    "--alpha-upper": [0.0, 2.0],
+    "--tol": [0.0, -1e-8, 0.5, 1.0],
+    "--temperature": [0.0, -300.0, 2e4],
 }
-INVALID_INTS = {"--n-space": [3, 0, -5, 10**9], "--n-velocity": [0, 3, 10**6], "--max-iter": [0, -1, 10**10],
-                "--threads": [0, -2, 100000]}
-CHOICES = {"--problem": PROBLEMS, "--model": MODELS, "--gas": tuple(known_gases()),
-           "--wall-model": ("maxwell",)}
+INVALID_INTS = {
+    "--n-space": [3, 0, -5, 10**9],
+    "--n-velocity": [0, 3, 10**6],
+    "--max-iter": [0, -1, 10**10],
+    "--threads": [0, -2, 100000],
+}
+CHOICES = {"--problem": PROBLEMS, "--model": MODELS, "--gas": tuple(known_gases()), "--wall-model": ("maxwell",)}
 
 
 @st.composite
@@ -189,8 +255,9 @@ def valid_pair(draw, option):
 
 @st.composite
 def invalid_pair(draw):
-    kind = draw(st.sampled_from(["range_float", "range_int", "not_a_number", "nan", "choice", "unknown",
-                                 "missing_value"]))
+    kind = draw(
+        st.sampled_from(["range_float", "range_int", "not_a_number", "nan", "choice", "unknown", "missing_value"])
+    )
     if kind == "range_float":
         opt = draw(st.sampled_from(sorted(INVALID_FLOATS)))
         return opt, [f"{opt}={draw(st.sampled_from(INVALID_FLOATS[opt]))!r}"]
@@ -221,8 +288,9 @@ def invalid_pair(draw):
 
 @st.composite
 def bad_command(draw):
-    opts = draw(st.lists(st.sampled_from(sorted(set(FLOAT_OPTIONS) | set(INT_OPTIONS) | set(CHOICES))),
-                         unique=True, max_size=5))
+    opts = draw(
+        st.lists(st.sampled_from(sorted(set(FLOAT_OPTIONS) | set(INT_OPTIONS) | set(CHOICES))), unique=True, max_size=5)
+    )
     bad = draw(st.lists(invalid_pair(), min_size=1, max_size=2))
     bad_names = {name for name, _ in bad}
     pairs = [draw(valid_pair(o)) for o in opts if o not in bad_names and o != "--delta"]
@@ -230,7 +298,7 @@ def bad_command(draw):
     for o, v in pairs:
         argv += [o, v] if draw(st.booleans()) else [f"{o}={v}"]
     tail = []
-    for name, words in bad:
+    for _name, words in bad:
         (tail if len(words) == 1 and not words[0].count("=") else argv).extend(words)
     if "--delta" not in bad_names:
         argv += ["--delta", "1.0"]

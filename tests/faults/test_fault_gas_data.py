@@ -13,15 +13,20 @@ import subprocess
 import sys
 
 import yaml
+from fault_helpers import REPO, batch_lines, job_counts, smk, write_study
 
 from knudsweep.config import validate_study
 from knudsweep.plan import StudyPlan
-from fault_helpers import REPO, batch_lines, job_counts, smk, write_study
 
-RELAXATION = {"gases": ["Ar"], "pressures": [100.0], "temperatures": [300.0], "initial_states": ["anisotropic"],
-              "molecular_models": ["maxwell"], "methods": ["bgk"],
-              "run": {"n_replicas": 1, "t_end": 2.0, "n_output": 5, "seed": 1, "h_bins_per_axis": 4,
-                      "n_velocity": 12}}
+RELAXATION = {
+    "gases": ["Ar"],
+    "pressures": [100.0],
+    "temperatures": [300.0],
+    "initial_states": ["anisotropic"],
+    "molecular_models": ["maxwell"],
+    "methods": ["bgk"],
+    "run": {"n_replicas": 1, "t_end": 2.0, "n_output": 5, "seed": 1, "h_bins_per_axis": 4, "n_velocity": 12},
+}
 
 
 def _edited_gas_file(tmp_path, factor: float):
@@ -52,11 +57,33 @@ def test_an_edited_gas_table_recomputes_the_dependent_points_and_rebuilds_the_ta
     cmd_env = {"KNUDSWEEP_GAS_FILE": str(gas_file)}
     import os
 
-    r = subprocess.run([sys.executable, "-m", "snakemake", "--snakefile", str(REPO / "Snakefile"),
-                        "--directory", str(workdir), "--configfile", str(study), "--cores", "2",
-                        "--profile", "none", "--workflow-profile", "none",
-                        "--rerun-triggers", "mtime", "params", "input"],
-                       capture_output=True, text=True, timeout=600, env={**os.environ, **cmd_env})
+    r = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "snakemake",
+            "--snakefile",
+            str(REPO / "Snakefile"),
+            "--directory",
+            str(workdir),
+            "--configfile",
+            str(study),
+            "--cores",
+            "2",
+            "--profile",
+            "none",
+            "--workflow-profile",
+            "none",
+            "--rerun-triggers",
+            "mtime",
+            "params",
+            "input",
+        ],
+        capture_output=True,
+        text=True,
+        timeout=600,
+        env={**os.environ, **cmd_env},
+    )
     out = r.stdout + r.stderr
     assert r.returncode == 0, out[-3000:]
     lines = {b["key"].split("/")[0]: b for b in batch_lines(out)}

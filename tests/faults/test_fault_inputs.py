@@ -9,9 +9,9 @@ import subprocess
 import sys
 
 import pytest
+from fault_helpers import REPO
 
 from knudsweep.config import StudyConfigError, load_study
-from fault_helpers import REPO
 
 TINY = (REPO / "tests" / "workflow" / "data" / "tiny_study.yaml").read_text()
 
@@ -36,9 +36,23 @@ def test_a_key_given_twice_is_refused_not_silently_overwritten(tmp_path):
 def test_a_key_given_twice_is_refused_by_the_workflow_too(tmp_path):
     path = tmp_path / "study.yaml"
     path.write_text(TINY.replace("plane_channel:\n", "plane_channel:\n  problems: [thermal_creep]\n", 1))
-    r = subprocess.run([sys.executable, "-m", "snakemake", "--snakefile", str(REPO / "Snakefile"),
-                        "--directory", str(tmp_path / "w"), "--configfile", str(path), "-n"],
-                       capture_output=True, text=True, timeout=300)
+    r = subprocess.run(
+        [
+            sys.executable,
+            "-m",
+            "snakemake",
+            "--snakefile",
+            str(REPO / "Snakefile"),
+            "--directory",
+            str(tmp_path / "w"),
+            "--configfile",
+            str(path),
+            "-n",
+        ],
+        capture_output=True,
+        text=True,
+        timeout=300,
+    )
     assert r.returncode != 0
     lines = [x for x in r.stderr.splitlines() if x.startswith("knudsweep: invalid study config:")]
     assert len(lines) == 1 and "appears twice" in lines[0], r.stderr[-2000:]
@@ -62,10 +76,17 @@ def test_a_study_name_with_a_trailing_newline_is_refused(tmp_path):
     assert _message(tmp_path, text).startswith("study: 'tiny\\n' does not match")
 
 
-@pytest.mark.parametrize("old,new,where", [
-    ("n_space: 16", "n_space: 16.0", "plane_channel.resolution.n_space: got 16.0; expected a whole number (write 16)"),
-    ("delta: [0.1, 1.0, 10.0]", "delta: {start: 0.1, stop: 10.0, num: 3.0}", "plane_channel.delta.num: got 3.0"),
-])
+@pytest.mark.parametrize(
+    "old,new,where",
+    [
+        (
+            "n_space: 16",
+            "n_space: 16.0",
+            "plane_channel.resolution.n_space: got 16.0; expected a whole number (write 16)",
+        ),
+        ("delta: [0.1, 1.0, 10.0]", "delta: {start: 0.1, stop: 10.0, num: 3.0}", "plane_channel.delta.num: got 3.0"),
+    ],
+)
 def test_integers_written_as_floats_are_refused_with_the_fix(tmp_path, old, new, where):
     assert old in TINY, old
     assert where in _message(tmp_path, TINY.replace(old, new, 1))
@@ -74,12 +95,15 @@ def test_integers_written_as_floats_are_refused_with_the_fix(tmp_path, old, new,
 KNUDSWEEP = [sys.executable, "-c", "import sys; from knudsweep.cli import main; sys.exit(main())"]
 
 
-@pytest.mark.parametrize("args,message", [
-    (["--tol", "1e-300"], "--tol: got 1e-300; allowed range is [1e-14, 0.01]"),
-    (["--n-space", "100000"], "--n-space: got 100000; allowed range is [8, 4000]"),
-    (["--n-velocity", "10000"], "--n-velocity: got 10000; allowed range is [4, 128]"),
-    (["--output", "/proc/no/such/p.nc"], "--output: folder /proc/no/such does not exist"),
-])
+@pytest.mark.parametrize(
+    "args,message",
+    [
+        (["--tol", "1e-300"], "--tol: got 1e-300; allowed range is [1e-14, 0.01]"),
+        (["--n-space", "100000"], "--n-space: got 100000; allowed range is [8, 4000]"),
+        (["--n-velocity", "10000"], "--n-velocity: got 10000; allowed range is [4, 128]"),
+        (["--output", "/proc/no/such/p.nc"], "--output: folder /proc/no/such does not exist"),
+    ],
+)
 def test_solve_options_the_solver_would_refuse_are_refused_first(args, message):
     r = subprocess.run([*KNUDSWEEP, "solve", "--delta", "1", *args], capture_output=True, text=True, timeout=120)
     assert r.returncode == 2 and "Traceback" not in r.stderr
@@ -128,10 +152,17 @@ def test_a_study_too_large_to_plan_is_refused_with_its_point_count(tmp_path):
     assert message.startswith("<top level>: the study has 3,000,000 points; at most 2,000,000")
 
 
-@pytest.mark.parametrize("old,new,where", [
-    ("{model: maxwell, alpha: 1.0}", "{model: maxwell, alpha: 1.0e-300}", "plane_channel.walls[0].alpha: got 1e-300"),
-    ("width: 5.0, height: 3.5, dpi: 60", "width: 40.0, height: 40.0, dpi: 1200", "figures."),
-])
+@pytest.mark.parametrize(
+    "old,new,where",
+    [
+        (
+            "{model: maxwell, alpha: 1.0}",
+            "{model: maxwell, alpha: 1.0e-300}",
+            "plane_channel.walls[0].alpha: got 1e-300",
+        ),
+        ("width: 5.0, height: 3.5, dpi: 60", "width: 40.0, height: 40.0, dpi: 1200", "figures."),
+    ],
+)
 def test_values_the_solver_or_the_plot_cannot_take_are_refused_up_front(tmp_path, old, new, where):
     assert old in TINY, old
     assert _message(tmp_path, TINY.replace(old, new, 1)).startswith(where)
@@ -140,9 +171,11 @@ def test_values_the_solver_or_the_plot_cannot_take_are_refused_up_front(tmp_path
 @pytest.mark.parametrize("ratios", ["[1.0e+308, 1.0e+308, 1.0e+308]", "[1.0e-9, 1.0, 1.0]", "[1000, 1, 1]"])
 def test_axis_temperature_ratios_out_of_range_are_refused(tmp_path, ratios):
     # 1e308 used to overflow the mean (rescaling to mean 1) and fail inside the solver
-    text = TINY + ("relaxation:\n  gases: [Ar]\n  pressures: [100.0]\n  temperatures: [300.0]\n"
-                   "  initial_states: [anisotropic]\n  molecular_models: [maxwell]\n  methods: [bgk]\n"
-                   f"  state_options: {{axis_temperature_ratios: {ratios}}}\n")
+    text = TINY + (
+        "relaxation:\n  gases: [Ar]\n  pressures: [100.0]\n  temperatures: [300.0]\n"
+        "  initial_states: [anisotropic]\n  molecular_models: [maxwell]\n  methods: [bgk]\n"
+        f"  state_options: {{axis_temperature_ratios: {ratios}}}\n"
+    )
     message = _message(tmp_path, text)
     assert "axis_temperature_ratios" in message and ("0.01" in message or "100" in message), message
 

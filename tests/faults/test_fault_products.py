@@ -8,9 +8,7 @@ import shutil
 import time
 
 import pytest
-
 from fault_helpers import TINY, batch_lines, finished_tiny, job_counts, smk
-
 
 
 @pytest.fixture(scope="module")
@@ -52,9 +50,11 @@ def test_a_deleted_sweep_is_rebuilt_although_tables_and_figures_exist(finished, 
 
 def test_temporaries_of_killed_figure_and_table_jobs_are_removed(finished, tmp_path):
     workdir, plan = _copy(finished, tmp_path)
-    dead_pid = 2 ** 22 + 12345  # above the default pid_max of 4,194,304: never a live process
-    leftovers = [workdir / plan.study_dir / sub / f".x.{ext}.{dead_pid}.tmp"
-                 for sub, ext in (("figures", "png"), ("tables", "csv"))]
+    dead_pid = 2**22 + 12345  # above the default pid_max of 4,194,304: never a live process
+    leftovers = [
+        workdir / plan.study_dir / sub / f".x.{ext}.{dead_pid}.tmp"
+        for sub, ext in (("figures", "png"), ("tables", "csv"))
+    ]
     old = time.time() - 3600
     for f in leftovers:
         f.write_bytes(b"half a file")

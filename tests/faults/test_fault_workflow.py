@@ -25,17 +25,28 @@ from pathlib import Path
 
 import pytest
 import xarray as xr
+from fault_helpers import (
+    batch_lines,
+    check_complete,
+    job_counts,
+    kill_tree,
+    point_folder_files,
+    same_point_content,
+    smk,
+    smk_cmd,
+    solved_in,
+    start_workflow,
+    wait_for,
+    write_study,
+)
 
-from knudsweep.gather import open_sweep
 from knudsweep.cli import main
 from knudsweep.config import load_study
+from knudsweep.gather import open_sweep
 from knudsweep.jobs import FAULT_HOLD_ENV, FAULT_WRITE_LIMIT_ENV
 from knudsweep.plan import StudyPlan
-from knudsweep.status import study_status
 from knudsweep.solver.netcdf_io import read_result, write_result
-
-from fault_helpers import (batch_lines, check_complete, job_counts, kill_tree, point_folder_files, same_point_content,
-                           smk, smk_cmd, solved_in, start_workflow, wait_for, write_study)
+from knudsweep.status import study_status
 
 DELTAS = [0.1, 0.3, 1.0, 10.0]
 SEED = 20261201
@@ -58,8 +69,7 @@ def reference(tmp_path_factory):
     # the delta=10 point waits for the release file before solving, so the
     # reference surely still runs (and holds its locks) while the intruders try
     release = base / "release"
-    proc = start_workflow(workdir, study, base / "reference.log",
-                          env={FAULT_HOLD_ENV: f"{release}@delta=1.0e+01"})
+    proc = start_workflow(workdir, study, base / "reference.log", env={FAULT_HOLD_ENV: f"{release}@delta=1.0e+01"})
     try:
         running = wait_for(lambda: any((workdir / "logs" / "faults" / "batches").rglob("*.log")), 240, proc)
         assert running and proc.poll() is None, (base / "reference.log").read_text()[-3000:]
@@ -67,10 +77,18 @@ def reference(tmp_path_factory):
         # true), so that the running points' "incomplete" marks do not stop
         # them before the lock check (the held point is always running here).
         intruders = {
-            "same": subprocess.Popen(smk_cmd(workdir, study, "--cores", "2", "--rerun-incomplete"),
-                                     stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True),
-            "shared": subprocess.Popen(smk_cmd(workdir, other, "--cores", "2", "--rerun-incomplete"),
-                                       stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True),
+            "same": subprocess.Popen(
+                smk_cmd(workdir, study, "--cores", "2", "--rerun-incomplete"),
+                stdout=subprocess.PIPE,
+                stderr=subprocess.PIPE,
+                text=True,
+            ),
+            "shared": subprocess.Popen(
+                smk_cmd(workdir, other, "--cores", "2", "--rerun-incomplete"),
+                stdout=subprocess.PIPE,
+                stderr=subprocess.PIPE,
+                text=True,
+            ),
         }
         results = {}
         for key, p in intruders.items():
@@ -86,8 +104,14 @@ def reference(tmp_path_factory):
     elapsed = time.monotonic() - t0
     assert proc.returncode == 0, (base / "reference.log").read_text()[-4000:]
     assert still_running, "the reference finished before both intruders had tried to start"
-    return {"study": study, "workdir": workdir, "elapsed": elapsed, "same": same, "shared": shared,
-            "plan": StudyPlan(load_study(study))}
+    return {
+        "study": study,
+        "workdir": workdir,
+        "elapsed": elapsed,
+        "same": same,
+        "shared": shared,
+        "plan": StudyPlan(load_study(study)),
+    }
 
 
 def test_second_workflow_on_the_same_directory_refuses_and_damages_nothing(reference):
@@ -161,15 +185,20 @@ def test_five_random_sigkills_then_resume_lose_nothing(reference, tmp_path, caps
             lost += 1
         diffs = same_point_content(workdir / f, ref / f)
         assert not diffs, (f, diffs)
-    with open_sweep(workdir / plan.sweep_file, "plane_channel") as a, \
-            open_sweep(ref / plan.sweep_file, "plane_channel") as b:
+    with (
+        open_sweep(workdir / plan.sweep_file, "plane_channel") as a,
+        open_sweep(ref / plan.sweep_file, "plane_channel") as b,
+    ):
         for name in ("G_P", "Q_P", "status", "iterations", "code_version"):
             assert (a[name].values == b[name].values).all(), name
     for table in plan.table_files():
         assert (workdir / table).read_bytes() == (ref / table).read_bytes(), table
-    report(capsys, f"kill/resume: {kills} SIGKILLs survived at {moments} s "
-                   f"({finished_early} runs ended before their kill), {lost} points lost, "
-                   f"{seen_tmp} writer temporaries seen after kills (hidden, never read)")
+    report(
+        capsys,
+        f"kill/resume: {kills} SIGKILLs survived at {moments} s "
+        f"({finished_early} runs ended before their kill), {lost} points lost, "
+        f"{seen_tmp} writer temporaries seen after kills (hidden, never read)",
+    )
     assert kills == 5 and lost == 0
 
 
@@ -240,8 +269,11 @@ def test_corrupt_and_outdated_points_are_detected_and_only_they_recomputed(refer
         assert check_complete(f) == "converged"
         assert not same_point_content(f, reference["workdir"] / f.relative_to(workdir))
     assert {f: f.stat().st_mtime_ns for f in before} == before  # the others were not touched
-    report(capsys, f"corruption: {len(corrupt)} corrupt files injected, {len(detected)} detected "
-                   f"by the batch job by path, {len(corrupt)} recomputed with the 1 outdated point in one run")
+    report(
+        capsys,
+        f"corruption: {len(corrupt)} corrupt files injected, {len(detected)} detected "
+        f"by the batch job by path, {len(corrupt)} recomputed with the 1 outdated point in one run",
+    )
     assert len(detected) == len(corrupt)
 
 
@@ -254,8 +286,12 @@ def _version():
 def _mount_tmpfs(folder: Path, size: str) -> bool:
     folder.mkdir(parents=True, exist_ok=True)
     try:
-        r = subprocess.run(["mount", "-t", "tmpfs", "-o", f"size={size}", "tmpfs", str(folder)],
-                           capture_output=True, text=True, timeout=30)
+        r = subprocess.run(
+            ["mount", "-t", "tmpfs", "-o", f"size={size}", "tmpfs", str(folder)],
+            capture_output=True,
+            text=True,
+            timeout=30,
+        )
     except (OSError, subprocess.TimeoutExpired):
         return False
     return r.returncode == 0
@@ -269,10 +305,13 @@ def test_full_disk_fails_only_that_point_cleanly_and_it_is_retried(reference, tm
     workdir = _copy(reference, tmp_path / "w")
     ref_plan = reference["plan"]
     kept = {f: (workdir / f).stat().st_mtime_ns for f in ref_plan.point_files()}
-    study = write_study(tmp_path / "disk.yaml", study="disk", plane_channel__delta=[1.0],
-                        plane_channel__models=["bgk", "s_model"],
-                        plane_channel__walls=[{"model": "maxwell", "alpha": 1.0},
-                                              {"model": "maxwell", "alpha": 0.5}])
+    study = write_study(
+        tmp_path / "disk.yaml",
+        study="disk",
+        plane_channel__delta=[1.0],
+        plane_channel__models=["bgk", "s_model"],
+        plane_channel__walls=[{"model": "maxwell", "alpha": 1.0}, {"model": "maxwell", "alpha": 0.5}],
+    )
     plan = StudyPlan(load_study(study))
     on_tmpfs = next(p for p in plan.points if "model=bgk/wall=maxwell-alpha=0.5" in p)
     limited = next(p for p in plan.points if "model=s_model/wall=maxwell-alpha=0.5" in p)
@@ -297,7 +336,9 @@ def test_full_disk_fails_only_that_point_cleanly_and_it_is_retried(reference, tm
             assert not [f for f in final.parent.iterdir() if f.name.endswith(".tmp")], "no temporary left"
             assert f"could not write point file {plan.point_file(v)}" in batch_log
             assert "bytes free in" in batch_log and "--requeue-failed" in batch_log
-        assert sum(x.startswith("crashed: PointWriteError: could not write point file") for x in reasons) == len(victims)
+        assert sum(x.startswith("crashed: PointWriteError: could not write point file") for x in reasons) == len(
+            victims
+        )
         for p in plan.points:  # every other point, new or old, is complete
             if p not in victims:
                 assert check_complete(workdir / plan.point_file(p)) == "converged"
@@ -312,7 +353,10 @@ def test_full_disk_fails_only_that_point_cleanly_and_it_is_retried(reference, tm
     assert solved_in(r.stdout + r.stderr) == len(victims), batch_lines(r.stdout + r.stderr)
     for p in plan.points:
         assert check_complete(workdir / plan.point_file(p)) == "converged"
-    report(capsys, f"disk full: {len(victims)} write faults injected "
-                   f"({'ENOSPC on tmpfs + ' if mounted else 'no tmpfs (mount refused); '}EFBIG by RLIMIT_FSIZE), "
-                   f"{len(victims)} survived: recorded as crashed, solved again after --requeue-failed; "
-                   f"{len(kept)} earlier points untouched")
+    report(
+        capsys,
+        f"disk full: {len(victims)} write faults injected "
+        f"({'ENOSPC on tmpfs + ' if mounted else 'no tmpfs (mount refused); '}EFBIG by RLIMIT_FSIZE), "
+        f"{len(victims)} survived: recorded as crashed, solved again after --requeue-failed; "
+        f"{len(kept)} earlier points untouched",
+    )

@@ -10,9 +10,7 @@ import subprocess
 import sys
 
 import pytest
-
 from fault_helpers import REPO, TINY, finished_tiny, job_counts, smk
-
 
 
 @pytest.fixture(scope="module")
@@ -88,22 +86,29 @@ else:
 """
 
 
-@pytest.mark.parametrize("stage,limit,target", [
-    ("gather", 8192, "results/tiny/sweep.nc"),
-    ("tables", 64, "results/tiny/new_tables/"),
-    ("figures", 2048, "results/tiny/new_figures/"),
-])
-def test_a_full_disk_while_writing_a_product_is_one_line_with_the_free_space(finished, tmp_path, stage, limit,
-                                                                              target):
+@pytest.mark.parametrize(
+    "stage,limit,target",
+    [
+        ("gather", 8192, "results/tiny/sweep.nc"),
+        ("tables", 64, "results/tiny/new_tables/"),
+        ("figures", 2048, "results/tiny/new_figures/"),
+    ],
+)
+def test_a_full_disk_while_writing_a_product_is_one_line_with_the_free_space(finished, tmp_path, stage, limit, target):
     workdir = tmp_path / "w"
     shutil.copytree(finished[0], workdir, symlinks=True)
     sweep = workdir / finished[1].sweep_file
     before = sweep.read_bytes()
     if stage == "gather":
         sweep.unlink()
-    r = subprocess.run([sys.executable, "-c", _UNDER_LIMIT, stage, str(TINY), str(limit)], cwd=workdir,
-                       capture_output=True, text=True, timeout=300,
-                       env={**os.environ, "PYTHONPATH": str(REPO)})
+    r = subprocess.run(
+        [sys.executable, "-c", _UNDER_LIMIT, stage, str(TINY), str(limit)],
+        cwd=workdir,
+        capture_output=True,
+        text=True,
+        timeout=300,
+        env={**os.environ, "PYTHONPATH": str(REPO)},
+    )
     assert r.returncode == 1, r.stderr[-3000:]
     line = _one_knudsweep_line(r.stderr)
     assert line.startswith(f"knudsweep: {stage}: could not write {target}"), line

@@ -7,16 +7,20 @@ import netCDF4
 import numpy as np
 import pytest
 
-from knudsweep.batch_files import (BATCH_LAYOUT, SERIES_COORD, complete_record, read_batch_file,
-                                   write_batch_file)
+from knudsweep.batch_files import BATCH_LAYOUT, SERIES_COORD, complete_record, read_batch_file, write_batch_file
 from knudsweep.families.relaxation import FAMILY
 from knudsweep.gather import gather_family
 from knudsweep.point_files import read_point_record, record_from_result
 from knudsweep.solver.netcdf_io import write_result
 
 SECTION = {
-    "gases": ["Ar"], "pressures": [100.0], "temperatures": [300.0], "initial_states": ["two_beams"],
-    "molecular_models": ["maxwell"], "methods": ["bgk"], "n_particles": [],
+    "gases": ["Ar"],
+    "pressures": [100.0],
+    "temperatures": [300.0],
+    "initial_states": ["two_beams"],
+    "molecular_models": ["maxwell"],
+    "methods": ["bgk"],
+    "n_particles": [],
     "run": {"t_end": 2.0, "n_output": 5, "n_velocity": 12},
 }
 

@@ -34,17 +34,26 @@ def run_cli(capsys, *argv):
         (["--delta", "1", "--alpha", "1.5"], "--alpha: got 1.5; allowed range is [0.01, 1]"),
         (["--delta", "1", "--alpha", "0"], "--alpha: got 0; allowed range is [0.01, 1]"),
         (["--delta", "1", "--alpha-upper", "2"], "--alpha-upper: got 2; allowed range is [0.01, 1]"),
-        (["--delta", "1", "--wall-model", "cercignani_lampis", "--alpha-t", "2"],
-         "--alpha-t: got 2; allowed range is [0.01, 2)"),
-        (["--delta", "1", "--wall-model", "cercignani_lampis", "--alpha-n", "1.2"],
-         "--alpha-n: got 1.2; allowed range is [0.01, 1]"),
+        (
+            ["--delta", "1", "--wall-model", "cercignani_lampis", "--alpha-t", "2"],
+            "--alpha-t: got 2; allowed range is [0.01, 2)",
+        ),
+        (
+            ["--delta", "1", "--wall-model", "cercignani_lampis", "--alpha-n", "1.2"],
+            "--alpha-n: got 1.2; allowed range is [0.01, 1]",
+        ),
         # the study schema's lower bound (0.01, the tested range), not just > 0
         (["--delta", "1", "--alpha", "0.005"], "--alpha: got 0.005; allowed range is [0.01, 1]"),
-        (["--geometry", "tube", "--delta", "1", "--wall-model", "cercignani_lampis", "--alpha-n", "0.001"],
-         "--alpha-n: got 0.001; allowed range is [0.01, 1]"),
+        (
+            ["--geometry", "tube", "--delta", "1", "--wall-model", "cercignani_lampis", "--alpha-n", "0.001"],
+            "--alpha-n: got 0.001; allowed range is [0.01, 1]",
+        ),
         (["--delta", "1", "--model", "bkg"], "--model: unknown value 'bkg'; allowed values are bgk, s_model, es_bgk"),
         (["--delta", "1", "--problem", "flow"], "--problem: unknown value 'flow'"),
-        (["--pressure", "100", "--length", "1e-6", "--gas", "Argon"], "--gas: unknown gas 'Argon'; allowed values are He"),
+        (
+            ["--pressure", "100", "--length", "1e-6", "--gas", "Argon"],
+            "--gas: unknown gas 'Argon'; allowed values are He",
+        ),
         (["--pressure", "100"], "--length: required with --pressure"),
         (["--delta", "1", "--kn", "1"], "give exactly one of --delta, --kn, --pressure"),
         (["--delta", "1", "--n-space", "2"], "--n-space: got 2; allowed range is [8, 4000]"),
@@ -52,13 +61,20 @@ def run_cli(capsys, *argv):
         (["--delta", "abc"], "argument --delta: invalid float value: 'abc'"),
         (["--delta", "2e4"], "--delta: got 20000; allowed range is [0.0001, 10000]"),
         (["--geometry", "tube", "--delta", "2000"], "--delta: got 2000; allowed range is [0, 1000]"),
-        (["--geometry", "tube", "--delta", "1", "--problem", "couette"],
-         "--problem: unknown value 'couette'; allowed values are poiseuille, thermal_creep for --geometry tube"),
+        (
+            ["--geometry", "tube", "--delta", "1", "--problem", "couette"],
+            "--problem: unknown value 'couette'; allowed values are poiseuille, thermal_creep for --geometry tube",
+        ),
         (["--geometry", "tube", "--delta", "1", "--aspect-ratio", "2"], "--aspect-ratio: only for --geometry duct"),
         (["--delta", "1", "--aspect-ratio", "2"], "--aspect-ratio: only for --geometry duct"),
-        (["--geometry", "duct", "--delta", "1", "--aspect-ratio", "0.5"], "--aspect-ratio: got 0.5; allowed range is [1, 50]"),
-        (["--geometry", "duct", "--delta", "1", "--alpha-upper", "0.5"],
-         "--alpha-upper: only for --geometry plane_channel (a tube or duct has one wall)"),
+        (
+            ["--geometry", "duct", "--delta", "1", "--aspect-ratio", "0.5"],
+            "--aspect-ratio: got 0.5; allowed range is [1, 50]",
+        ),
+        (
+            ["--geometry", "duct", "--delta", "1", "--alpha-upper", "0.5"],
+            "--alpha-upper: only for --geometry plane_channel (a tube or duct has one wall)",
+        ),
         (["--geometry", "tube", "--pressure", "100"], "--length: required with --pressure (tube radius in m"),
         (["--geometry", "sphere", "--delta", "1"], "argument --geometry: invalid choice"),
         (["--delta", "1", "--wall-model", "specular"], "argument --wall-model: invalid choice"),
@@ -82,8 +98,9 @@ def test_console_script_has_no_traceback():
 
 def test_status_of_a_fresh_study_lists_missing_points(tmp_path, capsys):
     study = tmp_path / "s.yaml"
-    study.write_text("study: s\nplane_channel: {problems: [poiseuille], models: [bgk], "
-                     "walls: [{alpha: 1.0}], delta: [0.1, 1.0]}\n")
+    study.write_text(
+        "study: s\nplane_channel: {problems: [poiseuille], models: [bgk], walls: [{alpha: 1.0}], delta: [0.1, 1.0]}\n"
+    )
     (tmp_path / "results").mkdir()
     assert main(["status", str(study), "--directory", str(tmp_path)]) == 0
     out = capsys.readouterr().out
@@ -95,8 +112,9 @@ def test_status_of_a_fresh_study_lists_missing_points(tmp_path, capsys):
 
 def test_status_with_a_bad_study_is_one_line(tmp_path, capsys):
     study = tmp_path / "s.yaml"
-    study.write_text("study: s\nplane_channel: {problems: [poiseuille], models: [bgk], "
-                     "walls: [{alpha: 1.0}], delta: [-0.1]}\n")
+    study.write_text(
+        "study: s\nplane_channel: {problems: [poiseuille], models: [bgk], walls: [{alpha: 1.0}], delta: [-0.1]}\n"
+    )
     code, err = run_cli(capsys, "status", str(study))
     assert code == 2 and err == "knudsweep: error: plane_channel.delta[0]: got -0.1; allowed range is (0, 1e+06]\n"
 
@@ -111,9 +129,31 @@ def test_bench_runs_scripts_it_finds(tmp_path, capsys):
 def test_solve_one_point_json_and_netcdf(tmp_path):
     exe = Path(sys.executable).with_name("knudsweep")
     out = tmp_path / "p.nc"
-    r = subprocess.run([str(exe), "solve", "--problem", "poiseuille", "--model", "bgk", "--kn", "0.886227",
-                        "--alpha", "0.9", "--n-space", "16", "--n-velocity", "8", "--tol", "1e-6",
-                        "--output", str(out), "--json"], capture_output=True, text=True)
+    r = subprocess.run(
+        [
+            str(exe),
+            "solve",
+            "--problem",
+            "poiseuille",
+            "--model",
+            "bgk",
+            "--kn",
+            "0.886227",
+            "--alpha",
+            "0.9",
+            "--n-space",
+            "16",
+            "--n-velocity",
+            "8",
+            "--tol",
+            "1e-6",
+            "--output",
+            str(out),
+            "--json",
+        ],
+        capture_output=True,
+        text=True,
+    )
     assert r.returncode == 0, r.stderr
     summary = json.loads(r.stdout)  # exactly one JSON object on stdout
     assert summary["status"] == "converged" and summary["iterations"] > 0
@@ -127,24 +167,46 @@ def test_solve_one_point_json_and_netcdf(tmp_path):
 def test_solve_from_pressure_uses_the_gas(capsys):
     from knudsweep.solver.gas import delta_from_pressure
 
-    code = main(["solve", "--pressure", "2000", "--length", "2e-6", "--temperature", "300", "--gas", "He",
-                 "--n-space", "16", "--n-velocity", "8", "--tol", "1e-6", "--json"])
+    code = main(
+        [
+            "solve",
+            "--pressure",
+            "2000",
+            "--length",
+            "2e-6",
+            "--temperature",
+            "300",
+            "--gas",
+            "He",
+            "--n-space",
+            "16",
+            "--n-velocity",
+            "8",
+            "--tol",
+            "1e-6",
+            "--json",
+        ]
+    )
     summary = json.loads(capsys.readouterr().out)
     assert code == 0
     assert summary["delta"] == pytest.approx(delta_from_pressure("He", 2000, 300, 2e-6), rel=1e-5)
 
 
-@pytest.mark.parametrize(("geometry", "extra", "alpha", "expected"), [
-    ("tube", [], 0.8, "tube"),
-    ("duct", ["--aspect-ratio", "2"], 1.0, "duct-A=2.0"),
-])
+@pytest.mark.parametrize(
+    ("geometry", "extra", "alpha", "expected"),
+    [
+        ("tube", [], 0.8, "tube"),
+        ("duct", ["--aspect-ratio", "2"], 1.0, "duct-A=2.0"),
+    ],
+)
 def test_solve_tube_and_duct_points(capsys, tmp_path, geometry, extra, alpha, expected):
     from knudsweep.solver.limits import free_molecular_flow_rate
     from knudsweep.solver.netcdf_io import read_result
 
     out = tmp_path / "p.nc"
-    code = main(["solve", "--geometry", geometry, *extra, "--delta", "0", "--alpha", str(alpha),
-                 "--output", str(out), "--json"])
+    code = main(
+        ["solve", "--geometry", geometry, *extra, "--delta", "0", "--alpha", str(alpha), "--output", str(out), "--json"]
+    )
     summary = json.loads(capsys.readouterr().out)
     assert code == 0 and summary["status"] == "converged"
     assert summary["geometry"] == expected and summary["wall"] == f"maxwell-alpha={alpha}"
@@ -162,8 +224,10 @@ def test_solve_tube_and_duct_points(capsys, tmp_path, geometry, extra, alpha, ex
 @pytest.mark.parametrize(
     "argv,expected",
     [
-        (["--method", "lattice"], "--method: unknown value 'lattice'; allowed values are dsmc, bgk, s_model, es_bgk, "
-                                  "fast_spectral"),
+        (
+            ["--method", "lattice"],
+            "--method: unknown value 'lattice'; allowed values are dsmc, bgk, s_model, es_bgk, fast_spectral",
+        ),
         (["--molecular-model", "lj"], "--molecular-model: unknown value 'lj'"),
         (["--initial-state", "hot"], "--initial-state: unknown value 'hot'"),
         (["--n-particles", "50"], "--n-particles: got 50; allowed range is [100, 1e+08]"),
@@ -191,8 +255,26 @@ def test_solve_relaxation_point_fast_spectral_json_and_netcdf(capsys, tmp_path):
     from knudsweep.solver.netcdf_io import read_result
 
     out = tmp_path / "r.nc"
-    code = main(["solve", "--family", "relaxation", "--method", "fast_spectral", "--molecular-model", "maxwell",
-                 "--n-velocity", "24", "--t-end", "4", "--n-output", "9", "--output", str(out), "--json"])
+    code = main(
+        [
+            "solve",
+            "--family",
+            "relaxation",
+            "--method",
+            "fast_spectral",
+            "--molecular-model",
+            "maxwell",
+            "--n-velocity",
+            "24",
+            "--t-end",
+            "4",
+            "--n-output",
+            "9",
+            "--output",
+            str(out),
+            "--json",
+        ]
+    )
     summary = json.loads(capsys.readouterr().out)
     assert code == 0 and summary["status"] == "converged"
     assert summary["method"] == "fast_spectral" and summary["molecular_model"] == "maxwell"
@@ -205,8 +287,23 @@ def test_solve_relaxation_point_fast_spectral_json_and_netcdf(capsys, tmp_path):
 
 
 def test_solve_relaxation_point_dsmc_text(capsys):
-    code = main(["solve", "--family", "relaxation", "--n-particles", "1000", "--n-replicas", "3",
-                 "--t-end", "1", "--n-output", "3", "--h-bins-per-axis", "4"])
+    code = main(
+        [
+            "solve",
+            "--family",
+            "relaxation",
+            "--n-particles",
+            "1000",
+            "--n-replicas",
+            "3",
+            "--t-end",
+            "1",
+            "--n-output",
+            "3",
+            "--h-bins-per-axis",
+            "4",
+        ]
+    )
     out = capsys.readouterr().out
     assert code == 0 and out.startswith("status: converged")
     assert "mean_collision_time_s = " in out
@@ -214,8 +311,9 @@ def test_solve_relaxation_point_dsmc_text(capsys):
 
 def test_status_without_results_says_so(tmp_path, capsys):
     study = tmp_path / "s.yaml"
-    study.write_text("study: s\nplane_channel: {problems: [poiseuille], models: [bgk], "
-                     "walls: [{alpha: 1.0}], delta: [0.1, 1.0]}\n")
+    study.write_text(
+        "study: s\nplane_channel: {problems: [poiseuille], models: [bgk], walls: [{alpha: 1.0}], delta: [0.1, 1.0]}\n"
+    )
     assert main(["status", str(study), "--directory", str(tmp_path)]) == 0
     out = capsys.readouterr().out
     assert out.count("\n") == 1 and "2 points, none computed: there is no" in out and "missing" not in out
@@ -262,16 +360,51 @@ def test_numba_cache_is_one_place_whatever_the_folder(tmp_path, monkeypatch):
     assert numba_cache_dir() == tmp_path / "mine"
 
 
-@pytest.mark.parametrize(("argv", "section"), [
-    (["--geometry", "duct", "--aspect-ratio", "2", "--problem", "thermal_creep", "--delta", "1", "--alpha", "0.9",
-      "--n-velocity", "8", "--tol", "1e-7"],
-     {"tube_duct": {"geometries": [{"shape": "duct", "aspect_ratio": 2.0}], "problems": ["thermal_creep"],
-                    "models": ["bgk"], "walls": [{"alpha": 0.9}], "delta": [1.0],
-                    "resolution": {"n_velocity": 8, "tol": 1e-7}}}),
-    (["--model", "s_model", "--delta", "0.5", "--alpha", "0.8", "--alpha-upper", "0.6", "--n-space", "20"],
-     {"plane_channel": {"problems": ["poiseuille"], "models": ["s_model"], "delta": [0.5],
-                        "walls": [{"alpha": 0.8, "upper": {"alpha": 0.6}}], "resolution": {"n_space": 20}}}),
-])
+@pytest.mark.parametrize(
+    ("argv", "section"),
+    [
+        (
+            [
+                "--geometry",
+                "duct",
+                "--aspect-ratio",
+                "2",
+                "--problem",
+                "thermal_creep",
+                "--delta",
+                "1",
+                "--alpha",
+                "0.9",
+                "--n-velocity",
+                "8",
+                "--tol",
+                "1e-7",
+            ],
+            {
+                "tube_duct": {
+                    "geometries": [{"shape": "duct", "aspect_ratio": 2.0}],
+                    "problems": ["thermal_creep"],
+                    "models": ["bgk"],
+                    "walls": [{"alpha": 0.9}],
+                    "delta": [1.0],
+                    "resolution": {"n_velocity": 8, "tol": 1e-7},
+                }
+            },
+        ),
+        (
+            ["--model", "s_model", "--delta", "0.5", "--alpha", "0.8", "--alpha-upper", "0.6", "--n-space", "20"],
+            {
+                "plane_channel": {
+                    "problems": ["poiseuille"],
+                    "models": ["s_model"],
+                    "delta": [0.5],
+                    "walls": [{"alpha": 0.8, "upper": {"alpha": 0.6}}],
+                    "resolution": {"n_space": 20},
+                }
+            },
+        ),
+    ],
+)
 def test_solve_builds_the_point_a_study_would(argv, section):
     # the CLI builds a point's values through the family's grid code: the same values as a study's point
     from knudsweep.cli import _solve_values, build_parser

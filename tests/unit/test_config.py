@@ -187,9 +187,15 @@ def test_repeated_blocks_are_defs_with_clear_messages():
     raw = yaml.safe_load(SCHEMA_FILE.read_text())
     for fam in ("plane_channel", "tube_duct"):
         assert raw["properties"][fam]["properties"]["iteration"]["$ref"] == "#/$defs/iteration"
-        assert raw["properties"][fam]["properties"]["resolution"]["properties"]["accuracy"]["$ref"] == "#/$defs/accuracy"
+        assert (
+            raw["properties"][fam]["properties"]["resolution"]["properties"]["accuracy"]["$ref"] == "#/$defs/accuracy"
+        )
     msg = error_of(tiny(walls=[{"alpha": 0.9, "upper": {"alhpa": 0.8}}]))
-    assert msg.startswith("plane_channel.walls[0].upper.alhpa: unknown key") and "alpha_t" in msg and "upper" not in msg[30:]
+    assert (
+        msg.startswith("plane_channel.walls[0].upper.alhpa: unknown key")
+        and "alpha_t" in msg
+        and "upper" not in msg[30:]
+    )
     msg = error_of(tiny(iteration={"max_iter": 0}))
     assert msg.startswith("plane_channel.iteration.max_iter: got 0") and "[1, 1e+08]" in msg
     study = validate_study(tiny(walls=[{"alpha": 0.9, "upper": {"alpha": 0.8}}]))
@@ -224,8 +230,11 @@ def test_accuracy_target_excludes_explicit_grid_sizes(tmp_path):
     study = {
         "study": "acc",
         "plane_channel": {
-            "problems": ["poiseuille"], "models": ["bgk"], "walls": [{"model": "maxwell", "alpha": 1.0}],
-            "delta": [1.0], "resolution": {"accuracy": 1e-4, "n_space": 40},
+            "problems": ["poiseuille"],
+            "models": ["bgk"],
+            "walls": [{"model": "maxwell", "alpha": 1.0}],
+            "delta": [1.0],
+            "resolution": {"accuracy": 1e-4, "n_space": 40},
         },
     }
     path = tmp_path / "s.yaml"

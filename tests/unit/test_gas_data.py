@@ -2,13 +2,24 @@
 
 import pytest
 
-from knudsweep.solver.gas import get_gas, known_gases, viscosity, vhs_reference_viscosity
+from knudsweep.solver.gas import get_gas, known_gases, vhs_reference_viscosity, viscosity
 
 # CRC Handbook of Chemistry and Physics, "Viscosity of Gases" (M. L. Huber,
 # A. H. Harvey), values at 300 K in micro-pascal seconds (check-values.md
 # section 4.2(b), tagged [confirmed]).
-CRC_300K_UPA_S = {"He": 19.9, "Ne": 31.9, "Ar": 22.7, "Kr": 25.5, "Xe": 23.2, "H2": 8.9,
-                  "N2": 17.9, "O2": 20.7, "CO2": 15.0, "CH4": 11.1, "air": 18.5}
+CRC_300K_UPA_S = {
+    "He": 19.9,
+    "Ne": 31.9,
+    "Ar": 22.7,
+    "Kr": 25.5,
+    "Xe": 23.2,
+    "H2": 8.9,
+    "N2": 17.9,
+    "O2": 20.7,
+    "CO2": 15.0,
+    "CH4": 11.1,
+    "air": 18.5,
+}
 
 # 2 %: the power law mu_ref (T/273)^omega is a two-parameter fit (Bird 1994,
 # eq. 4.62); over 250-500 K its deviation from the real viscosity is of order
@@ -43,9 +54,18 @@ VHS_RTOL = 0.005
 
 @pytest.mark.parametrize(
     "gas",
-    [pytest.param(g, marks=pytest.mark.xfail(reason="H2 row: d_vhs=2.92 gives mu_ref 0.59 % high "
-                                              "(2.911 would match); check Bird 1994 Table A1", strict=True))
-     if g == "H2" else g for g in sorted(CRC_300K_UPA_S)],
+    [
+        pytest.param(
+            g,
+            marks=pytest.mark.xfail(
+                reason="H2 row: d_vhs=2.92 gives mu_ref 0.59 % high (2.911 would match); check Bird 1994 Table A1",
+                strict=True,
+            ),
+        )
+        if g == "H2"
+        else g
+        for g in sorted(CRC_300K_UPA_S)
+    ],
 )
 def test_vhs_diameter_is_consistent_with_reference_viscosity(gas):
     # Bird (1994) eq. 4.62: mu_ref from m, d_vhs, omega must reproduce the tabulated mu_ref.

@@ -21,8 +21,9 @@ def sample_result(status="converged"):
         profiles={"velocity": Quantity(1.0 - 4 * y**2, "1", "reduced velocity", ("y",))},
         coefficients={"G_P": Quantity(0.7, "1", "reduced Poiseuille flow rate")},
         discretization={"n_space": 7, "n_velocity": 8},
-        convergence=ConvergenceRecord(np.array([1.0, 1e-3, 1e-9]), 3, status,
-                                      "" if status == "converged" else "max_iter reached", 1e-8),
+        convergence=ConvergenceRecord(
+            np.array([1.0, 1e-3, 1e-9]), 3, status, "" if status == "converged" else "max_iter reached", 1e-8
+        ),
         wall_time=0.25,
     )
 
@@ -124,11 +125,27 @@ def test_point_files_name_each_parameter_the_same_way_in_every_geometry(tmp_path
     from knudsweep.solver.tube import solve_tube
     from knudsweep.solver.walls import CercignaniLampisWall, MaxwellWall
 
-    plane = solve_plane_channel("poiseuille", delta=1.0, model="s_model", lower_wall=MaxwellWall(0.9),
-                                upper_wall=CercignaniLampisWall(0.8, 0.5), n_space=8, n_velocity=8, tol=1e-6,
-                                error_estimate=False)
-    tube = solve_tube("poiseuille", delta=1.0, model="s_model", wall=MaxwellWall(0.9), n_space=8, n_velocity=8,
-                      tol=1e-6, error_estimate=False)
+    plane = solve_plane_channel(
+        "poiseuille",
+        delta=1.0,
+        model="s_model",
+        lower_wall=MaxwellWall(0.9),
+        upper_wall=CercignaniLampisWall(0.8, 0.5),
+        n_space=8,
+        n_velocity=8,
+        tol=1e-6,
+        error_estimate=False,
+    )
+    tube = solve_tube(
+        "poiseuille",
+        delta=1.0,
+        model="s_model",
+        wall=MaxwellWall(0.9),
+        n_space=8,
+        n_velocity=8,
+        tol=1e-6,
+        error_estimate=False,
+    )
     with xr.open_dataset(write_result(plane, tmp_path / "plane.nc")) as ds:
         plane_attrs = dict(ds.attrs)
     with xr.open_dataset(write_result(tube, tmp_path / "tube.nc")) as ds:

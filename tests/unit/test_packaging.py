@@ -24,8 +24,12 @@ REPO = Path(__file__).resolve().parents[2]
 @pytest.fixture(scope="module")
 def wheel(tmp_path_factory):
     dist = tmp_path_factory.mktemp("dist")
-    subprocess.run([sys.executable, "-m", "pip", "wheel", "-q", "--no-deps", "--no-build-isolation", "-w", str(dist),
-                    str(REPO)], check=True, capture_output=True, text=True)
+    subprocess.run(
+        [sys.executable, "-m", "pip", "wheel", "-q", "--no-deps", "--no-build-isolation", "-w", str(dist), str(REPO)],
+        check=True,
+        capture_output=True,
+        text=True,
+    )
     return next(dist.glob("knudsweep-*.whl"))
 
 
@@ -45,10 +49,18 @@ def test_installed_wheel_solves_a_point_outside_the_checkout(wheel, tmp_path):
     env_dir = tmp_path / "venv"
     subprocess.run([sys.executable, "-m", "venv", "--without-pip", str(env_dir)], check=True)
     py = env_dir / "bin" / "python"
-    target = subprocess.run([str(py), "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])"],
-                            check=True, capture_output=True, text=True).stdout.strip()
-    subprocess.run([sys.executable, "-m", "pip", "install", "-q", "--no-deps", "--target", target, str(wheel)],
-                   check=True, capture_output=True, text=True)
+    target = subprocess.run(
+        [str(py), "-c", "import sysconfig; print(sysconfig.get_paths()['purelib'])"],
+        check=True,
+        capture_output=True,
+        text=True,
+    ).stdout.strip()
+    subprocess.run(
+        [sys.executable, "-m", "pip", "install", "-q", "--no-deps", "--target", target, str(wheel)],
+        check=True,
+        capture_output=True,
+        text=True,
+    )
     # dependencies from this environment; its .pth files (the editable install of
     # this checkout) are not processed from a path listed in a .pth file
     deps = [p for p in {*site.getsitepackages(), sysconfig.get_paths()["purelib"]} if Path(p).is_dir()]
@@ -58,17 +70,27 @@ def test_installed_wheel_solves_a_point_outside_the_checkout(wheel, tmp_path):
     env = {k: v for k, v in os.environ.items() if not k.startswith(("PYTHON", "KNUDSWEEP_"))}
     env["NUMBA_CACHE_DIR"] = str(tmp_path / "numba_cache")
     out = subprocess.run(
-        [str(py), "-c",
-         "import sys, knudsweep; assert knudsweep.__file__.startswith(sys.argv[1]), knudsweep.__file__;"
-         "from knudsweep.cli import main; sys.exit(main(['solve', '--delta', '1.0', '--json']))", target],
-        cwd=work, env=env, capture_output=True, text=True, timeout=600)
+        [
+            str(py),
+            "-c",
+            "import sys, knudsweep; assert knudsweep.__file__.startswith(sys.argv[1]), knudsweep.__file__;"
+            "from knudsweep.cli import main; sys.exit(main(['solve', '--delta', '1.0', '--json']))",
+            target,
+        ],
+        cwd=work,
+        env=env,
+        capture_output=True,
+        text=True,
+        timeout=600,
+    )
     assert out.returncode == 0, out.stderr
     record = json.loads(out.stdout)
     # G_P(delta = 1), plane channel, BGK, diffuse walls: the value the checkout gives
     from knudsweep.solver.plane_channel import solve_plane_channel
 
-    assert record["coefficients"]["G_P"] == pytest.approx(solve_plane_channel("poiseuille", delta=1.0).coefficient("G_P"),
-                                                          rel=1e-5)
+    assert record["coefficients"]["G_P"] == pytest.approx(
+        solve_plane_channel("poiseuille", delta=1.0).coefficient("G_P"), rel=1e-5
+    )
 
 
 def test_numerics_never_import_the_study_layer():

@@ -13,11 +13,11 @@ from knudsweep.families.plane_channel import FAMILY, MODELS
 from knudsweep.families.plane_channel.report import model_error_pairs, model_error_ratio
 from knudsweep.gather import gather_family
 from knudsweep.point_files import valid_records
-from knudsweep.tables import write_tables
 from knudsweep.solver.netcdf_io import write_result
 from knudsweep.solver.plane_channel.boltzmann_driver import solve_plane_channel_boltzmann
 from knudsweep.solver.plane_channel.driver import BOLTZMANN_MODELS, solve_plane_channel
 from knudsweep.solver.walls import MaxwellWall
+from knudsweep.tables import write_tables
 
 SECTION = {
     "problems": ["poiseuille", "thermal_creep"],
@@ -48,8 +48,14 @@ def test_model_names_agree_with_the_solver():
 @pytest.mark.parametrize(
     "change, key",
     [
-        ({"problems": ["poiseuille", "couette"]}, r"^problems: model boltzmann_hard_sphere solves poiseuille, thermal_creep only"),
-        ({"walls": [{"model": "cercignani_lampis", "alpha_t": 0.8, "alpha_n": 0.5}]}, r"^walls\[0\]\.model: .* maxwell only"),
+        (
+            {"problems": ["poiseuille", "couette"]},
+            r"^problems: model boltzmann_hard_sphere solves poiseuille, thermal_creep only",
+        ),
+        (
+            {"walls": [{"model": "cercignani_lampis", "alpha_t": 0.8, "alpha_n": 0.5}]},
+            r"^walls\[0\]\.model: .* maxwell only",
+        ),
         ({"delta": [1e-4, 1.0]}, r"^delta: .*with model boltzmann_hard_sphere is \[0.001, 1000\]"),
         ({"resolution": {"n_space": 16, "n_velocity": 40, "tol": 1e-8}}, r"^resolution\.n_velocity: got 40.*\[4, 24\]"),
     ],
@@ -64,15 +70,20 @@ def test_check_section_refuses_what_the_boltzmann_solver_cannot_do(change, key):
 def test_solver_dispatch_refuses_other_problems_and_walls():
     from knudsweep.solver.walls import CercignaniLampisWall
 
-    with pytest.raises(ValueError, match=r"^problem: model boltzmann_hard_sphere solves poiseuille, thermal_creep only"):
+    with pytest.raises(
+        ValueError, match=r"^problem: model boltzmann_hard_sphere solves poiseuille, thermal_creep only"
+    ):
         solve_plane_channel("heat_transfer", delta=1.0, model="boltzmann_hard_sphere")
     with pytest.raises(ValueError, match=r"^lower_wall: model boltzmann_hard_sphere takes Maxwell walls only"):
-        solve_plane_channel("poiseuille", delta=1.0, model="boltzmann_hard_sphere",
-                            lower_wall=CercignaniLampisWall(0.8, 0.5))
+        solve_plane_channel(
+            "poiseuille", delta=1.0, model="boltzmann_hard_sphere", lower_wall=CercignaniLampisWall(0.8, 0.5)
+        )
 
 
 def test_point_cost_of_the_boltzmann_model():
-    pts = {(p.values["model"], p.values["delta"]): p for p in FAMILY.points(SECTION) if p.values["problem"] == "poiseuille"}
+    pts = {
+        (p.values["model"], p.values["delta"]): p for p in FAMILY.points(SECTION) if p.values["problem"] == "poiseuille"
+    }
     lbe = FAMILY.point_cost(pts["boltzmann_hard_sphere", 1.0].values)
     bgk = FAMILY.point_cost(pts["bgk", 1.0].values)
     # tiny LBE points take tens of milliseconds, BGK ones a few
@@ -86,7 +97,11 @@ def test_model_error_ratio_propagates_relative_estimates():
     r, e = model_error_ratio([2.0], [0.02], [1.0], [0.001])
     assert r[0] == 2.0 and e[0] == pytest.approx(2.0 * (0.01 + 0.001))
     assert model_error_pairs({**SECTION, "models": ["bgk", "s_model"]})[0] is None
-    assert model_error_pairs({**SECTION, "problems": ["poiseuille"]}) == ("boltzmann_hard_sphere", ["bgk", "s_model"], ["G_P"])
+    assert model_error_pairs({**SECTION, "problems": ["poiseuille"]}) == (
+        "boltzmann_hard_sphere",
+        ["bgk", "s_model"],
+        ["G_P"],
+    )
 
 
 @pytest.fixture(scope="module")
@@ -107,10 +122,15 @@ def test_gathered_boltzmann_points_are_the_solvers(gathered):
     assert set(ds["status"].values.ravel()) == {"converged"}
     assert "boltzmann_hard_sphere" in ds["model"].values.tolist()
     got = ds["G_T"].sel(problem="thermal_creep", model="boltzmann_hard_sphere", wall=WALL, delta=1.0).item()
-    direct = solve_plane_channel_boltzmann("thermal_creep", delta=1.0, lower_wall=MaxwellWall(0.8), n_space=16,
-                                           n_velocity=6, tol=1e-8, accelerate=True)
+    direct = solve_plane_channel_boltzmann(
+        "thermal_creep", delta=1.0, lower_wall=MaxwellWall(0.8), n_space=16, n_velocity=6, tol=1e-8, accelerate=True
+    )
     assert got == direct.coefficient("G_T")
-    est = ds["G_T_error_estimate"].sel(problem="thermal_creep", model="boltzmann_hard_sphere", wall=WALL, delta=1.0).item()
+    est = (
+        ds["G_T_error_estimate"]
+        .sel(problem="thermal_creep", model="boltzmann_hard_sphere", wall=WALL, delta=1.0)
+        .item()
+    )
     assert est == direct.coefficient("G_T_error_estimate") and 0 < est < 1e-2 * got
 
 
@@ -126,13 +146,17 @@ def test_model_error_table(gathered, tmp_path):
         ref = ds[key].sel(model="boltzmann_hard_sphere", **sel).item()
         assert row[f"{key} linearized Boltzmann (hard spheres) [1]"] == ref
         for model, name in (("bgk", "BGK"), ("s_model", "S-model")):
-            assert row[f"{key} {name} / Boltzmann [1]"] == pytest.approx(ds[key].sel(model=model, **sel).item() / ref, rel=1e-14)
+            assert row[f"{key} {name} / Boltzmann [1]"] == pytest.approx(
+                ds[key].sel(model=model, **sel).item() / ref, rel=1e-14
+            )
             assert 0 < row[f"{key} {name} / Boltzmann error estimate [1]"] < 1e-2
     ratios = frame[[c for c in frame.columns if c.endswith("/ Boltzmann [1]")]].to_numpy(float)
     # the model equations differ from the hard-sphere Boltzmann equation by up to ~15 % in G_T
     # (phase-1 benchmark, S-model/LBE 0.92-1.15) and agree as delta -> 0 (same free-molecular limit)
     assert np.all(np.abs(ratios - 1.0) < 0.3)
-    small = frame[frame["delta [1]"] == 0.1][[c for c in frame.columns if c.endswith("/ Boltzmann [1]")]].to_numpy(float)
+    small = frame[frame["delta [1]"] == 0.1][[c for c in frame.columns if c.endswith("/ Boltzmann [1]")]].to_numpy(
+        float
+    )
     big = frame[frame["delta [1]"] == 10.0][[c for c in frame.columns if c.endswith("/ Boltzmann [1]")]].to_numpy(float)
     assert np.abs(small - 1.0).max() < np.abs(big - 1.0).max()
     written = write_tables(tables, tmp_path / "tables")
@@ -180,10 +204,22 @@ def test_missing_points_give_no_data(tmp_path):
 @pytest.mark.parametrize(
     "argv, expected",
     [
-        (["--problem", "couette"], "--problem: model boltzmann_hard_sphere solves poiseuille, thermal_creep only, got 'couette'"),
-        (["--wall-model", "cercignani_lampis"], "--wall-model: model boltzmann_hard_sphere takes maxwell only, got 'cercignani_lampis'"),
-        (["--geometry", "tube"], "--model: unknown value 'boltzmann_hard_sphere'; allowed values are bgk, s_model, es_bgk for --geometry tube"),
-        (["--n-velocity", "30"], "--n-velocity: got 30; with --model boltzmann_hard_sphere it counts speed nodes, allowed range is [4, 24]"),
+        (
+            ["--problem", "couette"],
+            "--problem: model boltzmann_hard_sphere solves poiseuille, thermal_creep only, got 'couette'",
+        ),
+        (
+            ["--wall-model", "cercignani_lampis"],
+            "--wall-model: model boltzmann_hard_sphere takes maxwell only, got 'cercignani_lampis'",
+        ),
+        (
+            ["--geometry", "tube"],
+            "--model: unknown value 'boltzmann_hard_sphere'; allowed values are bgk, s_model, es_bgk for --geometry tube",
+        ),
+        (
+            ["--n-velocity", "30"],
+            "--n-velocity: got 30; with --model boltzmann_hard_sphere it counts speed nodes, allowed range is [4, 24]",
+        ),
     ],
 )
 def test_cli_refuses_what_the_boltzmann_model_cannot_do(capsys, argv, expected):
@@ -199,8 +235,22 @@ def test_cli_solves_a_boltzmann_point(capsys):
 
     from knudsweep.cli import main
 
-    code = main(["solve", "--model", "boltzmann_hard_sphere", "--problem", "thermal_creep", "--delta", "1",
-                 "--n-space", "16", "--n-velocity", "4", "--json"])
+    code = main(
+        [
+            "solve",
+            "--model",
+            "boltzmann_hard_sphere",
+            "--problem",
+            "thermal_creep",
+            "--delta",
+            "1",
+            "--n-space",
+            "16",
+            "--n-velocity",
+            "4",
+            "--json",
+        ]
+    )
     out = json.loads(capsys.readouterr().out)
     assert code == 0 and out["status"] == "converged" and out["parameters"]["kinetic_model"] == "boltzmann_hard_sphere"
     direct = solve_plane_channel_boltzmann("thermal_creep", delta=1.0, n_space=16, n_velocity=4)

@@ -39,7 +39,7 @@ def test_example_path_is_readable():
 def test_text_forms():
     assert format_exp(1) == "1.0e+00"
     assert format_exp(100) == "1.0e+02"
-    assert format_exp(10 ** -1.5) == "3.16228e-02"
+    assert format_exp(10**-1.5) == "3.16228e-02"
     assert format_plain(1) == "1.0" and format_plain(0.9) == "0.9" and format_plain(0.125) == "0.125"
 
 
@@ -71,16 +71,19 @@ def test_resolution_is_part_of_identity_but_iteration_limit_is_not():
 
 
 def test_cercignani_lampis_and_asymmetric_labels():
-    walls = [{"model": "cercignani_lampis", "alpha_t": 0.9, "alpha_n": 0.5},
-             {"alpha": 1.0, "upper": {"alpha": 0.5}}]
+    walls = [{"model": "cercignani_lampis", "alpha_t": 0.9, "alpha_n": 0.5}, {"alpha": 1.0, "upper": {"alpha": 0.5}}]
     files = plan_of(walls=walls).point_files()
     assert "wall=cercignani_lampis-alpha_t=0.9-alpha_n=0.5/" in files[0]
     assert "wall=maxwell-alpha=1.0_upper=maxwell-alpha=0.5/" in files[1]
 
 
 def test_grid_size():
-    plan = plan_of(problems=["poiseuille", "thermal_creep"], models=["bgk", "s_model"],
-                   walls=[{"alpha": 1.0}, {"alpha": 0.8}], delta={"start": 0.1, "stop": 10, "num": 3})
+    plan = plan_of(
+        problems=["poiseuille", "thermal_creep"],
+        models=["bgk", "s_model"],
+        walls=[{"alpha": 1.0}, {"alpha": 0.8}],
+        delta={"start": 0.1, "stop": 10, "num": 3},
+    )
     assert len(plan.points) == len(set(plan.point_files())) == 2 * 2 * 2 * 3
 
 

@@ -96,7 +96,9 @@ def test_graded_rule_moments_and_grazing_integrand():
     for d in (1e-4, 1e-3, 1e-2):
         f = lambda c: -np.expm1(-d / c) / d * np.exp(-c * c)  # noqa: E731
         cuts = [0, d, 10 * d, 100 * d, 1000 * d, np.inf]
-        exact = sum(quad(f, a, b, limit=200, epsabs=0, epsrel=1e-12)[0] for a, b in zip(cuts[:-1], cuts[1:], strict=True))
+        exact = sum(
+            quad(f, a, b, limit=200, epsabs=0, epsrel=1e-12)[0] for a, b in zip(cuts[:-1], cuts[1:], strict=True)
+        )
         approx = (w * -np.expm1(-d / x) / d).sum()
         # measured 4e-5 with these panel settings; 1e-4 is the accuracy the
         # solver defaults are chosen for.
@@ -119,7 +121,9 @@ def test_log_linear_rule_moments_and_regular_convergence_on_ray_integrands():
     for k in (1e-3, 1e-2, 0.1, 0.5):
         f = lambda c: c * np.exp(-c * c - k / c)  # noqa: E731
         cuts = [0, k, 10 * k, 1.0, np.inf]
-        exact = sum(quad(f, a, b, limit=200, epsabs=0, epsrel=1e-13)[0] for a, b in zip(cuts[:-1], cuts[1:], strict=True))
+        exact = sum(
+            quad(f, a, b, limit=200, epsabs=0, epsrel=1e-13)[0] for a, b in zip(cuts[:-1], cuts[1:], strict=True)
+        )
         errors = []
         for per in (1.0, 2.0, 4.0):
             xr, wr = log_linear_half_range(per, 1e-4, split=1.0, slope=1.0, points_per_panel=4, n_outer=16)

@@ -3,11 +3,11 @@
 import numpy as np
 import pytest
 
+from knudsweep.batch_files import batch_records
 from knudsweep.families.relaxation import FAMILY, solver_labels
 from knudsweep.gather import gather_family
-from knudsweep.batch_files import batch_records
-from knudsweep.tables import write_tables
 from knudsweep.solver.netcdf_io import write_result
+from knudsweep.tables import write_tables
 
 SECTION = {
     "gases": ["Ar"],
@@ -56,6 +56,12 @@ def test_tiny_sweep_end_to_end(tmp_path, monkeypatch):
     tables = FAMILY.tables(ds, SECTION)
     frame = tables["relaxation_times"].frame
     assert "anisotropy time [s]" in frame.columns and len(frame) == 2
+    # a blank time of a converged point carries its reason (the fit's note); a number carries none
+    for lab in ("anisotropy", "heat flux", "fourth moment"):
+        blank = frame[f"{lab} time [tau_c]"].isna()
+        assert (frame.loc[blank, f"{lab} time note"] != "").all()
+        assert (frame.loc[~blank, f"{lab} time note"] == "").all()
+    assert frame["heat flux time [tau_c]"].isna().all()  # an anisotropic start has no heat flux
     written = write_tables(tables, tmp_path / "tables")
     assert all(w.exists() for w in written)
     figs = FAMILY.figures(ds, SECTION, {"width": 5, "height": 3.5})
@@ -70,8 +76,7 @@ def test_tiny_sweep_end_to_end(tmp_path, monkeypatch):
 
 # Fast spectral (Boltzmann) beside BGK and DSMC, Maxwell molecules on a 24^3 grid (16^3 does not
 # resolve the cold axes of this start in the fast spectral method's larger box: <c^4> off by 20 %).
-SECTION_FS = {**SECTION, "methods": ["dsmc", "bgk", "fast_spectral"],
-              "run": {**SECTION["run"], "n_velocity": 24}}
+SECTION_FS = {**SECTION, "methods": ["dsmc", "bgk", "fast_spectral"], "run": {**SECTION["run"], "n_velocity": 24}}
 
 
 def test_fast_spectral_points_table_and_figures(tmp_path, monkeypatch):
@@ -98,8 +103,13 @@ def test_fast_spectral_points_table_and_figures(tmp_path, monkeypatch):
     figs = FAMILY.figures(ds, SECTION_FS, {"width": 5, "height": 3.5})
     ax = figs["relaxation_h_anisotropic"].axes[0]
     # the DSMC band is drawn about the Boltzmann curve: centred on it, half-width 2 standard errors
-    where = {"gas": "Ar", "initial_state": "anisotropic", "molecular_model": "maxwell", "pressure": 100.0,
-             "temperature": 300.0}
+    where = {
+        "gas": "Ar",
+        "initial_state": "anisotropic",
+        "molecular_model": "maxwell",
+        "pressure": 100.0,
+        "temperature": 300.0,
+    }
     ref = ds["h_function"].sel(solver="fast_spectral-nv24", **where).values
     se = ds["h_function_std"].sel(solver="dsmc-N3000", **where).values / np.sqrt(3)
     band = ax.collections[0].get_paths()[0].vertices

@@ -149,14 +149,19 @@ def test_moment_equations_by_monte_carlo_over_collision_pairs(alpha):
     e1 /= np.linalg.norm(e1, axis=1)[:, None]
     e2 = np.cross(g_vec / g[:, None], e1)
     sin_chi = np.sqrt(1.0 - cos_chi**2)
-    g_new = (cos_chi[:, None] * g_vec + g[:, None] * sin_chi[:, None]
-             * (np.cos(phi)[:, None] * e1 + np.sin(phi)[:, None] * e2))
+    g_new = cos_chi[:, None] * g_vec + g[:, None] * sin_chi[:, None] * (
+        np.cos(phi)[:, None] * e1 + np.sin(phi)[:, None] * e2
+    )
     centre = 0.5 * (a + b)
     a2, b2 = centre + 0.5 * g_new, centre - 0.5 * g_new
     q4 = lambda v: np.sum(v * v, axis=1) ** 2  # noqa: E731
     d4 = 0.5 * (q4(a2) + q4(b2) - q4(a) - q4(b))
-    dp = 0.5 * (np.einsum("ni,nj->nij", a2, a2) + np.einsum("ni,nj->nij", b2, b2)
-                - np.einsum("ni,nj->nij", a, a) - np.einsum("ni,nj->nij", b, b))
+    dp = 0.5 * (
+        np.einsum("ni,nj->nij", a2, a2)
+        + np.einsum("ni,nj->nij", b2, b2)
+        - np.einsum("ni,nj->nij", a, a)
+        - np.einsum("ni,nj->nij", b, b)
+    )
     # pairs with i != j: the mean over them is n/(n-1) times the mean over all pairs
     d4 *= (n - 1) / n
     dp *= (n - 1) / n
@@ -178,5 +183,6 @@ def test_bkw_obeys_the_fourth_moment_equation():
     # BKW (sigma = 0): <c^4> = 15 [1 - exp(-t/3)] (check-values 5.1) is eq. (3) with S0 = 0
     t = np.linspace(0, 10, 11)
     y0 = -15.0 * math.exp(-6 * math.log(2.5) / 3)
-    assert np.allclose(maxwell_fourth_moment_deviation(t, y0, 0.0), -15.0 * np.exp(-(t + 6 * math.log(2.5)) / 3),
-                       rtol=1e-14)
+    assert np.allclose(
+        maxwell_fourth_moment_deviation(t, y0, 0.0), -15.0 * np.exp(-(t + 6 * math.log(2.5)) / 3), rtol=1e-14
+    )

@@ -12,8 +12,17 @@ from knudsweep.solver.relaxation.dsmc import _collide, _scatter
 from knudsweep.solver.relaxation.fitting import fit_decay
 from knudsweep.solver.relaxation.rng import replica_states
 
-SMALL = dict(method="dsmc", gas="Ar", pressure=10.0, temperature=300.0, n_particles=4000,
-             n_replicas=3, t_end=2.0, n_output=5, seed=1)
+SMALL = dict(
+    method="dsmc",
+    gas="Ar",
+    pressure=10.0,
+    temperature=300.0,
+    n_particles=4000,
+    n_replicas=3,
+    t_end=2.0,
+    n_output=5,
+    seed=1,
+)
 
 
 @pytest.mark.parametrize("isotropic", [True, False])
@@ -88,7 +97,9 @@ def test_result_round_trip_and_units(tmp_path):
     assert np.allclose(back.profiles["h_function"].value, res.profiles["h_function"].value)
     assert back.coefficient("mean_collision_time_s") == pytest.approx(res.coefficient("mean_collision_time_s"))
     # time_s = time * tau_c
-    assert np.allclose(res.profiles["time_s"].value, res.coords["time"].value * res.coefficient("mean_collision_time_s"))
+    assert np.allclose(
+        res.profiles["time_s"].value, res.coords["time"].value * res.coefficient("mean_collision_time_s")
+    )
 
 
 def test_too_few_particles_is_a_failed_point(tmp_path):

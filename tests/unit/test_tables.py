@@ -9,19 +9,22 @@ from knudsweep.families import Table
 from knudsweep.tables import ROUND_OFF_NOTE, format_with_uncertainty, to_csv, to_markdown
 
 
-@pytest.mark.parametrize("value, unc, text", [
-    (1.63149, 0.0121192, ("1.631", "0.012")),            # 2 significant digits of u, value to the same place
-    (2.69698, 0.393623, ("2.70", "0.39")),
-    (2.25974e-07, 1.6786e-09, ("2.260e-07", "1.7e-09")),  # seconds: scientific, same last place
-    (2.6951e-07, 1.83406e-08, ("2.70e-07", "1.8e-08")),
-    (0.5, 3.0, ("0.5", "3.0")),
-    (1.0, 0.0996, ("1.00", "0.10")),                      # 0.0996 rounds up to 0.10: one place fewer
-    (2.0, 1.19476e-13, ("2", "0")),                       # round-off of a noise-free fit
-    (2.28506e-07, 2.67564e-20, ("2.28506e-07", "0")),
-    (0.0, 0.0, ("0", "0")),
-    (math.nan, 0.1, ("", "0.1")),                         # failed point: empty value
-    (1.5, math.nan, ("1.5", "")),
-])
+@pytest.mark.parametrize(
+    "value, unc, text",
+    [
+        (1.63149, 0.0121192, ("1.631", "0.012")),  # 2 significant digits of u, value to the same place
+        (2.69698, 0.393623, ("2.70", "0.39")),
+        (2.25974e-07, 1.6786e-09, ("2.260e-07", "1.7e-09")),  # seconds: scientific, same last place
+        (2.6951e-07, 1.83406e-08, ("2.70e-07", "1.8e-08")),
+        (0.5, 3.0, ("0.5", "3.0")),
+        (1.0, 0.0996, ("1.00", "0.10")),  # 0.0996 rounds up to 0.10: one place fewer
+        (2.0, 1.19476e-13, ("2", "0")),  # round-off of a noise-free fit
+        (2.28506e-07, 2.67564e-20, ("2.28506e-07", "0")),
+        (0.0, 0.0, ("0", "0")),
+        (math.nan, 0.1, ("", "0.1")),  # failed point: empty value
+        (1.5, math.nan, ("1.5", "")),
+    ],
+)
 def test_format_with_uncertainty(value, unc, text):
     assert format_with_uncertainty(value, unc) == text
 
@@ -34,15 +37,17 @@ def test_value_text_agrees_with_value_within_half_a_last_digit():
 
 
 def test_tables_pair_columns_and_note_round_off():
-    frame = pd.DataFrame({
-        "solver": ["dsmc-N20000", "bgk-nv32"],
-        "anisotropy time [tau_c]": [1.63149, 2.0000000001],
-        "anisotropy time uncertainty [tau_c]": [0.0121192, 1.2e-13],
-        "anisotropy time [s]": [2.25974e-07, 2.28506e-07],
-        "anisotropy time uncertainty [s]": [1.6786e-09, 1.4e-20],
-        "mean collision time [s]": [1.38508e-07, 1.38508e-07],
-        "status": ["converged", "converged"],
-    })
+    frame = pd.DataFrame(
+        {
+            "solver": ["dsmc-N20000", "bgk-nv32"],
+            "anisotropy time [tau_c]": [1.63149, 2.0000000001],
+            "anisotropy time uncertainty [tau_c]": [0.0121192, 1.2e-13],
+            "anisotropy time [s]": [2.25974e-07, 2.28506e-07],
+            "anisotropy time uncertainty [s]": [1.6786e-09, 1.4e-20],
+            "mean collision time [s]": [1.38508e-07, 1.38508e-07],
+            "status": ["converged", "converged"],
+        }
+    )
     table = Table(frame, "Relaxation times", ["a note"])
     md = to_markdown(table)
     assert "| dsmc-N20000 | 1.631 | 0.012 | 2.260e-07 | 1.7e-09 | 1.38508e-07 | converged |" in md

@@ -14,8 +14,8 @@ import pytest
 from knudsweep.families.tube_duct import FAMILY, delta_values, geometry_settings
 from knudsweep.gather import gather_family
 from knudsweep.point_files import valid_records
-from knudsweep.tables import write_tables
 from knudsweep.solver.netcdf_io import write_result
+from knudsweep.tables import write_tables
 
 SECTION = {
     "geometries": [{"shape": "tube"}, {"shape": "duct", "aspect_ratio": 2.0}],
@@ -25,8 +25,12 @@ SECTION = {
     "gases": ["Ar", "He"],
     "delta": [0.1, 1.0, 10.0],
     "conditions": {
-        "temperature": 300.0, "radius": 1.0e-3, "height": 1.0e-3, "length": 1.0,
-        "pressure_ratios": [1.5, 3.0, 10.0], "thermal": {"t_cold": 300.0, "t_hot": 600.0},
+        "temperature": 300.0,
+        "radius": 1.0e-3,
+        "height": 1.0e-3,
+        "length": 1.0,
+        "pressure_ratios": [1.5, 3.0, 10.0],
+        "thermal": {"t_cold": 300.0, "t_hot": 600.0},
     },
     "resolution": {"n_space": 9, "n_velocity": 6, "tol": 1.0e-6},
     "iteration": {"max_iter": None, "accelerate": True, "retry_max_iter_factor": 4},
@@ -36,9 +40,13 @@ SECTION = {
 def test_points_identity_and_dims():
     pts = FAMILY.points(SECTION)
     assert len(pts) == 2 * 2 * 1 * 2 * 3 and len({p.pid for p in pts}) == len(pts)
-    assert pts[0].pid == "tube_duct/tube/poiseuille/model=bgk/wall=maxwell-alpha=1.0/grid=ns9-nv6-tol1.0e-06/delta=1.0e-01"
-    assert any(p.pid.startswith("tube_duct/duct-A=2.0/thermal_creep/model=bgk/wall=cercignani_lampis-alpha_t=0.8-alpha_n=0.5/")
-               for p in pts)
+    assert (
+        pts[0].pid == "tube_duct/tube/poiseuille/model=bgk/wall=maxwell-alpha=1.0/grid=ns9-nv6-tol1.0e-06/delta=1.0e-01"
+    )
+    assert any(
+        p.pid.startswith("tube_duct/duct-A=2.0/thermal_creep/model=bgk/wall=cercignani_lampis-alpha_t=0.8-alpha_n=0.5/")
+        for p in pts
+    )
     # float noise and a Kn axis naming the same delta give the same points
     noisy = {**SECTION, "delta": [0.1 + 1e-12, 1.0, 10.0]}
     assert [p.pid for p in FAMILY.points(noisy)] == [p.pid for p in pts]
@@ -60,7 +68,10 @@ def test_points_identity_and_dims():
         ({"walls": [{"model": "maxwell", "alpha_t": 0.5}]}, "walls.0..alpha_t|walls\\[0\\].alpha_t"),
         ({"walls": [{"model": "maxwell", "alpha": 1.5}]}, r"walls\[0\].alpha"),
         ({"geometries": [{"shape": "tube", "aspect_ratio": 2.0}]}, "geometries.aspect_ratio"),
-        ({"geometries": [{"shape": "duct", "aspect_ratio": 2.0}, {"shape": "duct", "aspect_ratio": 2.0000001}]}, r"geometries\[1\]"),
+        (
+            {"geometries": [{"shape": "duct", "aspect_ratio": 2.0}, {"shape": "duct", "aspect_ratio": 2.0000001}]},
+            r"geometries\[1\]",
+        ),
     ],
 )
 def test_check_section_names_key(change, key):
@@ -91,8 +102,15 @@ def test_gathered_values_and_solve(gathered):
     # the family hands the point's parameters to the solver unchanged
     wall = "cercignani_lampis-alpha_t=0.8-alpha_n=0.5"
     got = ds["G_T"].sel(geometry="duct-A=2.0", problem="thermal_creep", model="bgk", wall=wall, delta=1.0).item()
-    direct = solve_duct("thermal_creep", delta=1.0, aspect_ratio=2.0, wall=CercignaniLampisWall(0.8, 0.5),
-                        n_space=9, n_velocity=6, tol=1e-6).coefficient("G_T")
+    direct = solve_duct(
+        "thermal_creep",
+        delta=1.0,
+        aspect_ratio=2.0,
+        wall=CercignaniLampisWall(0.8, 0.5),
+        n_space=9,
+        n_velocity=6,
+        tol=1e-6,
+    ).coefficient("G_T")
     assert got == direct
     assert ds["aspect_ratio"].values.tolist() == [1.0, 2.0]
     assert ds["alpha_t"].values[1] == 0.8 and math.isnan(ds["alpha_t"].values[0])
@@ -104,7 +122,13 @@ def test_tables(gathered, tmp_path):
     assert sorted(tables) == sorted(FAMILY.table_names(SECTION))
     cond = tables["tube_duct_conductance"].frame
     assert len(cond) == 2 * 2 * 2 * 3  # geometries x walls x gases x delta
-    for col in ("conductance [L s^-1]", "conductance [m^3 s^-1]", "C / C_free-molecular [1]", "C / C_continuum [1]", "pressure [Pa]"):
+    for col in (
+        "conductance [L s^-1]",
+        "conductance [m^3 s^-1]",
+        "C / C_free-molecular [1]",
+        "C / C_continuum [1]",
+        "pressure [Pa]",
+    ):
         assert col in cond.columns
     row = cond[(cond["geometry"] == "tube") & (cond["gas"] == "Ar") & (cond["wall"] == "maxwell-alpha=1.0")].iloc[0]
     # C / C_fm equals the free-molecular Knudsen conductance ratio of knudsweep.solver.conductance

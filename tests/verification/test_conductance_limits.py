@@ -42,7 +42,9 @@ def test_conductance_free_molecular_and_continuum_limits(tube_table):
     high = conductance(tube_table, "N2", 300.0, p_high, length, radius=a)
     # C / C_HP = 1 + 4 sigma_P / delta (first-order slip; sigma_P from the table's last point)
     assert high["factor_continuum"] == pytest.approx(1.0 + 4.0 * 1.0162 / 5000.0, rel=1e-4)
-    assert high["continuum_m3_s"] == pytest.approx(hagen_poiseuille_conductance("N2", 300.0, p_high, a, length), rel=1e-12)
+    assert high["continuum_m3_s"] == pytest.approx(
+        hagen_poiseuille_conductance("N2", 300.0, p_high, a, length), rel=1e-12
+    )
 
 
 def test_small_pressure_ratio_flow_equals_linear_conductance(tube_table):

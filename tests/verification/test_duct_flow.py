@@ -155,14 +155,23 @@ def test_acceleration_bounded_iterations_duct_low_accommodation(alpha, delta):
     # to 13-39 and alpha = 0.1 at delta = 1000 from > 300 to 15-20 (measured,
     # three models).  Near delta = 0 alpha = 0.1 still takes 64-88: no bound
     # is asked there (see the knudsweep.solver.duct docstring).
-    res = solve_duct("poiseuille", delta=delta, aspect_ratio=2.0, wall=MaxwellWall(alpha), tol=1e-8,
-                     error_estimate=False, n_space=13 if delta < 1000 else None)
+    res = solve_duct(
+        "poiseuille",
+        delta=delta,
+        aspect_ratio=2.0,
+        wall=MaxwellWall(alpha),
+        tol=1e-8,
+        error_estimate=False,
+        n_space=13 if delta < 1000 else None,
+    )
     assert res.status == "converged"
     assert res.convergence.iterations <= 50
 
 
-@pytest.mark.parametrize(("model", "wall"), [("es_bgk", MaxwellWall(1.0)), ("bgk", MaxwellWall(0.3)),
-                                             ("s_model", CercignaniLampisWall(0.5, 0.7))])
+@pytest.mark.parametrize(
+    ("model", "wall"),
+    [("es_bgk", MaxwellWall(1.0)), ("bgk", MaxwellWall(0.3)), ("s_model", CercignaniLampisWall(0.5, 0.7))],
+)
 def test_plain_and_accelerated_iteration_agree_duct_other_cases(model, wall):
     # Anderson mixing and the ES-BGK term change the path, not the fixed point
     kw = dict(delta=2.0, aspect_ratio=1.5, tol=1e-11, model=model, wall=wall, error_estimate=False, **SMALL)
@@ -234,7 +243,9 @@ def test_thermal_creep_default_grid_at_delta_100():
 
 
 @pytest.mark.slow
-@pytest.mark.parametrize("delta, sizes, limit_tol", [(100.0, (25, 33, 41, 49, 65), 3e-2), (1000.0, (49, 65, 81, 97), 5e-3)])
+@pytest.mark.parametrize(
+    "delta, sizes, limit_tol", [(100.0, (25, 33, 41, 49, 65), 3e-2), (1000.0, (49, 65, 81, 97), 5e-3)]
+)
 def test_thermal_creep_grid_convergence_large_delta(delta, sizes, limit_tol):
     # Grid study, square duct, BGK, diffuse walls.  G_T delta -> sigma_T = 0.7663
     # (BGK thermal slip; check-values 2, from memory, unconfirmed) as delta ->
@@ -242,7 +253,9 @@ def test_thermal_creep_grid_convergence_large_delta(delta, sizes, limit_tol):
     # 0.747 at delta = 100 and 0.766 at delta = 1000 on the finest grids, i.e.
     # a correction of about 2/delta -> tolerances 3 % (delta = 100) and 0.5 %
     # (delta = 1000).  The successive differences must shrink (convergence).
-    vals = [solve_duct("thermal_creep", delta=delta, aspect_ratio=1.0, n_space=n).coefficient("G_T") * delta for n in sizes]
+    vals = [
+        solve_duct("thermal_creep", delta=delta, aspect_ratio=1.0, n_space=n).coefficient("G_T") * delta for n in sizes
+    ]
     diffs = np.abs(np.diff(vals))
     assert np.all(diffs[1:] < diffs[:-1])
     assert vals[-1] == pytest.approx(0.7663, rel=limit_tol)

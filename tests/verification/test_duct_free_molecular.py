@@ -25,12 +25,11 @@ import math
 
 import numpy as np
 import pytest
+from estimate_checks import HONEST  # noqa: E402
 from scipy.integrate import quad
 
 from knudsweep.solver.duct import solve_duct
 from knudsweep.solver.limits import free_molecular_flow_rate
-
-from estimate_checks import HONEST  # noqa: E402
 
 ASPECTS = (1.0, 2.0, 4.0, 10.0, 20.0, 50.0)
 TARGET = 1e-3  # relative accuracy asked of the default grid (issue 14)
@@ -39,7 +38,11 @@ TARGET = 1e-3  # relative accuracy asked of the default grid (issue 14)
 def chord_moment_rectangle(a: float, b: float) -> float:
     """I(a, b) above, closed form."""
     d = math.hypot(a, b)
-    return (2.0 / 3.0) * (a**3 + b**3 - d**3) + 2.0 * a * a * b * math.log((b + d) / a) + 2.0 * a * b * b * math.log((a + d) / b)
+    return (
+        (2.0 / 3.0) * (a**3 + b**3 - d**3)
+        + 2.0 * a * a * b * math.log((b + d) / a)
+        + 2.0 * a * b * b * math.log((a + d) / b)
+    )
 
 
 def free_molecular_closed_form(aspect: float) -> float:
@@ -91,7 +94,7 @@ def test_same_route_gives_knudsen_for_the_tube():
     assert g == pytest.approx(8.0 / (3.0 * math.sqrt(math.pi)), rel=1e-13)
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def _default_solve(problem, delta, aspect):
     res = solve_duct(problem, delta=delta, aspect_ratio=aspect, tol=1e-10)
     assert res.status == "converged"
@@ -135,11 +138,14 @@ def test_default_grid_estimate_honest_small_intermediate_large_delta(delta, aspe
     # actual 0.03-0.09 % for delta <= 1 (estimate 0.04-0.13 %); at delta = 10
     # 0.07 % (estimate 0.14 %).
     res = _default_solve("poiseuille", delta, aspect)
-    ref = solve_duct("poiseuille", delta=delta, aspect_ratio=aspect, n_space=97, n_velocity=16, tol=1e-10,
-                     error_estimate=False)
+    ref = solve_duct(
+        "poiseuille", delta=delta, aspect_ratio=aspect, n_space=97, n_velocity=16, tol=1e-10, error_estimate=False
+    )
     actual = abs(res.coefficient("G_P") - ref.coefficient("G_P"))
     est = res.coefficient("G_P_error_estimate")
-    print(f"\ndelta={delta:g} A={aspect:g}: actual {actual / ref.coefficient('G_P'):.2e}, estimate {est / res.coefficient('G_P'):.2e}")
+    print(
+        f"\ndelta={delta:g} A={aspect:g}: actual {actual / ref.coefficient('G_P'):.2e}, estimate {est / res.coefficient('G_P'):.2e}"
+    )
     assert actual <= HONEST * est
     assert actual <= TARGET * ref.coefficient("G_P")
 
@@ -153,8 +159,12 @@ def test_grid_convergence_delta_0_1_and_1(aspect):
     # measured 2.8-5.4), and the default (25) must lie within 0.1 % of the
     # Richardson extrapolation of the last two levels (ratio 3.5).
     for delta in (0.1, 1.0):
-        g = [solve_duct("poiseuille", delta=delta, aspect_ratio=aspect, n_space=n, n_velocity=v, tol=1e-10,
-                        error_estimate=False).coefficient("G_P") for n, v in ((13, 9), (25, 12), (49, 16))]
+        g = [
+            solve_duct(
+                "poiseuille", delta=delta, aspect_ratio=aspect, n_space=n, n_velocity=v, tol=1e-10, error_estimate=False
+            ).coefficient("G_P")
+            for n, v in ((13, 9), (25, 12), (49, 16))
+        ]
         d1, d2 = abs(g[1] - g[0]), abs(g[2] - g[1])
         extrapolated = g[2] + (g[2] - g[1]) / 2.5
         print(f"\ndelta={delta:g} A={aspect:g}: {g}, ratio {d1 / d2:.2f}")

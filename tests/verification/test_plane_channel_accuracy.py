@@ -14,11 +14,10 @@ The factor 3 is the brief's acceptance bound for an a-posteriori estimate
 import math
 
 import pytest
+from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
 
 from knudsweep.solver.plane_channel import grids, solve_plane_channel
 from knudsweep.solver.resolution import ResolutionChoice, check_accuracy, choose_resolution, estimate_error
-
-from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
 
 
 def power_law(p, exact=2.0, c=0.7):
@@ -93,8 +92,13 @@ def test_accuracy_and_explicit_grid_are_exclusive():
 def reference(problem, delta, **kw):
     """Much finer solve: 4x the default cells, 2x the default velocity nodes."""
     res = solve_plane_channel(
-        problem, delta=delta, n_space=4 * grids.default_n_space(delta),
-        n_velocity=2 * grids.default_n_velocity(delta), tol=1e-11, error_estimate=False, **kw,
+        problem,
+        delta=delta,
+        n_space=4 * grids.default_n_space(delta),
+        n_velocity=2 * grids.default_n_velocity(delta),
+        tol=1e-11,
+        error_estimate=False,
+        **kw,
     )
     assert res.status == "converged"
     return res
@@ -115,7 +119,9 @@ def test_default_error_estimate_is_honest(delta):
     assert d["accuracy_target"] is None and d["relative_error_estimate"] > 0
 
 
-@pytest.mark.parametrize(("problem", "name"), [("couette", "shear_stress"), ("heat_transfer", "heat_flux"), ("thermal_creep", "G_T")])
+@pytest.mark.parametrize(
+    ("problem", "name"), [("couette", "shear_stress"), ("heat_transfer", "heat_flux"), ("thermal_creep", "G_T")]
+)
 def test_error_estimate_is_honest_for_the_other_problems(problem, name):
     res = solve_plane_channel(problem, delta=1.0, tol=1e-10, accelerate=True)
     ref = reference(problem, 1.0, accelerate=True)
@@ -134,12 +140,16 @@ def test_accuracy_target_is_met_and_recorded(delta, accuracy):
     d = res.discretization
     assert d["accuracy_target"] == accuracy and d["accuracy_met"]
     assert d["resolutions_solved"][-1][0] == d["n_space"] and len(d["resolutions_solved"]) >= 2
-    assert d["resolutions_solved"] == [list(lv) for lv in grids.resolution_ladder(delta)[: len(d["resolutions_solved"])]]
+    assert d["resolutions_solved"] == [
+        list(lv) for lv in grids.resolution_ladder(delta)[: len(d["resolutions_solved"])]
+    ]
     assert d["tol"] <= accuracy / 100
     for name in ("G_P", "Q_P"):
         actual = abs(res.coefficient(name) / ref.coefficient(name) - 1)
         rel_est = res.coefficient(f"{name}_error_estimate") / abs(res.coefficient(name))
-        print(f"\ndelta={delta} target {accuracy:g} {name}: actual {actual:.2e}, estimate {rel_est:.2e}, grids {d['resolutions_solved']}")
+        print(
+            f"\ndelta={delta} target {accuracy:g} {name}: actual {actual:.2e}, estimate {rel_est:.2e}, grids {d['resolutions_solved']}"
+        )
         assert actual <= accuracy
         assert rel_est <= accuracy
         assert actual <= HONEST * rel_est

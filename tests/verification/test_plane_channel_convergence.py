@@ -93,7 +93,9 @@ def test_accelerated_heat_transfer_iterations_bounded(model, delta):
     Plain iteration needs ~delta^2 sweeps here (measured 418 at delta = 10 and
     ~9400 at 100, BGK); measured 5-27 accelerated, three models, delta 0.01-1000.
     """
-    res = solve_plane_channel("heat_transfer", delta=delta, model=model, accelerate=True, tol=1e-8, error_estimate=False)
+    res = solve_plane_channel(
+        "heat_transfer", delta=delta, model=model, accelerate=True, tol=1e-8, error_estimate=False
+    )
     assert res.status == "converged"
     assert res.discretization["acceleration_applied"] is True
     assert res.convergence.iterations <= 50  # goal of the acceleration
@@ -106,8 +108,13 @@ def test_accelerated_heat_transfer_bounded_other_walls(walls, delta):
 
     make = lambda a: CercignaniLampisWall(0.5, 0.7) if a == "cl" else MaxwellWall(a)  # noqa: E731
     res = solve_plane_channel(
-        "heat_transfer", delta=delta, lower_wall=make(walls[0]), upper_wall=make(walls[1]),
-        accelerate=True, tol=1e-8, error_estimate=False,
+        "heat_transfer",
+        delta=delta,
+        lower_wall=make(walls[0]),
+        upper_wall=make(walls[1]),
+        accelerate=True,
+        tol=1e-8,
+        error_estimate=False,
     )
     assert res.status == "converged"
     # per-wall temperature jump (2 - a_E)/a_E; measured 12-19
@@ -142,8 +149,13 @@ def test_accelerated_iterations_bounded_low_accommodation(walls, delta):
     from knudsweep.solver.walls import MaxwellWall
 
     res = solve_plane_channel(
-        "poiseuille", delta=delta, lower_wall=MaxwellWall(walls[0]), upper_wall=MaxwellWall(walls[1]),
-        accelerate=True, tol=1e-8, error_estimate=False,
+        "poiseuille",
+        delta=delta,
+        lower_wall=MaxwellWall(walls[0]),
+        upper_wall=MaxwellWall(walls[1]),
+        accelerate=True,
+        tol=1e-8,
+        error_estimate=False,
     )
     assert res.status == "converged"
     # same goal as for diffuse walls; measured 10-14 with per-wall slip and

@@ -34,7 +34,9 @@ def test_free_molecular_logarithmic_growth_of_poiseuille_flow():
     G = np.array([coeff("poiseuille", "G_P", delta=d) for d in deltas])
     slope_coarse = np.polyfit(np.log(deltas[2:]), G[2:], 1)[0]
     slope_fine = np.polyfit(np.log(deltas[:3]), G[:3], 1)[0]
-    print(f"\nG_P slope vs ln(delta): [1e-3,1e-2] {slope_coarse:.4f}, [1e-4,1e-3] {slope_fine:.4f}, -1/sqrt(pi) = {-INV_SQRT_PI:.4f}")
+    print(
+        f"\nG_P slope vs ln(delta): [1e-3,1e-2] {slope_coarse:.4f}, [1e-4,1e-3] {slope_fine:.4f}, -1/sqrt(pi) = {-INV_SQRT_PI:.4f}"
+    )
     # tolerance 7 % on the coarse decade, 3 % on the finer one, and the slope
     # must move towards the limit: a wrong prefactor (e.g. 1/2 or 1/pi) fails.
     assert slope_coarse == pytest.approx(-INV_SQRT_PI, rel=0.07)

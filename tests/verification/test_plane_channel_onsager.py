@@ -58,7 +58,9 @@ def test_cercignani_lampis_with_full_accommodation_equals_diffuse_maxwell():
 
 
 def test_result_record():
-    res = solve_plane_channel("poiseuille", delta=2.0, lower_wall=MaxwellWall(0.8), upper_wall=CercignaniLampisWall(0.7, 0.5))
+    res = solve_plane_channel(
+        "poiseuille", delta=2.0, lower_wall=MaxwellWall(0.8), upper_wall=CercignaniLampisWall(0.7, 0.5)
+    )
     assert res.family == "plane_channel" and res.problem == "poiseuille"
     assert res.parameters["alpha_lower"] == 0.8 and res.parameters["alpha_n_upper"] == 0.5
     y = res.coords["y"].value

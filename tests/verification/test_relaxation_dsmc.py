@@ -46,8 +46,16 @@ def _bin_averages(t):
 
 @pytest.fixture(scope="module")
 def bkw_run():
-    return solve_relaxation(method="dsmc", initial_state="bkw", molecular_model="maxwell",
-                            n_particles=20000, n_replicas=16, t_end=6.0, n_output=7, seed=2024)
+    return solve_relaxation(
+        method="dsmc",
+        initial_state="bkw",
+        molecular_model="maxwell",
+        n_particles=20000,
+        n_replicas=16,
+        t_end=6.0,
+        n_output=7,
+        seed=2024,
+    )
 
 
 def test_bkw_fourth_moment(bkw_run):
@@ -84,9 +92,17 @@ def test_bkw_marginal_distribution(bkw_run):
 
 
 def test_maxwell_molecule_anisotropy_rate():
-    r = solve_relaxation(method="dsmc", initial_state="anisotropic", molecular_model="maxwell",
-                         axis_temperature_ratios=(1.8, 0.6, 0.6), n_particles=50000, n_replicas=16,
-                         t_end=8.0, n_output=33, seed=7)
+    r = solve_relaxation(
+        method="dsmc",
+        initial_state="anisotropic",
+        molecular_model="maxwell",
+        axis_temperature_ratios=(1.8, 0.6, 0.6),
+        n_particles=50000,
+        n_replicas=16,
+        t_end=8.0,
+        n_output=33,
+        seed=7,
+    )
     rate = 1.0 / r.coefficient("anisotropy_relaxation_time")
     unc = r.coefficient("anisotropy_relaxation_time_uncertainty") * rate**2
     exact = 0.5  # p/mu in 1/tau_c for Maxwell molecules (check-values 5.2)
@@ -105,8 +121,17 @@ def test_vss_maxwell_anisotropy_rate():
     # the VSS viscosity factor of Bird 1994 eq. 4.64 (exact for Maxwell
     # molecules); alpha = 1.5 gives 0.5143 instead of 0.5 (isotropic).
     gas = GasData("maxwell-vss-test", 66.3e-27, 2.117e-5, 1.0, 4.17e-10, 4.11e-10, 1.5, 273.0, "test")
-    r = solve_relaxation(method="dsmc", gas=gas, initial_state="anisotropic", molecular_model="vss",
-                         n_particles=20000, n_replicas=16, t_end=8.0, n_output=33, seed=8)
+    r = solve_relaxation(
+        method="dsmc",
+        gas=gas,
+        initial_state="anisotropic",
+        molecular_model="vss",
+        n_particles=20000,
+        n_replicas=16,
+        t_end=8.0,
+        n_output=33,
+        seed=8,
+    )
     rate = 1.0 / r.coefficient("anisotropy_relaxation_time")
     assert abs(rate / (3 * 1.5 / (2.5 * 3.5)) - 1) < 0.02
 
@@ -114,9 +139,19 @@ def test_vss_maxwell_anisotropy_rate():
 def test_hard_sphere_collision_rate_in_si_units():
     p, temp = 50.0, 300.0
     g = gasmod.get_gas("Ar")
-    r = solve_relaxation(method="dsmc", gas=g, pressure=p, temperature=temp, initial_state="equilibrium",
-                         molecular_model="hard_sphere", n_particles=20000, n_replicas=8, t_end=5.0,
-                         n_output=6, seed=3)
+    r = solve_relaxation(
+        method="dsmc",
+        gas=g,
+        pressure=p,
+        temperature=temp,
+        initial_state="equilibrium",
+        molecular_model="hard_sphere",
+        n_particles=20000,
+        n_replicas=8,
+        t_end=5.0,
+        n_output=6,
+        seed=3,
+    )
     mu = gasmod.viscosity(g, temp)
     # hard-sphere diameter with the gas viscosity, first Chapman-Enskog
     # approximation mu = (5/16) sqrt(pi m k T) / (pi d^2) (check-values 4.1)
@@ -124,7 +159,11 @@ def test_hard_sphere_collision_rate_in_si_units():
     n = p / (BOLTZMANN * temp)
     nu = n * math.pi * d2 * math.sqrt(2.0) * gasmod.mean_speed(g, temp)
     counted = r.profiles["collisions_per_particle"].value[-1] / r.profiles["time_s"].value[-1]
-    rel_se = r.profiles["collisions_per_particle_std"].value[-1] / r.profiles["collisions_per_particle"].value[-1] / math.sqrt(8)
+    rel_se = (
+        r.profiles["collisions_per_particle_std"].value[-1]
+        / r.profiles["collisions_per_particle"].value[-1]
+        / math.sqrt(8)
+    )
     # 5 standard errors (rel_se ~ 1e-3) plus 1e-3 for the rare majorant clipping
     assert counted == pytest.approx(nu, rel=5 * rel_se + 1e-3)
     assert r.coefficient("majorant_exceedances") < 1e-4 * r.profiles["collisions_per_particle"].value[-1] * 20000 * 8
@@ -138,9 +177,17 @@ def test_h_noise_scales_like_one_over_n():
     ns = np.array([2000, 4000, 8000, 16000, 32000])
     amp = []
     for n in ns:
-        r = solve_relaxation(method="dsmc", initial_state="equilibrium", molecular_model="hard_sphere",
-                             n_particles=int(n), n_replicas=32, t_end=6.0, n_output=4, seed=int(n),
-                             h_bins_per_axis=6)
+        r = solve_relaxation(
+            method="dsmc",
+            initial_state="equilibrium",
+            molecular_model="hard_sphere",
+            n_particles=int(n),
+            n_replicas=32,
+            t_end=6.0,
+            n_output=4,
+            seed=int(n),
+            h_bins_per_axis=6,
+        )
         amp.append(math.sqrt(np.mean(r.profiles["h_function_std"].value ** 2)))
     slope = np.polyfit(np.log(ns), np.log(amp), 1)[0]
     assert abs(slope + 1.0) < 0.1, slope
@@ -152,8 +199,16 @@ def test_h_noise_scales_like_one_over_n():
 @pytest.mark.slow
 def test_bkw_fourth_moment_large_n():
     # 10x the particles of the default test: standard error ~0.006 in <c^4>
-    r = solve_relaxation(method="dsmc", initial_state="bkw", molecular_model="maxwell",
-                         n_particles=200_000, n_replicas=16, t_end=9.0, n_output=10, seed=99)
+    r = solve_relaxation(
+        method="dsmc",
+        initial_state="bkw",
+        molecular_model="maxwell",
+        n_particles=200_000,
+        n_replicas=16,
+        t_end=9.0,
+        n_output=10,
+        seed=99,
+    )
     t = r.coords["time"].value
     se = r.profiles["fourth_moment_std"].value / 4.0
     z = (r.profiles["fourth_moment"].value - bkw_fourth_moment(t + BKW_FIRST_TIME)) / se
@@ -161,8 +216,17 @@ def test_bkw_fourth_moment_large_n():
 
 
 def _maxwell(state, n=20000, reps=16, seed=21, **kw):
-    return solve_relaxation(method="dsmc", initial_state=state, molecular_model="maxwell", n_particles=n,
-                            n_replicas=reps, t_end=12.0, n_output=49, seed=seed, **kw)
+    return solve_relaxation(
+        method="dsmc",
+        initial_state=state,
+        molecular_model="maxwell",
+        n_particles=n,
+        n_replicas=reps,
+        t_end=12.0,
+        n_output=49,
+        seed=seed,
+        **kw,
+    )
 
 
 def _covers(r, name, exact, max_rel_u):
@@ -204,8 +268,16 @@ def test_hard_sphere_anisotropy_is_not_exponential():
     # Hard spheres: the local relaxation time of the anisotropy rises with time.
     # The initial and late times are reported separately, and they differ by far
     # more than their uncertainties; the time to fall by e lies between them.
-    r = solve_relaxation(method="dsmc", initial_state="two_beams", molecular_model="hard_sphere",
-                         n_particles=50000, n_replicas=16, t_end=10.0, n_output=41, seed=24)
+    r = solve_relaxation(
+        method="dsmc",
+        initial_state="two_beams",
+        molecular_model="hard_sphere",
+        n_particles=50000,
+        n_replicas=16,
+        t_end=10.0,
+        n_output=41,
+        seed=24,
+    )
     ini = r.coefficient("anisotropy_initial_relaxation_time")
     late = r.coefficient("anisotropy_late_relaxation_time")
     u_ini = r.coefficient("anisotropy_initial_relaxation_time_uncertainty")
@@ -220,11 +292,14 @@ def test_hard_sphere_anisotropy_is_not_exponential():
 
 
 @pytest.mark.slow
-@pytest.mark.parametrize("state, kw", [
-    ("anisotropic", {"axis_temperature_ratios": (2.6, 0.2, 0.2)}),
-    ("two_beams", {}),
-    ("bkw", {}),
-])
+@pytest.mark.parametrize(
+    "state, kw",
+    [
+        ("anisotropic", {"axis_temperature_ratios": (2.6, 0.2, 0.2)}),
+        ("two_beams", {}),
+        ("bkw", {}),
+    ],
+)
 def test_maxwell_fourth_moment_time_within_two_percent(state, kw):
     # 6.4e6 particle-replicas: u ~ 0.3-0.7 % (anisotropic start with a strong
     # anisotropy: the <c^4> signal is 2 tr(sigma^2) = 7.7; with the default

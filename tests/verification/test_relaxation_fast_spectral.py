@@ -15,7 +15,6 @@ Sources beside each check:
 - Equilibrium: Q(M, M) = 0 for every Maxwellian M (ibid.).
 """
 
-
 import math
 
 import numpy as np
@@ -94,8 +93,11 @@ def test_maxwell_molecules_stress_and_heat_flux_rates_are_exact():
     assert -dheat / heat == pytest.approx(2.0 / 3.0 * p_over_mu, rel=2e-3)
 
 
-@pytest.mark.parametrize("model", [MAXWELL, molecular_model("hard_sphere", ARGON), molecular_model("vss", ARGON)],
-                         ids=["maxwell", "hard_sphere", "vss_argon"])
+@pytest.mark.parametrize(
+    "model",
+    [MAXWELL, molecular_model("hard_sphere", ARGON), molecular_model("vss", ARGON)],
+    ids=["maxwell", "hard_sphere", "vss_argon"],
+)
 def test_maxwellian_stays_maxwellian(model):
     # Q_h(f) = Q_s(f) - Q_s(M_d): the start differs from M_d only by the Newton
     # round-off of the discrete Maxwellian (~1e-16 of max f), and 10 steps of a
@@ -206,8 +208,7 @@ def test_binned_h_of_the_start_matches_the_closed_form():
 
     edges = equiprobable_edges(8)
     bounds = np.concatenate([[-np.inf], edges, [np.inf]])
-    exact = sum(np.sum(p * np.log(8 * p)) for p in
-                (np.diff(norm.cdf(bounds / np.sqrt(t))) for t in (1.8, 0.6, 0.6)))
+    exact = sum(np.sum(p * np.log(8 * p)) for p in (np.diff(norm.cdf(bounds / np.sqrt(t))) for t in (1.8, 0.6, 0.6)))
     state = make_initial_state("anisotropic", (1.8, 0.6, 0.6))
     grid = det.make_grid(32, fs.spectral_half_width(state))
     d = fs.run_fast_spectral(MAXWELL, state, grid, 0.01, 1, 2, edges, **SMALL)
@@ -218,13 +219,15 @@ def test_unresolved_points_fail_with_a_reason(monkeypatch):
     from knudsweep.solver.relaxation import solve as solve_mod
 
     # 12^3 in the wide spectral box cannot carry the start's five moments: failed, not an exception
-    r = solve_mod.solve_relaxation(method="fast_spectral", molecular_model="hard_sphere", n_velocity=12,
-                                   t_end=0.5, n_output=2)
+    r = solve_mod.solve_relaxation(
+        method="fast_spectral", molecular_model="hard_sphere", n_velocity=12, t_end=0.5, n_output=2
+    )
     assert r.status == "failed" and "Newton did not converge" in r.convergence.reason
     # negative values beyond the bar (here lowered below the measured -7.8e-4 of max f on 16^3)
     monkeypatch.setattr(solve_mod, "MAX_NEGATIVE_FRACTION", 1e-5)
-    r = solve_mod.solve_relaxation(method="fast_spectral", molecular_model="hard_sphere", n_velocity=16,
-                                   t_end=1.0, n_output=3)
+    r = solve_mod.solve_relaxation(
+        method="fast_spectral", molecular_model="hard_sphere", n_velocity=16, t_end=1.0, n_output=3
+    )
     assert r.status == "failed" and r.convergence.reason.startswith("distribution not resolved: min f")
 
 
@@ -303,12 +306,17 @@ def test_relaxation_times_and_h_agree_with_dsmc(model_name):
     # Late anisotropy time: window dependent for hard spheres (non-exponential decay), so the
     # deterministic curve is fitted on the DSMC window.
     window = ds.discretization["anisotropy_late_fit"]
-    tau, u = ds.coefficient("anisotropy_late_relaxation_time"), ds.coefficient(
-        "anisotropy_late_relaxation_time_uncertainty")
-    ref = _late_time_on(window, times, sp.profiles["anisotropy"].value,
-                        ds.profiles["anisotropy_std"].value / math.sqrt(16))
-    print(f"{model_name} late anisotropy on [{window['t_first']}, {window['t_last']}]: DSMC {tau:.4f} +- {u:.4f}, "
-          f"fast spectral {ref:.4f}")
+    tau, u = (
+        ds.coefficient("anisotropy_late_relaxation_time"),
+        ds.coefficient("anisotropy_late_relaxation_time_uncertainty"),
+    )
+    ref = _late_time_on(
+        window, times, sp.profiles["anisotropy"].value, ds.profiles["anisotropy_std"].value / math.sqrt(16)
+    )
+    print(
+        f"{model_name} late anisotropy on [{window['t_first']}, {window['t_last']}]: DSMC {tau:.4f} +- {u:.4f}, "
+        f"fast spectral {ref:.4f}"
+    )
     assert abs(tau - ref) <= 3.0 * u
     # Mean DSMC H(t) within its noise band about the deterministic curve at every output time.
     # Band: 4 standard errors of the replica mean (41 correlated outputs; for Gaussian noise a

@@ -12,6 +12,7 @@ import functools
 import math
 
 import pytest
+from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
 
 import knudsweep.solver.tube.boundary as tube_boundary
 import knudsweep.solver.tube.grids as tube_grids
@@ -21,12 +22,10 @@ from knudsweep.solver.tube import resolution_ladder as tube_ladder
 from knudsweep.solver.tube import solve_tube
 from knudsweep.solver.walls import CercignaniLampisWall
 
-from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
-
 DUCT_A = 1.0  # square duct
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def tube_reference(delta):
     """2x the radial intervals, 1.5x the speeds of the default (41, 16): error ~1/11 of the default's."""
     res = solve_tube("poiseuille", delta=delta, n_space=81, n_velocity=24, tol=1e-11, error_estimate=False)
@@ -34,11 +33,12 @@ def tube_reference(delta):
     return res
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def duct_reference(delta):
     """2.4x the intervals, 2x the speeds of the default (41, 12) at delta = 1: agrees with 161 nodes to 5e-5."""
-    res = solve_duct("poiseuille", delta=delta, aspect_ratio=DUCT_A, n_space=97, n_velocity=24, tol=1e-10,
-                     error_estimate=False)
+    res = solve_duct(
+        "poiseuille", delta=delta, aspect_ratio=DUCT_A, n_space=97, n_velocity=24, tol=1e-10, error_estimate=False
+    )
     assert res.status == "converged"
     return res
 
@@ -80,7 +80,9 @@ def test_tube_accuracy_target_is_met_and_recorded():
     for name in ("G_P", "Q_P"):
         actual = abs(res.coefficient(name) / ref.coefficient(name) - 1)
         rel_est = res.coefficient(f"{name}_error_estimate") / abs(res.coefficient(name))
-        print(f"\ntube target {accuracy:g} {name}: actual {actual:.2e}, estimate {rel_est:.2e}, {d['resolutions_solved']}")
+        print(
+            f"\ntube target {accuracy:g} {name}: actual {actual:.2e}, estimate {rel_est:.2e}, {d['resolutions_solved']}"
+        )
         assert actual <= accuracy and rel_est <= accuracy
 
 
@@ -95,7 +97,9 @@ def test_duct_accuracy_target_is_met_and_recorded():
     for name in ("G_P", "Q_P"):
         actual = abs(res.coefficient(name) / ref.coefficient(name) - 1)
         rel_est = res.coefficient(f"{name}_error_estimate") / abs(res.coefficient(name))
-        print(f"\nduct target {accuracy:g} {name}: actual {actual:.2e}, estimate {rel_est:.2e}, {d['resolutions_solved']}")
+        print(
+            f"\nduct target {accuracy:g} {name}: actual {actual:.2e}, estimate {rel_est:.2e}, {d['resolutions_solved']}"
+        )
         assert actual <= accuracy and rel_est <= accuracy
 
 
@@ -170,8 +174,9 @@ def test_tube_error_estimate_is_honest_slow(problem, delta):
 @pytest.mark.parametrize("delta", [0.1, 10.0])
 def test_duct_error_estimate_is_honest_slow(delta):
     res = solve_duct("thermal_creep", delta=delta, aspect_ratio=2.0, tol=1e-10)
-    ref = solve_duct("thermal_creep", delta=delta, aspect_ratio=2.0, n_space=97, n_velocity=24, tol=1e-10,
-                     error_estimate=False)
+    ref = solve_duct(
+        "thermal_creep", delta=delta, aspect_ratio=2.0, n_space=97, n_velocity=24, tol=1e-10, error_estimate=False
+    )
     for name in ("G_T", "Q_T"):
         actual = abs(res.coefficient(name) - ref.coefficient(name))
         assert actual <= HONEST * res.coefficient(f"{name}_error_estimate")

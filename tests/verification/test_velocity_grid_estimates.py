@@ -26,14 +26,13 @@ practice, no source).
 import functools
 
 import pytest
+from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
 
 from knudsweep.solver.plane_channel import grids, solve_plane_channel
 from knudsweep.solver.tube import solve_tube
 
-from estimate_checks import HONEST, assert_estimate_honest  # noqa: E402
 
-
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def tube_fine_speeds(problem, delta):
     res = solve_tube(problem, delta=delta, n_space=81, n_velocity=32, tol=1e-11, error_estimate=False)
     assert res.status == "converged"
@@ -55,11 +54,18 @@ def test_tube_thermal_creep_estimate_sees_the_speed_grid_error():
     assert_estimate_honest(res, tube_fine_speeds("thermal_creep", 0.1), ("G_T", "Q_T"), 5e-6, "tube thermal creep")
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def channel_reference(delta):
     """4x the default cells, 64 Gauss-Hermite nodes (agrees with 120 graded nodes to ~1e-6 relative)."""
-    res = solve_plane_channel("thermal_creep", delta=delta, n_space=4 * grids.default_n_space(delta), n_velocity=64,
-                              tol=1e-13, accelerate=True, error_estimate=False)
+    res = solve_plane_channel(
+        "thermal_creep",
+        delta=delta,
+        n_space=4 * grids.default_n_space(delta),
+        n_velocity=64,
+        tol=1e-13,
+        accelerate=True,
+        error_estimate=False,
+    )
     assert res.status == "converged"
     return res
 
@@ -79,8 +85,10 @@ def _identity_pair(solve):
     assert es.status == bgk.status == "converged"
     diff = abs(es.coefficient("G_T") - bgk.coefficient("G_T"))
     bound = es.coefficient("G_T_error_estimate") + bgk.coefficient("G_T_error_estimate")
-    print(f"\nG_T ES-BGK(1) {es.coefficient('G_T'):.10f}, BGK(2/3) {bgk.coefficient('G_T'):.10f}, "
-          f"difference {diff:.2e}, sum of estimates {bound:.2e}")
+    print(
+        f"\nG_T ES-BGK(1) {es.coefficient('G_T'):.10f}, BGK(2/3) {bgk.coefficient('G_T'):.10f}, "
+        f"difference {diff:.2e}, sum of estimates {bound:.2e}"
+    )
     return diff, bound, es.coefficient("G_T")
 
 
@@ -93,6 +101,7 @@ def test_esbgk_thermal_creep_is_bgk_at_prandtl_times_delta_in_the_tube():
 
 def test_esbgk_thermal_creep_is_bgk_at_prandtl_times_delta_in_the_plane_channel():
     diff, bound, g = _identity_pair(
-        lambda m, d: solve_plane_channel("thermal_creep", delta=d, model=m, tol=1e-12, accelerate=True))
+        lambda m, d: solve_plane_channel("thermal_creep", delta=d, model=m, tol=1e-12, accelerate=True)
+    )
     assert diff <= HONEST * bound
     assert diff <= 1e-6 * g  # measured 2e-8 absolute (5e-8 relative)

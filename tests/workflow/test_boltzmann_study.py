@@ -7,10 +7,15 @@ from tests.workflow.wf_helpers import smk, write_study
 
 
 def test_study_with_boltzmann_model_writes_model_error_products(tmp_path):
-    study = write_study(tmp_path / "lbe.yaml", study="lbe", plane_channel__problems=["poiseuille", "thermal_creep"],
-                        plane_channel__models=["s_model", "boltzmann_hard_sphere"], plane_channel__gases=["Ar"],
-                        plane_channel__delta=[0.1, 1.0],
-                        plane_channel__resolution={"n_space": 16, "n_velocity": 4, "tol": 1.0e-8})
+    study = write_study(
+        tmp_path / "lbe.yaml",
+        study="lbe",
+        plane_channel__problems=["poiseuille", "thermal_creep"],
+        plane_channel__models=["s_model", "boltzmann_hard_sphere"],
+        plane_channel__gases=["Ar"],
+        plane_channel__delta=[0.1, 1.0],
+        plane_channel__resolution={"n_space": 16, "n_velocity": 4, "tol": 1.0e-8},
+    )
     work = tmp_path / "run"
     work.mkdir()
     smk(work, study, timeout=900)

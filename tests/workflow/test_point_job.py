@@ -8,12 +8,19 @@ from knudsweep.point_job import solve_point, solve_values
 
 
 def one_point(**iteration):
-    study = validate_study({
-        "study": "pj",
-        "plane_channel": {"problems": ["poiseuille"], "models": ["bgk"], "walls": [{"alpha": 1.0}],
-                          "delta": [10.0], "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1e-6},
-                          "iteration": iteration},
-    })
+    study = validate_study(
+        {
+            "study": "pj",
+            "plane_channel": {
+                "problems": ["poiseuille"],
+                "models": ["bgk"],
+                "walls": [{"alpha": 1.0}],
+                "delta": [10.0],
+                "resolution": {"n_space": 16, "n_velocity": 8, "tol": 1e-6},
+                "iteration": iteration,
+            },
+        }
+    )
     (point,) = StudyPlan(study).points.values()
     return study, point
 
@@ -25,8 +32,9 @@ def test_nonconverged_point_is_retried_with_larger_max_iter_then_recorded_failed
     assert (result.status, tries, last) == ("failed", 2, 6)
     assert result.convergence.reason
     out = tmp_path / "p.nc"
-    solve_point("plane_channel", point.values, out, section=study["plane_channel"], pid=point.pid,
-                config_hash="h", attempt=2)
+    solve_point(
+        "plane_channel", point.values, out, section=study["plane_channel"], pid=point.pid, config_hash="h", attempt=2
+    )
     with xr.open_dataset(out) as ds:
         assert ds.attrs["status"] == "failed" and ds.attrs["status_reason"]
         assert ds.attrs["snakemake_attempt"] == 2

@@ -22,11 +22,11 @@ from knudsweep.families.plane_channel.report import SIGMA_P_DIFFUSE, slip_gp
 from knudsweep.figures import save_figure
 from knudsweep.gather import gather_study, open_sweep
 from knudsweep.plan import StudyPlan
-from knudsweep.status import requeue, study_status
-from knudsweep.tables import write_tables
 from knudsweep.solver.gas import pressure_from_delta
 from knudsweep.solver.netcdf_io import write_result
 from knudsweep.solver.result import CONVERGED, FAILED, ConvergenceRecord, Quantity, SolverResult
+from knudsweep.status import requeue, study_status
+from knudsweep.tables import write_tables
 
 STUDY = {
     "study": "hand",
@@ -50,8 +50,9 @@ def write_batches_from_point_files(plan, root):
 
     for key, batch in plan.batches.items():
         records, _ = verify_points({pid: plan.points[pid].values for pid in batch.pids}, root=root)
-        write_batch_file([records[pid] for pid in batch.pids if pid in records],
-                         root / plan.batch_file(key), {"batch": key})
+        write_batch_file(
+            [records[pid] for pid in batch.pids if pid in records], root / plan.batch_file(key), {"batch": key}
+        )
 
 
 def synthetic(point, status=CONVERGED):
@@ -61,10 +62,13 @@ def synthetic(point, status=CONVERGED):
     value = d / 6 + SIGMA_P_DIFFUSE if name == "G_P" else 0.5 / (1 + d)
     n = 5 + int(10 * math.log10(d) + 20)
     return SolverResult(
-        family="plane_channel", problem=v["problem"], parameters={"delta": d},
+        family="plane_channel",
+        problem=v["problem"],
+        parameters={"delta": d},
         coefficients={} if status == FAILED else {name: Quantity(value, "1", f"reduced flow rate {name}")},
-        convergence=ConvergenceRecord(np.geomspace(1, 1e-9, n), n, status,
-                                      "max_iter reached" if status == FAILED else "", 1e-8),
+        convergence=ConvergenceRecord(
+            np.geomspace(1, 1e-9, n), n, status, "max_iter reached" if status == FAILED else "", 1e-8
+        ),
         wall_time=0.01,
     )
 
@@ -82,8 +86,9 @@ def sweep(tmp_path):
             path.parent.mkdir(parents=True, exist_ok=True)
             path.write_bytes(b"CDF\x01 this is not a complete file")
             continue
-        write_result(synthetic(p, FAILED if p is failed else CONVERGED), path,
-                     {"point_id": p.pid, "point_values": p.values})
+        write_result(
+            synthetic(p, FAILED if p is failed else CONVERGED), path, {"point_id": p.pid, "point_values": p.values}
+        )
     write_batches_from_point_files(plan, tmp_path)
     out = tmp_path / plan.sweep_file
     gather_study(plan, out, workers=1, root=tmp_path)
@@ -151,14 +156,22 @@ def test_sweep_file_follows_cf(sweep):
 
 
 def test_unordered_numeric_axis_becomes_a_label(tmp_path):
-    ds = xr.Dataset({"x": (("delta",), [1.0, 2.0, 3.0]), "status": (("delta",), ["converged", "failed", "missing"]),
-                     "iterations": (("delta",), [3.0, 5.0, np.nan])},
-                    coords={"delta": ("delta", [1.0, 0.1, 10.0], {"units": "1"})})
+    ds = xr.Dataset(
+        {
+            "x": (("delta",), [1.0, 2.0, 3.0]),
+            "status": (("delta",), ["converged", "failed", "missing"]),
+            "iterations": (("delta",), [3.0, 5.0, np.nan]),
+        },
+        coords={"delta": ("delta", [1.0, 0.1, 10.0], {"units": "1"})},
+    )
     enc_ds, enc = gather_mod.to_cf(ds)
     assert "delta" not in enc_ds.variables and "delta_label" in enc_ds.coords
     back = gather_mod.from_cf(enc_ds)
     assert list(back["delta"].values) == [1.0, 0.1, 10.0] and list(back["status"].values) == [
-        "converged", "failed", "missing"]
+        "converged",
+        "failed",
+        "missing",
+    ]
     with pytest.raises(ValueError, match="status"):
         gather_mod.to_cf(ds.assign(status=(("delta",), ["converged", "done", "missing"])))
 
@@ -230,13 +243,25 @@ def test_tables_have_units_references_and_gas_pressures(sweep):
     tables = get_family("plane_channel").tables(open_sweep(out, "plane_channel"), section)
     written = write_tables(tables, root / "tables")
     assert sorted(p.name for p in written) == sorted(
-        f"plane_channel_{p}.{ext}" for p in ("poiseuille", "thermal_creep") for ext in ("csv", "md"))
+        f"plane_channel_{p}.{ext}" for p in ("poiseuille", "thermal_creep") for ext in ("csv", "md")
+    )
     frame = pd.read_csv(root / "tables" / "plane_channel_poiseuille.csv")
-    for col in ("delta [1]", "Kn [1]", "pressure [Pa]", "G_P [1]", "G_P / (delta/6) [1]",
-                "G_P / G_slip [1]", "G_P / G_fm,asymptotic [1]"):
+    for col in (
+        "delta [1]",
+        "Kn [1]",
+        "pressure [Pa]",
+        "G_P [1]",
+        "G_P / (delta/6) [1]",
+        "G_P / G_slip [1]",
+        "G_P / G_fm,asymptotic [1]",
+    ):
         assert col in frame.columns
-    row = frame[(frame["gas"] == "He") & (frame["delta [1]"] == 100.0)
-                & (frame["wall"] == "maxwell-alpha=1.0") & (frame["status"] == "converged")].iloc[0]
+    row = frame[
+        (frame["gas"] == "He")
+        & (frame["delta [1]"] == 100.0)
+        & (frame["wall"] == "maxwell-alpha=1.0")
+        & (frame["status"] == "converged")
+    ].iloc[0]
     # synthetic G_P = delta/6 + sigma_P, so the slip ratio is 1 for diffuse walls
     assert row["G_P / G_slip [1]"] == pytest.approx(1.0, rel=1e-5)
     assert row["G_P / (delta/6) [1]"] == pytest.approx(1 + 6 * SIGMA_P_DIFFUSE / 100, rel=1e-5)

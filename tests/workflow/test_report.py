@@ -9,11 +9,11 @@ import json
 import re
 
 import pytest
+from wf_helpers import DATA, smk
 
 from knudsweep import report as ks_report
 from knudsweep.config import load_study
 from knudsweep.plan import StudyPlan
-from wf_helpers import DATA, smk
 
 TINY = DATA / "tiny_study.yaml"
 

@@ -12,10 +12,10 @@ import subprocess
 
 import pytest
 import xarray as xr
+from wf_helpers import DATA, REPO, job_counts, smk
 
 from knudsweep.config import load_study
 from knudsweep.plan import StudyPlan
-from wf_helpers import DATA, REPO, job_counts, smk
 
 
 def _slurm_ready() -> str:
@@ -51,10 +51,15 @@ def test_slurm_is_ready_when_required():
 def test_tiny_study_through_slurm_as_one_batch_job(tmp_path):
     study = DATA / "tiny_study.yaml"
     r = smk(
-        tmp_path, study,
-        "--slurm-no-account", "--slurm-status-command", "squeue",
-        "--slurm-init-seconds-before-status-checks", "1",
-        "--latency-wait", "5",
+        tmp_path,
+        study,
+        "--slurm-no-account",
+        "--slurm-status-command",
+        "squeue",
+        "--slurm-init-seconds-before-status-checks",
+        "1",
+        "--latency-wait",
+        "5",
         cores="2",
         profiles=("--profile", str(REPO / "config/profiles/slurm"), "--workflow-profile", "none"),
         timeout=900,

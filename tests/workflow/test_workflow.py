@@ -14,16 +14,14 @@ from pathlib import Path
 
 import pytest
 import xarray as xr
-
-from knudsweep.gather import open_sweep
-from knudsweep.config import load_study
-from knudsweep.plan import StudyPlan
-from knudsweep.status import study_status
-from knudsweep.solver.netcdf_io import read_result
-
-from knudsweep.jobs import FAULT_HOLD_ENV, FAULT_RAISE_ENV
-
 from wf_helpers import DATA, REPO, batch_lines, job_counts, smk, smk_cmd, solved_in, write_study
+
+from knudsweep.config import load_study
+from knudsweep.gather import open_sweep
+from knudsweep.jobs import FAULT_HOLD_ENV, FAULT_RAISE_ENV
+from knudsweep.plan import StudyPlan
+from knudsweep.solver.netcdf_io import read_result
+from knudsweep.status import study_status
 
 TINY = DATA / "tiny_study.yaml"
 
@@ -41,8 +39,9 @@ def test_tiny_study_end_to_end(tiny_run):
     plan = StudyPlan(load_study(TINY))
     counts = job_counts(r.stdout + r.stderr)
     assert counts["solve_batch"] == 1 and counts["gather"] == 1 and "warm_up" not in counts
-    assert batch_lines(r.stderr) == [{"key": next(iter(plan.batches)), "points": 3, "solved": 3, "reused": 0,
-                                      "failed": 0, "crashed": 0}]
+    assert batch_lines(r.stderr) == [
+        {"key": next(iter(plan.batches)), "points": 3, "solved": 3, "reused": 0, "failed": 0, "crashed": 0}
+    ]
     for f in plan.point_files() + plan.batch_files() + plan.table_files() + plan.figure_files() + [plan.sweep_file]:
         assert (workdir / f).is_file(), f
     with open_sweep(workdir / plan.sweep_file, "plane_channel") as ds:
@@ -80,9 +79,9 @@ def test_figure_only_change_redraws_without_solver(tiny_run, tmp_path):
 def test_status_command_lists_done_points(tiny_run):
     workdir, _ = tiny_run
     exe = Path(os.sys.executable).with_name("knudsweep")
-    t0 = time.perf_counter()
-    r = subprocess.run([str(exe), "status", str(TINY), "--directory", str(workdir)],
-                       capture_output=True, text=True, check=True)
+    r = subprocess.run(
+        [str(exe), "status", str(TINY), "--directory", str(workdir)], capture_output=True, text=True, check=True
+    )
     assert "3 points: 3 done, 0 failed, 0 missing, 0 corrupt" in r.stdout
 
 
@@ -91,11 +90,13 @@ def test_failing_point_is_recorded_and_others_finish(tmp_path):
     # 1 - O(1/delta^2) at large delta but in a few steps at delta = 0.1 (most
     # molecules fly wall to wall without collisions), so max_iter = 8 fails only
     # the delta = 10 point; the in-job retry is off (factor 1).
-    study = write_study(tmp_path / "fail.yaml", plane_channel__delta=[0.1, 10.0],
-                        plane_channel__iteration={"max_iter": 8, "accelerate": False,
-                                                  "retry_max_iter_factor": 1})
+    study = write_study(
+        tmp_path / "fail.yaml",
+        plane_channel__delta=[0.1, 10.0],
+        plane_channel__iteration={"max_iter": 8, "accelerate": False, "retry_max_iter_factor": 1},
+    )
     workdir = tmp_path / "w"
-    r = smk(workdir, study)  # exit 0: a failed point does not fail the workflow
+    smk(workdir, study)  # exit 0: a failed point does not fail the workflow
     plan = StudyPlan(load_study(study))
     states = {row.pid.rsplit("/", 1)[-1]: row for row in study_status(plan, workdir)}
     assert states["delta=1.0e-01"].state == "converged"
@@ -126,8 +127,13 @@ def test_kill_mid_batch_then_resume_solves_only_unfinished_points(tmp_path):
     cmd = smk_cmd(tmp_path / "w", study, "--cores", "1")
     log = tmp_path / "killed_run.log"
     with open(log, "w") as fh:
-        proc = subprocess.Popen(cmd, stdout=fh, stderr=subprocess.STDOUT, start_new_session=True,
-                                env={**os.environ, FAULT_HOLD_ENV: f"{release}@delta=3.0e+00"})
+        proc = subprocess.Popen(
+            cmd,
+            stdout=fh,
+            stderr=subprocess.STDOUT,
+            start_new_session=True,
+            env={**os.environ, FAULT_HOLD_ENV: f"{release}@delta=3.0e+00"},
+        )
         try:
             deadline = time.monotonic() + 300
             while sum(f.exists() for f in files) < 3 and time.monotonic() < deadline and proc.poll() is None:
@@ -148,8 +154,10 @@ def test_kill_mid_batch_then_resume_solves_only_unfinished_points(tmp_path):
     assert {f: (f.stat().st_ino, f.stat().st_mtime_ns) for f in done} == inodes  # never rewritten
     for f in files:
         assert not same_point_content(f, ref / f.relative_to(tmp_path / "w")), f
-    with open_sweep(tmp_path / "w" / plan.sweep_file, "plane_channel") as a, \
-            open_sweep(ref / plan.sweep_file, "plane_channel") as b:
+    with (
+        open_sweep(tmp_path / "w" / plan.sweep_file, "plane_channel") as a,
+        open_sweep(ref / plan.sweep_file, "plane_channel") as b,
+    ):
         for name in ("G_P", "Q_P", "G_P_error_estimate", "residual", "iterations", "status"):
             assert a[name].identical(b[name]), name
 
@@ -174,13 +182,16 @@ def test_two_studies_sharing_points_compute_each_shared_point_once(tmp_path):
 def test_a_crashing_and_a_failing_point_are_recorded_and_the_batch_is_written(tmp_path):
     # delta = 1 raises in the solver call (a crash, on both attempts); delta = 10 cannot
     # converge in 8 unaccelerated iterations (a failed convergence: a result)
-    study = write_study(tmp_path / "mixed.yaml", plane_channel__delta=[0.1, 1.0, 10.0],
-                        plane_channel__iteration={"max_iter": 8, "accelerate": False,
-                                                  "retry_max_iter_factor": 1})
+    study = write_study(
+        tmp_path / "mixed.yaml",
+        plane_channel__delta=[0.1, 1.0, 10.0],
+        plane_channel__iteration={"max_iter": 8, "accelerate": False, "retry_max_iter_factor": 1},
+    )
     workdir = tmp_path / "w"
     cmd = smk_cmd(workdir, study, "--cores", "2")
-    r = subprocess.run(cmd, capture_output=True, text=True, timeout=600,
-                       env={**os.environ, FAULT_RAISE_ENV: "@delta=1.0e+00"})
+    r = subprocess.run(
+        cmd, capture_output=True, text=True, timeout=600, env={**os.environ, FAULT_RAISE_ENV: "@delta=1.0e+00"}
+    )
     assert r.returncode == 0, r.stderr[-3000:]
     lines = batch_lines(r.stderr)
     # attempt 1 fails the job after writing the other points. Attempt 2 reuses the converged
@@ -189,8 +200,10 @@ def test_a_crashing_and_a_failing_point_are_recorded_and_the_batch_is_written(tm
     assert [(x["solved"], x["reused"], x["crashed"]) for x in lines] == [(2, 0, 1), (1, 1, 1)], lines
     plan = StudyPlan(load_study(study))
     with open_sweep(workdir / plan.sweep_file, "plane_channel") as ds:
-        s = {float(d): (str(ds["status"].sel(delta=d).item()), str(ds["reason"].sel(delta=d).item()))
-             for d in ds["delta"].values}
+        s = {
+            float(d): (str(ds["status"].sel(delta=d).item()), str(ds["reason"].sel(delta=d).item()))
+            for d in ds["delta"].values
+        }
         assert bool(ds["G_P"].sel(delta=0.1).notnull().all())
         assert bool(ds["G_P"].sel(delta=[1.0, 10.0]).isnull().all())
     assert s[0.1] == ("converged", "")
@@ -206,8 +219,14 @@ def test_a_crashing_and_a_failing_point_are_recorded_and_the_batch_is_written(tm
     "change,message",
     [
         ({"plane_channel__delta": [1.0, -0.5]}, "plane_channel.delta[1]: got -0.5; allowed range is (0, 1e+06]"),
-        ({"plane_channel__gases": ["Ar", "Unobtainium"]}, "plane_channel.gases[1]: unknown value 'Unobtainium'; allowed values are He"),
-        ({"plane_channel__walls": [{"model": "maxwell", "alfa": 0.9}]}, "plane_channel.walls[0].alfa: unknown key; allowed keys here are"),
+        (
+            {"plane_channel__gases": ["Ar", "Unobtainium"]},
+            "plane_channel.gases[1]: unknown value 'Unobtainium'; allowed values are He",
+        ),
+        (
+            {"plane_channel__walls": [{"model": "maxwell", "alfa": 0.9}]},
+            "plane_channel.walls[0].alfa: unknown key; allowed keys here are",
+        ),
     ],
 )
 def test_bad_config_fails_before_any_job(tmp_path, change, message):
@@ -222,15 +241,24 @@ def test_bad_config_fails_before_any_job(tmp_path, change, message):
 
 
 def test_default_profile_is_accepted(tmp_path):
-    r = smk(tmp_path / "w", TINY, "--dry-run",
-            profiles=("--profile", "none", "--workflow-profile", str(REPO / "config/profiles/default")))
+    r = smk(
+        tmp_path / "w",
+        TINY,
+        "--dry-run",
+        profiles=("--profile", "none", "--workflow-profile", str(REPO / "config/profiles/default")),
+    )
     assert job_counts(r.stdout + r.stderr)["solve_batch"] == 1
 
 
 def test_knudsweep_run_applies_the_safe_profile(tmp_path):
     exe = Path(os.sys.executable).with_name("knudsweep")
-    r = subprocess.run([str(exe), "run", "--dry-run", "--directory", str(tmp_path / "w"), "--configfile", str(TINY)],
-                       capture_output=True, text=True, cwd=REPO, timeout=300)
+    r = subprocess.run(
+        [str(exe), "run", "--dry-run", "--directory", str(tmp_path / "w"), "--configfile", str(TINY)],
+        capture_output=True,
+        text=True,
+        cwd=REPO,
+        timeout=300,
+    )
     assert r.returncode == 0, r.stderr[-3000:]
     out = r.stdout + r.stderr
     assert "config/profiles/default" in out and job_counts(out)["solve_batch"] == 1

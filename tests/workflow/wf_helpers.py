@@ -12,9 +12,20 @@ DATA = Path(__file__).resolve().parent / "data"
 
 
 def smk_cmd(workdir, configfile, *args, profiles=("--profile", "none", "--workflow-profile", "none")):
-    return [sys.executable, "-m", "snakemake", "--snakefile", str(REPO / "Snakefile"),
-            "--directory", str(workdir), "--configfile", str(configfile), *profiles,
-            "--show-failed-logs", *args]
+    return [
+        sys.executable,
+        "-m",
+        "snakemake",
+        "--snakefile",
+        str(REPO / "Snakefile"),
+        "--directory",
+        str(workdir),
+        "--configfile",
+        str(configfile),
+        *profiles,
+        "--show-failed-logs",
+        *args,
+    ]
 
 
 def smk(workdir, configfile, *args, check=True, cores="2", timeout=600, **kw):
@@ -50,14 +61,25 @@ def write_study(path, base="tiny_study.yaml", **changes):
     return path
 
 
-_BATCH_LINE = re.compile(r"knudsweep: batch (\S+): (\d+) points?, (\d+) solved, (\d+) reused, (\d+) failed to converge, "
-                         r"(\d+) crashed")
+_BATCH_LINE = re.compile(
+    r"knudsweep: batch (\S+): (\d+) points?, (\d+) solved, (\d+) reused, (\d+) failed to converge, "
+    r"(\d+) crashed"
+)
 
 
 def batch_lines(output: str) -> list[dict]:
     """The one-line summaries batch jobs print: key, points, solved, reused, failed, crashed."""
-    return [{"key": m[1], "points": int(m[2]), "solved": int(m[3]), "reused": int(m[4]), "failed": int(m[5]),
-             "crashed": int(m[6])} for m in _BATCH_LINE.finditer(output)]
+    return [
+        {
+            "key": m[1],
+            "points": int(m[2]),
+            "solved": int(m[3]),
+            "reused": int(m[4]),
+            "failed": int(m[5]),
+            "crashed": int(m[6]),
+        }
+        for m in _BATCH_LINE.finditer(output)
+    ]
 
 
 def solved_in(output: str) -> int:

@@ -83,8 +83,11 @@ def extras_from_result(result, series_dim: str | None) -> dict[str, Any]:
         out["series"] = {
             "dim": series_dim,
             "coord": (np.asarray(q.value, dtype=float), {"units": q.units, "long_name": q.long_name}),
-            "vars": {name: (np.asarray(p.value, dtype=float), {"units": p.units, "long_name": p.long_name})
-                     for name, p in sorted(result.profiles.items()) if tuple(p.dims) == (series_dim,)},
+            "vars": {
+                name: (np.asarray(p.value, dtype=float), {"units": p.units, "long_name": p.long_name})
+                for name, p in sorted(result.profiles.items())
+                if tuple(p.dims) == (series_dim,)
+            },
         }
     return out
 
@@ -95,26 +98,27 @@ def extras_from_file(path: str | os.PathLike, series_dim: str | None, status: st
 
     with netCDF4.Dataset(str(path), "r") as nc:
         nc.set_auto_mask(False)
-        out: dict[str, Any] = {"discretization": str(nc.getncattr("discretization"))
-                               if "discretization" in nc.ncattrs() else ""}
+        out: dict[str, Any] = {
+            "discretization": str(nc.getncattr("discretization")) if "discretization" in nc.ncattrs() else ""
+        }
         if series_dim and status == "converged" and series_dim in nc.variables:
             coord = nc.variables[series_dim]
             out["series"] = {
                 "dim": series_dim,
                 "coord": (np.asarray(coord[:], dtype=float), _var_attrs(coord)),
-                "vars": {name: (np.asarray(v[:], dtype=float), _var_attrs(v))
-                         for name, v in sorted(nc.variables.items())
-                         if v.dimensions == (series_dim,) and name != series_dim},
+                "vars": {
+                    name: (np.asarray(v[:], dtype=float), _var_attrs(v))
+                    for name, v in sorted(nc.variables.items())
+                    if v.dimensions == (series_dim,) and name != series_dim
+                },
             }
     return out
 
 
-def complete_record(record: dict[str, Any], *, result=None, path: str | os.PathLike | None = None
-                    ) -> dict[str, Any]:
+def complete_record(record: dict[str, Any], *, result=None, path: str | os.PathLike | None = None) -> dict[str, Any]:
     """``record`` with the batch-file extras (discretization, series) from ``result`` or the file ``path``."""
     dim = series_dim_of(record["pid"])
-    extras = (extras_from_result(result, dim) if result is not None
-              else extras_from_file(path, dim, record["status"]))
+    extras = extras_from_result(result, dim) if result is not None else extras_from_file(path, dim, record["status"])
     return {**record, **extras}
 
 
@@ -147,12 +151,14 @@ def write_batch_file(records: list[dict[str, Any]], path: str | os.PathLike, att
                 for key in _STRINGS:
                     v = nc.createVariable(key, str, ("point",))
                     v.long_name = _LONG_NAMES[key]
-                    v[:] = np.array([str(r["pid"] if key == "point_id" else r.get(key, "")) for r in records],
-                                    dtype=object)
+                    v[:] = np.array(
+                        [str(r["pid"] if key == "point_id" else r.get(key, "")) for r in records], dtype=object
+                    )
                 v = nc.createVariable("iterations", "i4", ("point",), fill_value=INT_FILL)
                 v.setncatts({"units": "1", "long_name": "iterations used"})
-                v[:] = np.array([r["iterations"] if r["iterations"] >= 0 else INT_FILL for r in records],
-                                dtype=np.int32)
+                v[:] = np.array(
+                    [r["iterations"] if r["iterations"] >= 0 else INT_FILL for r in records], dtype=np.int32
+                )
                 v = nc.createVariable("wall_time", "f8", ("point",))
                 v.setncatts({"units": "s", "long_name": "solver wall-clock time"})
                 v[:] = np.array([r["wall_time"] for r in records], dtype=float)
@@ -167,8 +173,11 @@ def write_batch_file(records: list[dict[str, Any]], path: str | os.PathLike, att
                     v = nc.createVariable(name, "f8", ("point",), fill_value=np.nan)
                     v.setncatts(a)
                     v[:] = vals
-                gattrs = {"Conventions": CF_VERSION, "batch_layout": BATCH_LAYOUT,
-                          **{k: (str(x) if not isinstance(x, (int, float)) else x) for k, x in attrs.items()}}
+                gattrs = {
+                    "Conventions": CF_VERSION,
+                    "batch_layout": BATCH_LAYOUT,
+                    **{k: (str(x) if not isinstance(x, (int, float)) else x) for k, x in attrs.items()},
+                }
                 if with_series:
                     gattrs["series_dimension"] = _write_series(nc, records, with_series)
                 nc.set_auto_mask(False)
@@ -189,8 +198,10 @@ def _write_series(nc, records, with_series) -> str:
             names.setdefault(name, a)
     coord_attrs = dict(with_series[0]["series"]["coord"][1])
     columns = [(SERIES_COORD, coord_attrs, lambda s: s["coord"][0])]
-    columns += [(name, a, lambda s, name=name: s["vars"][name][0] if name in s["vars"] else None)
-                for name, a in sorted(names.items())]
+    columns += [
+        (name, a, lambda s, name=name: s["vars"][name][0] if name in s["vars"] else None)
+        for name, a in sorted(names.items())
+    ]
     for name, a, get in columns:
         arr = np.full((len(records), size), np.nan)
         for i, r in enumerate(records):
@@ -222,10 +233,16 @@ def read_batch_file(path: str | os.PathLike) -> tuple[list[dict[str, Any]], dict
         wall = np.asarray(nc.variables["wall_time"][:], dtype=float)
         residual = np.asarray(nc.variables["residual"][:], dtype=float)
         skip = set(_STRINGS) | {"iterations", "wall_time", "residual"}
-        coef = {name: (np.asarray(v[:], dtype=float), _var_attrs(v))
-                for name, v in nc.variables.items() if name not in skip and v.dimensions == ("point",)}
-        series = {name: (np.asarray(v[:], dtype=float), _var_attrs(v))
-                  for name, v in nc.variables.items() if v.dimensions == ("point", SERIES_INDEX)}
+        coef = {
+            name: (np.asarray(v[:], dtype=float), _var_attrs(v))
+            for name, v in nc.variables.items()
+            if name not in skip and v.dimensions == ("point",)
+        }
+        series = {
+            name: (np.asarray(v[:], dtype=float), _var_attrs(v))
+            for name, v in nc.variables.items()
+            if v.dimensions == ("point", SERIES_INDEX)
+        }
     dim = str(attrs.get("series_dimension", ""))
     records = []
     for i in range(len(cols["point_id"])):
@@ -237,15 +254,16 @@ def read_batch_file(path: str | os.PathLike) -> tuple[list[dict[str, Any]], dict
             "iterations": int(iterations[i]) if iterations[i] != INT_FILL else -1,
             "wall_time": float(wall[i]),
             "residual": h[: last[-1] + 1] if last.size else h[:0],
-            "coefficients": {name: (float(vals[i]), a) for name, (vals, a) in coef.items()
-                             if not np.isnan(vals[i])},
+            "coefficients": {name: (float(vals[i]), a) for name, (vals, a) in coef.items() if not np.isnan(vals[i])},
         }
         if series and np.isfinite(series[SERIES_COORD][0][i]).any():
             t = series[SERIES_COORD][0][i]
             n = int(np.flatnonzero(np.isfinite(t))[-1]) + 1
             coord_attrs = dict(series[SERIES_COORD][1])
-            rec["series"] = {"dim": dim, "coord": (t[:n], coord_attrs),
-                             "vars": {name: (vals[i][:n], a) for name, (vals, a) in series.items()
-                                      if name != SERIES_COORD}}
+            rec["series"] = {
+                "dim": dim,
+                "coord": (t[:n], coord_attrs),
+                "vars": {name: (vals[i][:n], a) for name, (vals, a) in series.items() if name != SERIES_COORD},
+            }
         records.append(rec)
     return records, attrs

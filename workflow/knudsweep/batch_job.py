@@ -102,8 +102,9 @@ def solve_one(task: tuple) -> dict[str, Any]:
                 log.info("point %s was completed by another workflow meanwhile; kept %s", pid, output)
                 return {**complete_record(record, path=output), "source": "reused"}
             _injected_raise(pid)
-            result = solve_point(family, dict(values), output, section=section, pid=pid,
-                                 config_hash=config_hash, attempt=int(attempt))
+            result = solve_point(
+                family, dict(values), output, section=section, pid=pid, config_hash=config_hash, attempt=int(attempt)
+            )
             write_sidecar(output)  # from the file's header (netCDF classic: a fraction of a millisecond)
         return {**complete_record(record_from_result(result, pid), result=result), "source": "solved"}
     except Exception as exc:  # a crash of this point must not lose the others
@@ -116,9 +117,18 @@ def crashed_record(pid: str, why: str) -> dict[str, Any]:
 
     from knudsweep.solver import __version__
 
-    return {"pid": pid, "status": "failed", "reason": f"crashed: {why}", "code_version": __version__,
-            "iterations": -1, "wall_time": float("nan"), "residual": np.zeros(0), "coefficients": {},
-            "discretization": "", "source": CRASHED}
+    return {
+        "pid": pid,
+        "status": "failed",
+        "reason": f"crashed: {why}",
+        "code_version": __version__,
+        "iterations": -1,
+        "wall_time": float("nan"),
+        "residual": np.zeros(0),
+        "coefficients": {},
+        "discretization": "",
+        "source": CRASHED,
+    }
 
 
 def _worker_init(log_path: str | None) -> None:
@@ -150,7 +160,7 @@ def _no_main_reimport():
 
 
 def _start_method() -> str:
-    """"fork" while this process has not started numba's thread pool (forking a running pool is
+    """ "fork" while this process has not started numba's thread pool (forking a running pool is
     unsafe), else "spawn". A forked worker skips the imports, 0.8 s less per batch start."""
     try:
         from numba.np.ufunc import parallel
@@ -174,8 +184,12 @@ def solve_in_pool(tasks: list[tuple], workers: int, log_path: str | None) -> lis
     chunks = [tasks[i : i + size] for i in range(0, len(tasks), size)]
     out: dict[str, dict[str, Any]] = {}
     ctx = multiprocessing.get_context(_start_method())
-    with _no_main_reimport(), ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=_worker_init,
-                                                  initargs=(log_path,)) as pool:
+    with (
+        _no_main_reimport(),
+        ProcessPoolExecutor(
+            max_workers=workers, mp_context=ctx, initializer=_worker_init, initargs=(log_path,)
+        ) as pool,
+    ):
         futures = {pool.submit(_solve_chunk, c): c for c in chunks}
         for fut in as_completed(futures):
             try:
@@ -187,8 +201,9 @@ def solve_in_pool(tasks: list[tuple], workers: int, log_path: str | None) -> lis
     return [out[t[1]] for t in tasks]
 
 
-def verify_points(points: dict[str, dict[str, Any]], *, attempt: int = 1, root: str | os.PathLike = ""
-                  ) -> tuple[dict[str, dict[str, Any]], list[str]]:
+def verify_points(
+    points: dict[str, dict[str, Any]], *, attempt: int = 1, root: str | os.PathLike = ""
+) -> tuple[dict[str, dict[str, Any]], list[str]]:
     """Records of the points with a valid file (``source`` "reused") and the ids of those to solve.
 
     A reused point's record is completed from its file for the batch file
@@ -223,9 +238,18 @@ def verify_points(points: dict[str, dict[str, Any]], *, attempt: int = 1, root: 
     return records, todo
 
 
-def run_batch(key: str, points: dict[str, dict[str, Any]], output: str, study: dict[str, Any], *,
-              threads: int = 1, attempt: int = 1, max_attempt: int = 1, log_path: str | None = None,
-              root: str | os.PathLike = "") -> list[dict[str, Any]]:
+def run_batch(
+    key: str,
+    points: dict[str, dict[str, Any]],
+    output: str,
+    study: dict[str, Any],
+    *,
+    threads: int = 1,
+    attempt: int = 1,
+    max_attempt: int = 1,
+    log_path: str | None = None,
+    root: str | os.PathLike = "",
+) -> list[dict[str, Any]]:
     """Verify and solve the points of batch ``key`` (``points``: pid -> canonical values); write ``output``."""
     from knudsweep.jobs import setup_logging
     from knudsweep.point_job import configure_numba
@@ -249,8 +273,14 @@ def run_batch(key: str, points: dict[str, dict[str, Any]], output: str, study: d
         fam = get_family(family)
         cost = sum(fam.point_cost(t[2]) for t in todo)
         workers = max(1, min(int(threads), len(todo))) if cost >= POOL_MIN_COST_S else 1
-        log.info("batch %s: %d of %d points to solve (estimated %.1f s on one core), %d worker(s)",
-                 key, len(todo), len(points), cost, workers)
+        log.info(
+            "batch %s: %d of %d points to solve (estimated %.1f s on one core), %d worker(s)",
+            key,
+            len(todo),
+            len(points),
+            cost,
+            workers,
+        )
         if workers > 1:
             solved = solve_in_pool(todo, workers, log_path)
         else:
@@ -263,26 +293,34 @@ def run_batch(key: str, points: dict[str, dict[str, Any]], output: str, study: d
     counts = {s: sum(r["source"] == s for r in ordered) for s in ("solved", "reused", CRASHED)}
     failed = sum(r["status"] == "failed" and r["source"] != CRASHED for r in ordered)
     elapsed = time.perf_counter() - t0
-    summary = (f"batch {key}: {len(ordered)} point{'' if len(ordered) == 1 else 's'}, "
-               f"{counts['solved']} solved, {counts['reused']} reused, "
-               f"{failed} failed to converge, {counts[CRASHED]} crashed; {elapsed:.1f} s")
+    summary = (
+        f"batch {key}: {len(ordered)} point{'' if len(ordered) == 1 else 's'}, "
+        f"{counts['solved']} solved, {counts['reused']} reused, "
+        f"{failed} failed to converge, {counts[CRASHED]} crashed; {elapsed:.1f} s"
+    )
     log.info("%s", summary)
     if counts[CRASHED] and attempt < max_attempt:
-        message = (f"{summary}; attempt {attempt} of {max_attempt}: the job fails so that Snakemake runs it "
-                   f"again and solves only the crashed points (see {log_path})")
+        message = (
+            f"{summary}; attempt {attempt} of {max_attempt}: the job fails so that Snakemake runs it "
+            f"again and solves only the crashed points (see {log_path})"
+        )
         print(f"knudsweep: {message}", file=sys.stderr, flush=True)
         raise BatchIncomplete(message)
-    write_batch_file(ordered, output, {
-        "title": f"knudsweep batch {key}",
-        "source": f"knudsweep solver {__version__}",
-        "code_version": __version__,
-        "batch": key,
-        "config_hash": chash,
-        "snakemake_attempt": int(attempt),
-        "points_solved": counts["solved"],
-        "points_reused": counts["reused"],
-        "points_crashed": counts[CRASHED],
-        "job_wall_time_s": elapsed,
-    })
+    write_batch_file(
+        ordered,
+        output,
+        {
+            "title": f"knudsweep batch {key}",
+            "source": f"knudsweep solver {__version__}",
+            "code_version": __version__,
+            "batch": key,
+            "config_hash": chash,
+            "snakemake_attempt": int(attempt),
+            "points_solved": counts["solved"],
+            "points_reused": counts["reused"],
+            "points_crashed": counts[CRASHED],
+            "job_wall_time_s": elapsed,
+        },
+    )
     print(f"knudsweep: {summary}", file=sys.stderr, flush=True)
     return ordered

@@ -67,8 +67,9 @@ def digest(pids) -> str:
     return hashlib.sha256("\n".join(pids).encode()).hexdigest()[:8]
 
 
-def form_batches(family: str, points, costs: list[float], *, target_minutes: float, threads: int,
-                 points_per_batch: int | None = None) -> list[Batch]:
+def form_batches(
+    family: str, points, costs: list[float], *, target_minutes: float, threads: int, points_per_batch: int | None = None
+) -> list[Batch]:
     """Cut ``points`` (in order) into batches; ``costs`` are their single-core seconds."""
     groups: list[list[int]] = []
     if points_per_batch:

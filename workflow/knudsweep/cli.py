@@ -73,17 +73,22 @@ def _solve_values(args) -> tuple[str, dict]:
     from knudsweep.solver import gas as gasmod
 
     if args.problem not in PROBLEMS:
-        raise CliError(f"--problem: unknown value {args.problem!r}; allowed values are {', '.join(PROBLEMS)}"
-                       + ("" if args.geometry == "plane_channel" else f" for --geometry {args.geometry}"))
+        raise CliError(
+            f"--problem: unknown value {args.problem!r}; allowed values are {', '.join(PROBLEMS)}"
+            + ("" if args.geometry == "plane_channel" else f" for --geometry {args.geometry}")
+        )
     if args.model not in MODELS:
-        raise CliError(f"--model: unknown value {args.model!r}; allowed values are {', '.join(MODELS)}"
-                       + ("" if args.geometry == "plane_channel" else f" for --geometry {args.geometry}"))
+        raise CliError(
+            f"--model: unknown value {args.model!r}; allowed values are {', '.join(MODELS)}"
+            + ("" if args.geometry == "plane_channel" else f" for --geometry {args.geometry}")
+        )
     if args.geometry == "plane_channel":
         from knudsweep.families.plane_channel import BOLTZMANN_MODELS, BOLTZMANN_PROBLEMS
 
         if args.model in BOLTZMANN_MODELS and args.problem not in BOLTZMANN_PROBLEMS:
-            raise CliError(f"--problem: model {args.model} solves {', '.join(BOLTZMANN_PROBLEMS)} only, "
-                           f"got {args.problem!r}")
+            raise CliError(
+                f"--problem: model {args.model} solves {', '.join(BOLTZMANN_PROBLEMS)} only, got {args.problem!r}"
+            )
         if args.model in BOLTZMANN_MODELS and args.wall_model != "maxwell":
             raise CliError(f"--wall-model: model {args.model} takes maxwell only, got {args.wall_model!r}")
     if args.gas not in gasmod.known_gases():
@@ -122,8 +127,10 @@ def _delta(args, length_name: str, delta_min: float, delta_max: float) -> float:
     if args.kn is not None:
         kn_low, kn_high = _kn_limits(delta_min, delta_max)
         if not (math.isfinite(args.kn) and kn_low <= args.kn <= kn_high):
-            raise CliError(f"--kn: got {args.kn:g}; allowed range is [{kn_low:g}, {kn_high:g}"
-                           f"{']' if math.isfinite(kn_high) else ')'} (delta in {span})")
+            raise CliError(
+                f"--kn: got {args.kn:g}; allowed range is [{kn_low:g}, {kn_high:g}"
+                f"{']' if math.isfinite(kn_high) else ')'} (delta in {span})"
+            )
     _positive("--pressure", args.pressure)
     _positive("--length", args.length)
     _schema_number("--temperature", args.temperature, schema_node("plane_channel", "conditions", "temperature"))
@@ -159,9 +166,12 @@ def _resolution_limits(geometry: str) -> dict[str, tuple]:
 
 def _check_sizes(args) -> None:
     limits = _resolution_limits(args.geometry)
-    for opt, val, low, high in (("--n-space", args.n_space, *limits["n_space"]),
-                                ("--n-velocity", args.n_velocity, *limits["n_velocity"]),
-                                ("--max-iter", args.max_iter, 1, 100000000), ("--threads", args.threads, 1, 256)):
+    for opt, val, low, high in (
+        ("--n-space", args.n_space, *limits["n_space"]),
+        ("--n-velocity", args.n_velocity, *limits["n_velocity"]),
+        ("--max-iter", args.max_iter, 1, 100000000),
+        ("--threads", args.threads, 1, 256),
+    ):
         if val is not None and val < low:
             raise CliError(f"{opt}: got {val}; allowed range is [{low}, {high}]")
         if val is not None and val > high:
@@ -198,14 +208,20 @@ def _wall_values(args, alpha, alpha_t, alpha_n, suffix) -> dict:
     if args.wall_model == "maxwell":
         if alpha_t is not None or alpha_n is not None:
             raise CliError(f"--alpha-t{suffix}: only for --wall-model cercignani_lampis")
-        return {"model": "maxwell",
-                "alpha": canonical(_accommodation(f"--alpha{suffix}", 1.0 if alpha is None else alpha, limits["alpha"]))}
+        return {
+            "model": "maxwell",
+            "alpha": canonical(_accommodation(f"--alpha{suffix}", 1.0 if alpha is None else alpha, limits["alpha"])),
+        }
     if alpha is not None:
         raise CliError(f"--alpha{suffix}: only for --wall-model maxwell; use --alpha-t/--alpha-n")
     return {
         "model": "cercignani_lampis",
-        "alpha_t": canonical(_accommodation(f"--alpha-t{suffix}", 1.0 if alpha_t is None else alpha_t, limits["alpha_t"])),
-        "alpha_n": canonical(_accommodation(f"--alpha-n{suffix}", 1.0 if alpha_n is None else alpha_n, limits["alpha_n"])),
+        "alpha_t": canonical(
+            _accommodation(f"--alpha-t{suffix}", 1.0 if alpha_t is None else alpha_t, limits["alpha_t"])
+        ),
+        "alpha_n": canonical(
+            _accommodation(f"--alpha-n{suffix}", 1.0 if alpha_n is None else alpha_n, limits["alpha_n"])
+        ),
     }
 
 
@@ -219,7 +235,9 @@ def _tube_duct_values(args) -> dict:
     delta = _delta(args, length_name, 0.0, MAX_DELTA)
     for opt in ("alpha_upper", "alpha_t_upper", "alpha_n_upper"):
         if getattr(args, opt) is not None:
-            raise CliError(f"--{opt.replace('_', '-')}: only for --geometry plane_channel (a tube or duct has one wall)")
+            raise CliError(
+                f"--{opt.replace('_', '-')}: only for --geometry plane_channel (a tube or duct has one wall)"
+            )
     if args.geometry == "tube":
         if args.aspect_ratio is not None:
             raise CliError("--aspect-ratio: only for --geometry duct")
@@ -247,14 +265,18 @@ def _plane_channel_values(args) -> dict:
 
     lower = _wall_values(args, args.alpha, args.alpha_t, args.alpha_n, "")
     has_upper = any(v is not None for v in (args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper))
-    upper = _wall_values(args, args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper, "-upper") if has_upper else None
+    upper = (
+        _wall_values(args, args.alpha_upper, args.alpha_t_upper, args.alpha_n_upper, "-upper") if has_upper else None
+    )
     _check_sizes(args)
     if args.model in grid.BOLTZMANN_MODELS and args.n_velocity is not None:
         from knudsweep.solver.plane_channel.boltzmann_driver import MAX_SPEED, MIN_SPEED
 
         if not MIN_SPEED <= args.n_velocity <= MAX_SPEED:
-            raise CliError(f"--n-velocity: got {args.n_velocity}; with --model {args.model} it counts speed nodes, "
-                           f"allowed range is [{MIN_SPEED}, {MAX_SPEED}]")
+            raise CliError(
+                f"--n-velocity: got {args.n_velocity}; with --model {args.model} it counts speed nodes, "
+                f"allowed range is [{MIN_SPEED}, {MAX_SPEED}]"
+            )
     resolution = {"n_space": args.n_space, "n_velocity": args.n_velocity, "tol": args.tol, "accuracy": None}
     return grid.point_values(args.problem, args.model, delta, lower, upper, resolution)
 
@@ -265,19 +287,45 @@ def _check_output(path: Path) -> None:
     if path.is_dir():
         raise CliError(f"--output: {path} is a directory; give a file name such as {path / 'point.nc'}")
     if not path.parent.is_dir():
-        raise CliError(f"--output: folder {path.parent} does not exist; create it first "
-                       "(knudsweep does not create folders for --output)")
+        raise CliError(
+            f"--output: folder {path.parent} does not exist; create it first "
+            "(knudsweep does not create folders for --output)"
+        )
     if not os.access(path.parent, os.W_OK):
         raise CliError(f"--output: folder {path.parent} is not writable")
 
 
 # Options of `knudsweep solve` per family: a flow option given with --family relaxation
 # (or the other way round) is refused rather than ignored.
-_FLOW_ONLY = ("aspect_ratio", "delta", "kn", "length", "alpha", "alpha_upper", "alpha_t", "alpha_n",
-              "alpha_t_upper", "alpha_n_upper", "n_space", "max_iter")
-_RELAXATION_ONLY = ("method", "initial_state", "molecular_model", "n_particles", "n_replicas", "t_end",
-                    "n_output", "seed", "h_bins_per_axis", "axis_temperature_ratios", "beam_separation",
-                    "beam_fraction", "bkw_start_time")
+_FLOW_ONLY = (
+    "aspect_ratio",
+    "delta",
+    "kn",
+    "length",
+    "alpha",
+    "alpha_upper",
+    "alpha_t",
+    "alpha_n",
+    "alpha_t_upper",
+    "alpha_n_upper",
+    "n_space",
+    "max_iter",
+)
+_RELAXATION_ONLY = (
+    "method",
+    "initial_state",
+    "molecular_model",
+    "n_particles",
+    "n_replicas",
+    "t_end",
+    "n_output",
+    "seed",
+    "h_bins_per_axis",
+    "axis_temperature_ratios",
+    "beam_separation",
+    "beam_fraction",
+    "bkw_start_time",
+)
 
 
 def _schema_number(option: str, value, spec: dict):
@@ -288,8 +336,10 @@ def _schema_number(option: str, value, spec: dict):
     hi = spec.get("exclusiveMaximum", spec.get("maximum", math.inf))
     ok = math.isfinite(value) and (lo < value if lo_open else lo <= value) and (value < hi if hi_open else value <= hi)
     if not ok:
-        raise CliError(f"{option}: got {value:g}; allowed range is {'(' if lo_open else '['}{lo:g}, {hi:g}"
-                       f"{')' if hi_open else ']'}")
+        raise CliError(
+            f"{option}: got {value:g}; allowed range is {'(' if lo_open else '['}{lo:g}, {hi:g}"
+            f"{')' if hi_open else ']'}"
+        )
     return value
 
 
@@ -302,15 +352,19 @@ def _relaxation_values(args) -> dict:
 
     for name in _FLOW_ONLY:
         if getattr(args, name) not in (None, False):
-            raise CliError(f"--{name.replace('_', '-')}: only for plane channel, tube or duct points, "
-                           "not with --family relaxation")
+            raise CliError(
+                f"--{name.replace('_', '-')}: only for plane channel, tube or duct points, not with --family relaxation"
+            )
     if args.geometry != "plane_channel":
         raise CliError("--geometry: only for plane channel, tube or duct points, not with --family relaxation")
     args.method = args.method or "dsmc"
     args.initial_state = args.initial_state or "anisotropic"
     args.molecular_model = args.molecular_model or "vhs"
-    for option, value, allowed in (("--method", args.method, METHODS), ("--initial-state", args.initial_state, STATES),
-                                   ("--molecular-model", args.molecular_model, MODELS)):
+    for option, value, allowed in (
+        ("--method", args.method, METHODS),
+        ("--initial-state", args.initial_state, STATES),
+        ("--molecular-model", args.molecular_model, MODELS),
+    ):
         if value not in allowed:
             raise CliError(f"{option}: unknown value {value!r}; allowed values are {', '.join(allowed)}")
     if args.gas not in gasmod.known_gases():
@@ -318,13 +372,19 @@ def _relaxation_values(args) -> dict:
     props = load_schema()["properties"]["relaxation"]["properties"]
     run_spec = props["run"]["properties"]
     state_spec = props["state_options"]["properties"]
-    pressure = _schema_number("--pressure", 100.0 if args.pressure is None else args.pressure,
-                              props["pressures"]["items"])
+    pressure = _schema_number(
+        "--pressure", 100.0 if args.pressure is None else args.pressure, props["pressures"]["items"]
+    )
     temperature = _schema_number("--temperature", args.temperature, props["temperatures"]["items"])
     run = {}
-    for key, value in (("n_replicas", args.n_replicas), ("t_end", args.t_end), ("n_output", args.n_output),
-                       ("seed", args.seed), ("h_bins_per_axis", args.h_bins_per_axis),
-                       ("n_velocity", args.n_velocity)):
+    for key, value in (
+        ("n_replicas", args.n_replicas),
+        ("t_end", args.t_end),
+        ("n_output", args.n_output),
+        ("seed", args.seed),
+        ("h_bins_per_axis", args.h_bins_per_axis),
+        ("n_velocity", args.n_velocity),
+    ):
         if value is not None:
             run[key] = _schema_number(f"--{key.replace('_', '-')}", value, run_spec[key])
     state = {}
@@ -338,10 +398,17 @@ def _relaxation_values(args) -> dict:
             state[key] = _schema_number(f"--{key.replace('_', '-')}", value, state_spec[key])
     n_particles = 20000 if args.n_particles is None else args.n_particles
     _schema_number("--n-particles", n_particles, props["n_particles"]["items"])
-    section = {"gases": [args.gas], "pressures": [pressure], "temperatures": [temperature],
-               "initial_states": [args.initial_state], "molecular_models": [args.molecular_model],
-               "methods": [args.method], "n_particles": [n_particles],
-               "state_options": {**STATE_DEFAULTS, **state}, "run": run}
+    section = {
+        "gases": [args.gas],
+        "pressures": [pressure],
+        "temperatures": [temperature],
+        "initial_states": [args.initial_state],
+        "molecular_models": [args.molecular_model],
+        "methods": [args.method],
+        "n_particles": [n_particles],
+        "state_options": {**STATE_DEFAULTS, **state},
+        "run": run,
+    }
     try:
         FAMILY.check_section(section)
     except ValueError as exc:  # "<field>: ..." -> "--<field>: ..."
@@ -409,8 +476,9 @@ def cmd_solve(args) -> int:
     configure_numba(args.threads)
     from knudsweep.point_job import solve_point, solve_values
 
-    section = {"iteration": {"max_iter": args.max_iter, "accelerate": not args.no_accelerate,
-                             "retry_max_iter_factor": 1}}
+    section = {
+        "iteration": {"max_iter": args.max_iter, "accelerate": not args.no_accelerate, "retry_max_iter_factor": 1}
+    }
     if args.output:
         result = solve_point(family, values, args.output, section=section, pid="cli")
     else:
@@ -433,9 +501,11 @@ def cmd_status(args) -> int:
     plan = StudyPlan(load_study(args.study))
     results = Path(args.directory) / "results"
     if not results.is_dir() and not args.json:
-        print(f"study {plan.name}: {len(plan.points)} points, none computed: there is no {results} "
-              f"(run the study first, e.g. `knudsweep run --configfile {args.study}` in the folder that "
-              "holds results/, or pass --directory)")
+        print(
+            f"study {plan.name}: {len(plan.points)} points, none computed: there is no {results} "
+            f"(run the study first, e.g. `knudsweep run --configfile {args.study}` in the folder that "
+            "holds results/, or pass --directory)"
+        )
         return 0
     for path in clean_stray_temporaries(plan, args.directory):
         print(f"removed stray temporary {path} (left by a killed writer)")
@@ -452,9 +522,11 @@ def cmd_status(args) -> int:
         if missing:
             products = invalidate_products(plan, args.directory, pids=missing)
             if products:
-                print(f"removed the batch files of the missing points and the study's sweep, tables and "
-                      f"figures ({len(products)} files); the next run recomputes the missing points and "
-                      "rebuilds them")
+                print(
+                    f"removed the batch files of the missing points and the study's sweep, tables and "
+                    f"figures ({len(products)} files); the next run recomputes the missing points and "
+                    "rebuilds them"
+                )
     if args.json:
         print(json.dumps([r.__dict__ for r in rows], sort_keys=True))
         return 0
@@ -465,11 +537,15 @@ def cmd_status(args) -> int:
             reason = f"  ({r.reason})" if r.reason else ""
             old = f"  [computed by solver {r.code_version or 'unknown'}, now {__version__}]" if r.outdated else ""
             print(f"{r.state:9s} {r.pid}{reason}{old}")
-    summary = ", ".join(f"{counts.get(s, 0)} {label}" for s, label in
-                        (("converged", "done"), ("failed", "failed"), ("missing", "missing"), ("corrupt", "corrupt")))
+    summary = ", ".join(
+        f"{counts.get(s, 0)} {label}"
+        for s, label in (("converged", "done"), ("failed", "failed"), ("missing", "missing"), ("corrupt", "corrupt"))
+    )
     outdated = sum(r.outdated for r in rows)
-    print(f"study {plan.name}: {len(rows)} points: {summary}; {outdated} outdated "
-          f"(older solver version{', remove with --requeue-outdated' if outdated else ''})")
+    print(
+        f"study {plan.name}: {len(rows)} points: {summary}; {outdated} outdated "
+        f"(older solver version{', remove with --requeue-outdated' if outdated else ''})"
+    )
     return 0
 
 
@@ -492,8 +568,9 @@ def cmd_run(argv: list[str]) -> int:
     if "--snakefile" not in given and "-s" not in given:
         snakefile = Path.cwd() / "Snakefile"
         if not snakefile.is_file():
-            raise CliError(f"run: no Snakefile in {Path.cwd()}; run it from the knudsweep repository root "
-                           "or pass --snakefile")
+            raise CliError(
+                f"run: no Snakefile in {Path.cwd()}; run it from the knudsweep repository root or pass --snakefile"
+            )
         cmd += ["--snakefile", str(snakefile)]
         root = snakefile.parent
     else:
@@ -532,41 +609,70 @@ def build_parser() -> argparse.ArgumentParser:
     from knudsweep.solver.duct import MAX_DELTA as duct_max
     from knudsweep.solver.plane_channel.driver import DELTA_RANGE as plane_delta
 
-    parser = _Parser(prog="knudsweep", description="Parametric sweeps of rarefied-gas transport.",
-                     epilog="`knudsweep <command> --help` describes a command.")
+    parser = _Parser(
+        prog="knudsweep",
+        description="Parametric sweeps of rarefied-gas transport.",
+        epilog="`knudsweep <command> --help` describes a command.",
+    )
     parser.add_argument("--version", action="version", version=f"knudsweep {__version__}")
-    sub = parser.add_subparsers(dest="command", required=True, parser_class=_Parser, title="commands",
-                                metavar="{solve,run,status,bench}")
+    sub = parser.add_subparsers(
+        dest="command", required=True, parser_class=_Parser, title="commands", metavar="{solve,run,status,bench}"
+    )
 
-    s = sub.add_parser("solve", help="solve one point: plane channel, tube, duct or homogeneous relaxation",
-                       formatter_class=_DefaultsFormatter,
-                       description="Solve one point and print its coefficients (or write it with --output). "
-                                   "A flow point needs exactly one of --delta, --kn or --pressure (with "
-                                   "--length; --temperature and --gas apply). A failed point prints its "
-                                   "status and reason and exits with 1.")
-    s.add_argument("--family", default="flow", choices=["flow", "relaxation"],
-                   help="flow (plane channel, tube or duct; default) or relaxation (space-homogeneous gas)")
-    s.add_argument("--geometry", default="plane_channel", choices=["plane_channel", "tube", "duct"],
-                   help="plane_channel, tube or duct")
+    s = sub.add_parser(
+        "solve",
+        help="solve one point: plane channel, tube, duct or homogeneous relaxation",
+        formatter_class=_DefaultsFormatter,
+        description="Solve one point and print its coefficients (or write it with --output). "
+        "A flow point needs exactly one of --delta, --kn or --pressure (with "
+        "--length; --temperature and --gas apply). A failed point prints its "
+        "status and reason and exits with 1.",
+    )
+    s.add_argument(
+        "--family",
+        default="flow",
+        choices=["flow", "relaxation"],
+        help="flow (plane channel, tube or duct; default) or relaxation (space-homogeneous gas)",
+    )
+    s.add_argument(
+        "--geometry",
+        default="plane_channel",
+        choices=["plane_channel", "tube", "duct"],
+        help="plane_channel, tube or duct",
+    )
     aspect = schema_node("tube_duct", "geometries", "items", "aspect_ratio")
-    s.add_argument("--aspect-ratio", type=float,
-                   help=f"duct width / height, [{aspect['minimum']:g}, {aspect['maximum']:g}] (default 1)")
-    s.add_argument("--problem", default="poiseuille",
-                   help="poiseuille, thermal_creep; plane channel also couette, heat_transfer")
-    s.add_argument("--model", default="bgk", help=f"{', '.join(km.MODEL_NAMES)}; plane channel also "
-                   f"{', '.join(km.BOLTZMANN_MODELS)} (linearized Boltzmann, poiseuille and thermal_creep, Maxwell walls)")
+    s.add_argument(
+        "--aspect-ratio",
+        type=float,
+        help=f"duct width / height, [{aspect['minimum']:g}, {aspect['maximum']:g}] (default 1)",
+    )
+    s.add_argument(
+        "--problem", default="poiseuille", help="poiseuille, thermal_creep; plane channel also couette, heat_transfer"
+    )
+    s.add_argument(
+        "--model",
+        default="bgk",
+        help=f"{', '.join(km.MODEL_NAMES)}; plane channel also "
+        f"{', '.join(km.BOLTZMANN_MODELS)} (linearized Boltzmann, poiseuille and thermal_creep, Maxwell walls)",
+    )
     s.add_argument("--gas", default="Ar", help="gas name from config/gases.yaml (used with --pressure)")
-    s.add_argument("--delta", type=float, help=f"rarefaction parameter: plane channel [{plane_delta[0]:g}, "
-                   f"{plane_delta[1]:g}]; tube, duct [0, {duct_max:g}], 0 = free-molecular limit (a study's "
-                   "log-spaced axis needs delta > 0)")
+    s.add_argument(
+        "--delta",
+        type=float,
+        help=f"rarefaction parameter: plane channel [{plane_delta[0]:g}, "
+        f"{plane_delta[1]:g}]; tube, duct [0, {duct_max:g}], 0 = free-molecular limit (a study's "
+        "log-spaced axis needs delta > 0)",
+    )
     s.add_argument("--kn", type=float, help="Knudsen number, delta = sqrt(pi)/(2 Kn), within the delta range")
     s.add_argument("--pressure", type=float, help="pressure in Pa (needs --length, --temperature, --gas)")
     s.add_argument("--length", type=float, help="plate gap, tube radius or duct height in m (with --pressure)")
     temp = schema_node("plane_channel", "conditions", "temperature")
-    s.add_argument("--temperature", type=float, default=300.0,
-                   help=f"temperature in K (with --pressure), (0, {temp['maximum']:g}]")
-    s.add_argument("--wall-model", default="maxwell", choices=["maxwell", "cercignani_lampis"],
-                   help="gas-surface interaction law")
+    s.add_argument(
+        "--temperature", type=float, default=300.0, help=f"temperature in K (with --pressure), (0, {temp['maximum']:g}]"
+    )
+    s.add_argument(
+        "--wall-model", default="maxwell", choices=["maxwell", "cercignani_lampis"], help="gas-surface interaction law"
+    )
     span = {k: f"[{lo:g}, {hi:g}{')' if hi_open else ']'}" for k, (lo, hi, hi_open) in _wall_limits().items()}
     s.add_argument("--alpha", type=float, help=f"Maxwell accommodation in {span['alpha']}, default 1")
     s.add_argument("--alpha-upper", type=float, help=f"Maxwell accommodation of the upper plate, {span['alpha']}")
@@ -578,15 +684,23 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument("--n-velocity", type=int, help="velocity nodes (default: solver's)")
     s.add_argument("--max-iter", type=int, help="iteration limit (default: solver's)")
     tol = {g: _resolution_limits(g)["tol"] for g in ("plane_channel", "tube")}
-    s.add_argument("--tol", type=float, default=1e-8, help=(
-        f"convergence tolerance: plane channel [{tol['plane_channel'][0]:g}, {tol['plane_channel'][1]:g}], "
-        f"tube and duct [{tol['tube'][0]:g}, {tol['tube'][1]:g}]"))
+    s.add_argument(
+        "--tol",
+        type=float,
+        default=1e-8,
+        help=(
+            f"convergence tolerance: plane channel [{tol['plane_channel'][0]:g}, {tol['plane_channel'][1]:g}], "
+            f"tube and duct [{tol['tube'][0]:g}, {tol['tube'][1]:g}]"
+        ),
+    )
     s.add_argument("--no-accelerate", action="store_true", help="switch off convergence acceleration")
     s.add_argument("--threads", type=int, default=1, help="numba threads")
     s.add_argument("--output", type=Path, help="write the point as netCDF to this path")
     s.add_argument("--json", action="store_true", help="print coefficients, iterations and status as JSON")
-    r = s.add_argument_group("relaxation (with --family relaxation; --gas, --pressure [Pa, default 100], "
-                             "--temperature, --n-velocity, --threads, --output, --json apply too)")
+    r = s.add_argument_group(
+        "relaxation (with --family relaxation; --gas, --pressure [Pa, default 100], "
+        "--temperature, --n-velocity, --threads, --output, --json apply too)"
+    )
     r.add_argument("--method", help=f"dsmc, {', '.join(km.MODEL_NAMES)} or {km.RELAXATION_BOLTZMANN} (default dsmc)")
     r.add_argument("--initial-state", help="equilibrium, anisotropic, two_beams or bkw (default anisotropic)")
     r.add_argument("--molecular-model", help="vhs, vss, hard_sphere or maxwell (default vhs)")
@@ -596,25 +710,39 @@ def build_parser() -> argparse.ArgumentParser:
     r.add_argument("--n-output", type=int, help="output times including t = 0, [2, 100001], default 41")
     r.add_argument("--seed", type=int, help="seed of the point, [0, 4294967295], default 1")
     r.add_argument("--h-bins-per-axis", type=int, help="H estimator cells per axis, [2, 64], default 8")
-    r.add_argument("--axis-temperature-ratios", type=float, nargs=3, metavar=("TX", "TY", "TZ"),
-                   help="anisotropic start: axis temperature ratios, each [0.01, 100], default 1.8 0.6 0.6")
+    r.add_argument(
+        "--axis-temperature-ratios",
+        type=float,
+        nargs=3,
+        metavar=("TX", "TY", "TZ"),
+        help="anisotropic start: axis temperature ratios, each [0.01, 100], default 1.8 0.6 0.6",
+    )
     r.add_argument("--beam-separation", type=float, help="two_beams start: relative beam speed, default 3")
     r.add_argument("--beam-fraction", type=float, help="two_beams start: share of the +x beam, (0, 1), default 0.5")
     r.add_argument("--bkw-start-time", type=float, help="bkw start: BKW time, >= 6 ln 2.5, default 6 ln 2.5")
     s.set_defaults(func=cmd_solve)
 
-    sub.add_parser("run", help="run a sweep: snakemake with the safe local profile "
-                   "(all further arguments go to snakemake)", add_help=False)
+    sub.add_parser(
+        "run",
+        help="run a sweep: snakemake with the safe local profile (all further arguments go to snakemake)",
+        add_help=False,
+    )
 
     st = sub.add_parser("status", help="list done / failed / missing points of a study")
     st.add_argument("study", help="study YAML file")
     st.add_argument("--directory", default=".", help="working directory holding results/ (default .)")
     st.add_argument("--all", action="store_true", help="also list converged points")
     st.add_argument("--json", action="store_true", help="print one JSON list")
-    st.add_argument("--requeue-failed", action="store_true",
-                    help="delete failed and corrupt point files so the next run recomputes them")
-    st.add_argument("--requeue-outdated", action="store_true",
-                    help="delete only the point files computed by an older solver version")
+    st.add_argument(
+        "--requeue-failed",
+        action="store_true",
+        help="delete failed and corrupt point files so the next run recomputes them",
+    )
+    st.add_argument(
+        "--requeue-outdated",
+        action="store_true",
+        help="delete only the point files computed by an older solver version",
+    )
     st.set_defaults(func=cmd_status)
 
     b = sub.add_parser("bench", help="run benchmarks/bench_*.py")

@@ -117,7 +117,8 @@ def _fill_defaults(validator_class):
 def _strict_integers(validator_class):
     """JSON Schema counts 3.0 as an integer; a study may not (16.0 grid cells would fail late)."""
     checker = validator_class.TYPE_CHECKER.redefine(
-        "integer", lambda _checker, x: isinstance(x, int) and not isinstance(x, bool))
+        "integer", lambda _checker, x: isinstance(x, int) and not isinstance(x, bool)
+    )
     return jsonschema.validators.extend(validator_class, type_checker=checker)
 
 
@@ -152,8 +153,10 @@ class _StrictLoader(yaml.SafeLoader):
         for key_node, _ in node.value:
             key = self.construct_object(key_node, deep=deep)
             if key in seen:
-                raise StudyConfigError(f"key {key!r} appears twice in one mapping (lines "
-                                       f"{seen[key] + 1} and {key_node.start_mark.line + 1}); keep one")
+                raise StudyConfigError(
+                    f"key {key!r} appears twice in one mapping (lines "
+                    f"{seen[key] + 1} and {key_node.start_mark.line + 1}); keep one"
+                )
             seen[key] = key_node.start_mark.line
         return super().construct_mapping(node, deep=deep)
 
@@ -219,10 +222,7 @@ def _error_message(error: jsonschema.ValidationError) -> str:
     if kind in ("additionalProperties", "unevaluatedProperties"):
         allowed = sorted(_schema_properties(load_schema(), error.schema))
         extra = sorted(set(error.instance) - set(allowed))
-        return (
-            f"{key_path(path + [extra[0]])}: unknown key; "
-            f"allowed keys here are {', '.join(allowed)}"
-        )
+        return f"{key_path(path + [extra[0]])}: unknown key; allowed keys here are {', '.join(allowed)}"
     if kind == "required":
         return f"{key_path(path)}: {error.message}"
     if kind == "anyOf":
@@ -233,8 +233,7 @@ def _error_message(error: jsonschema.ValidationError) -> str:
             specific.sort(key=lambda e: (-len(e.absolute_path), key_path(e.absolute_path)))
             return _error_message(specific[0])
         return (
-            f"{key_path(path)}: got {error.instance!r}; expected a list of numbers > 0 "
-            "or a range {start, stop, num}"
+            f"{key_path(path)}: got {error.instance!r}; expected a list of numbers > 0 or a range {{start, stop, num}}"
         )
     if kind == "enum":
         return f"{key_path(path)}: unknown value {error.instance!r}; {_allowed(error.schema)}"
@@ -247,8 +246,7 @@ def _error_message(error: jsonschema.ValidationError) -> str:
             hint = f" (YAML reads {error.instance} as text; write {spelling})"
         wanted = error.validator_value if isinstance(error.validator_value, list) else [error.validator_value]
         if isinstance(error.instance, float) and "integer" in wanted and error.instance.is_integer():
-            return (f"{key_path(path)}: got {error.instance!r}; expected a whole number "
-                    f"(write {int(error.instance)})")
+            return f"{key_path(path)}: got {error.instance!r}; expected a whole number (write {int(error.instance)})"
         return f"{key_path(path)}: got {error.instance!r}; expected type {error.validator_value}{hint}"
     return f"{key_path(path)}: {error.message}"
 
@@ -283,8 +281,10 @@ def validate_study(raw: dict[str, Any]) -> dict[str, Any]:
         raise StudyConfigError("<top level>: the study file is empty or not a mapping")
     size = _expanded_size(raw, {})
     if size > MAX_STUDY_NODES:
-        raise StudyConfigError(f"<top level>: the study expands to more than {MAX_STUDY_NODES:,} values "
-                               "(YAML aliases repeated inside each other?); write it out plainly")
+        raise StudyConfigError(
+            f"<top level>: the study expands to more than {MAX_STUDY_NODES:,} values "
+            "(YAML aliases repeated inside each other?); write it out plainly"
+        )
     study = copy.deepcopy(dict(raw))
     _reject_non_finite(study, [])
     validator = _DefaultFillingValidator(load_schema())
@@ -296,10 +296,7 @@ def validate_study(raw: dict[str, Any]) -> dict[str, Any]:
 
     sections = family_sections(study)
     if not sections:
-        raise StudyConfigError(
-            "<top level>: no solver family section; add one of "
-            + ", ".join(family_sections(None))
-        )
+        raise StudyConfigError("<top level>: no solver family section; add one of " + ", ".join(family_sections(None)))
     for name in sections:
         try:
             get_family(name).check_section(study[name])
@@ -324,14 +321,18 @@ def _check_size_and_memory(study: dict[str, Any], sections: list[str]) -> None:
             n *= len(labels)
         total += n
     if total > MAX_STUDY_POINTS:
-        raise StudyConfigError(f"<top level>: the study has {total:,} points; at most {MAX_STUDY_POINTS:,} "
-                               "can be planned in one study (split it into several studies)")
+        raise StudyConfigError(
+            f"<top level>: the study has {total:,} points; at most {MAX_STUDY_POINTS:,} "
+            "can be planned in one study (split it into several studies)"
+        )
     limit = study["execution"]["mem_mb_per_point"]
     for name in sections:
         mb, which = get_family(name).peak_memory_mb(study[name])
         if mb > limit:
-            raise StudyConfigError(f"{name}.resolution: one point needs about {mb:,.0f} MB ({which}), more than "
-                                   f"execution.mem_mb_per_point = {limit} MB; use a coarser grid or give more memory")
+            raise StudyConfigError(
+                f"{name}.resolution: one point needs about {mb:,.0f} MB ({which}), more than "
+                f"execution.mem_mb_per_point = {limit} MB; use a coarser grid or give more memory"
+            )
 
 
 def load_study(path: str | Path) -> dict[str, Any]:
@@ -361,8 +362,6 @@ def axis_values(name: str, spec: Any) -> list[float]:
     """
     if isinstance(spec, dict):
         if not spec["start"] < spec["stop"] and spec["num"] > 1:
-            raise ValueError(
-                f"{name}: start ({spec['start']:g}) must be below stop ({spec['stop']:g})"
-            )
+            raise ValueError(f"{name}: start ({spec['start']:g}) must be below stop ({spec['stop']:g})")
         return log_spaced(spec["start"], spec["stop"], spec["num"])
     return [float(v) for v in spec]

@@ -69,8 +69,9 @@ def save_figure(fig, stem: str | os.PathLike, formats: list[str], dpi: int) -> l
             for fmt in formats:
                 path = stem.with_name(f"{stem.name}.{fmt}")
                 try:
-                    atomic_replace(path, lambda tmp, fmt=fmt: fig.savefig(tmp, format=fmt, dpi=dpi,
-                                                                          metadata=_METADATA[fmt]))
+                    atomic_replace(
+                        path, lambda tmp, fmt=fmt: fig.savefig(tmp, format=fmt, dpi=dpi, metadata=_METADATA[fmt])
+                    )
                 except OSError as exc:
                     raise ProductWriteError(write_failure_line(path, exc)) from exc
                 written.append(path)

@@ -101,8 +101,10 @@ def read_batches(paths: list[str], workers: int = 1) -> dict[str, dict[str, Any]
         for p, why in bad:
             Path(p).unlink(missing_ok=True)
             log.error("unreadable batch file %s (%s); removed, the next run redoes its batch", p, why)
-        raise BatchFileError(f"{len(bad)} unreadable batch file(s) removed; run the workflow again to redo "
-                             "them (their valid point files are reused): " + "; ".join(p for p, _ in bad))
+        raise BatchFileError(
+            f"{len(bad)} unreadable batch file(s) removed; run the workflow again to redo "
+            "them (their valid point files are reused): " + "; ".join(p for p, _ in bad)
+        )
     return {rec["pid"]: rec for _, recs in results for rec in recs}
 
 
@@ -113,8 +115,9 @@ def history_coordinate(max_len: int) -> np.ndarray:
     return np.unique(np.round(np.geomspace(1, max_len, HISTORY_SAMPLES)).astype(int))
 
 
-def gather_family(family, section: dict[str, Any], points, records: dict[str, dict[str, Any]],
-                  root: str | os.PathLike = ".") -> xr.Dataset:
+def gather_family(
+    family, section: dict[str, Any], points, records: dict[str, dict[str, Any]], root: str | os.PathLike = "."
+) -> xr.Dataset:
     """Dataset of one family on its grid.
 
     ``points``: the family's :class:`knudsweep.families.Point` list; ``records``:
@@ -177,22 +180,32 @@ def gather_family(family, section: dict[str, Any], points, records: dict[str, di
             coords[cname] = (d, np.asarray(vals), cattrs)
     coords["iteration"] = ("iteration", iteration.astype(np.int32), {"units": "1", "long_name": "iteration number"})
 
-    coef_attrs.update({k: v for k, v in getattr(family, "coefficient_attrs", lambda _: {})(section).items()
-                       if k in coef_attrs})
-    data_vars: dict[str, Any] = {
-        name: (names, arr, coef_attrs[name]) for name, arr in sorted(coef.items())
-    }
+    coef_attrs.update(
+        {k: v for k, v in getattr(family, "coefficient_attrs", lambda _: {})(section).items() if k in coef_attrs}
+    )
+    data_vars: dict[str, Any] = {name: (names, arr, coef_attrs[name]) for name, arr in sorted(coef.items())}
     data_vars["status"] = (names, status.astype(str), {"long_name": "point status: converged, failed or missing"})
     data_vars["reason"] = (names, reason.astype(str), {"long_name": "why a point failed or is missing"})
-    data_vars["code_version"] = (names, code_version.astype(str), {
-        "long_name": "solver version that computed the point (empty: no readable file)"})
-    data_vars["discretization"] = (names, discretization.astype(str), {
-        "long_name": "grids, quadratures and fit settings actually used, with each fit's note (JSON; "
-                     "empty: no readable file)"})
+    data_vars["code_version"] = (
+        names,
+        code_version.astype(str),
+        {"long_name": "solver version that computed the point (empty: no readable file)"},
+    )
+    data_vars["discretization"] = (
+        names,
+        discretization.astype(str),
+        {
+            "long_name": "grids, quadratures and fit settings actually used, with each fit's note (JSON; "
+            "empty: no readable file)"
+        },
+    )
     data_vars["iterations"] = (names, iterations, {"units": "1", "long_name": "iterations used"})
     data_vars["wall_time"] = (names, wall_time, {"units": "s", "long_name": "solver wall-clock time"})
-    data_vars["residual"] = (names + ["iteration"], residual, {
-        "units": "1", "long_name": "relative change of the iterate per iteration (sampled)"})
+    data_vars["residual"] = (
+        names + ["iteration"],
+        residual,
+        {"units": "1", "long_name": "relative change of the iterate per iteration (sampled)"},
+    )
     ds = xr.Dataset(data_vars=data_vars, coords=coords, attrs={"family": family.name})
     dim = getattr(family, "series_dim", None)
     if dim:
@@ -202,8 +215,9 @@ def gather_family(family, section: dict[str, Any], points, records: dict[str, di
     return ds
 
 
-def gather_series(family, section: dict[str, Any], points, records: dict[str, dict[str, Any]],
-                  dim: str) -> dict[str, Any]:
+def gather_series(
+    family, section: dict[str, Any], points, records: dict[str, dict[str, Any]], dim: str
+) -> dict[str, Any]:
     """Variables along ``dim`` of the converged ``points``: ``{name: (dims, array, attrs)}`` plus the
     ``dim`` coordinate, on the family's grid (NaN where a point has none).
 
@@ -265,19 +279,23 @@ def gather_study(plan, output: str | os.PathLike, workers: int = 1, root: str = 
     from knudsweep.solver.netcdf_io import CF_VERSION
 
     now = _dt.datetime.now(_dt.timezone.utc).strftime("%Y-%m-%dT%H:%M:%SZ")
-    write_sweep(datasets, output, {
-        "Conventions": CF_VERSION,
-        "title": f"knudsweep study {plan.name}",
-        "source": f"knudsweep solver {__version__}: linearized kinetic models and particle/deterministic "
-                  "relaxation, one point file per parameter point, gathered from the study's batch files",
-        "history": f"{now} gathered by knudsweep {__version__} (python {platform.python_version()}) from "
-                   f"{len(plan.batch_files())} batch files of study {plan.name}",
-        "study": plan.name,
-        "description": plan.study.get("description", ""),
-        "config_hash": config_hash(plan.study),
-        "code_version": __version__,
-        "families": ",".join(plan.families),
-    })
+    write_sweep(
+        datasets,
+        output,
+        {
+            "Conventions": CF_VERSION,
+            "title": f"knudsweep study {plan.name}",
+            "source": f"knudsweep solver {__version__}: linearized kinetic models and particle/deterministic "
+            "relaxation, one point file per parameter point, gathered from the study's batch files",
+            "history": f"{now} gathered by knudsweep {__version__} (python {platform.python_version()}) from "
+            f"{len(plan.batch_files())} batch files of study {plan.name}",
+            "study": plan.name,
+            "description": plan.study.get("description", ""),
+            "config_hash": config_hash(plan.study),
+            "code_version": __version__,
+            "families": ",".join(plan.families),
+        },
+    )
     return datasets
 
 
@@ -351,9 +369,17 @@ def to_cf(ds: xr.Dataset) -> tuple[xr.Dataset, dict[str, dict]]:
         codes = np.zeros(words.shape, dtype=np.int8)
         for code, word in enumerate(STATUS_WORDS):
             codes[words == word] = code
-        ds = ds.assign(status=(ds["status"].dims, codes, {
-            "long_name": "point status", "flag_values": np.arange(len(STATUS_WORDS), dtype=np.int8),
-            "flag_meanings": " ".join(STATUS_WORDS)}))
+        ds = ds.assign(
+            status=(
+                ds["status"].dims,
+                codes,
+                {
+                    "long_name": "point status",
+                    "flag_values": np.arange(len(STATUS_WORDS), dtype=np.int8),
+                    "flag_meanings": " ".join(STATUS_WORDS),
+                },
+            )
+        )
     enc: dict[str, dict] = {v: {"zlib": True, "complevel": 4} for v in ds.variables if ds[v].dtype.kind == "f"}
     if "iterations" in ds:
         enc["iterations"] = {"dtype": "int32", "_FillValue": INT_FILL}
@@ -373,8 +399,9 @@ def from_cf(ds: xr.Dataset) -> xr.Dataset:
         values = np.asarray(status.attrs["flag_values"]).tolist()
         lookup = np.full(max(values) + 1, "", dtype=object)
         lookup[values] = words
-        ds = ds.assign(status=(status.dims, lookup[status.values].astype(str),
-                               {"long_name": "point status: " + ", ".join(words)}))
+        ds = ds.assign(
+            status=(status.dims, lookup[status.values].astype(str), {"long_name": "point status: " + ", ".join(words)})
+        )
     return ds
 
 

@@ -37,15 +37,22 @@ def setup_logging(log_path: str | None, console: bool = True, mode: str = "w") -
         logger.addHandler(h)
 
 
-def run_batch_job(key: str, points: dict[str, dict[str, Any]], output: str, study: dict[str, Any],
-                  threads: int = 1, attempt: int = 1, max_attempt: int = 1, log: str | None = None) -> None:
+def run_batch_job(
+    key: str,
+    points: dict[str, dict[str, Any]],
+    output: str,
+    study: dict[str, Any],
+    threads: int = 1,
+    attempt: int = 1,
+    max_attempt: int = 1,
+    log: str | None = None,
+) -> None:
     """Rule ``solve_batch``: see :mod:`knudsweep.batch_job`; bad news is one line and exit code 1."""
     from knudsweep.batch_job import BatchIncomplete, run_batch
     from knudsweep.point_job import PointWriteError
 
     try:
-        run_batch(key, points, output, study, threads=threads, attempt=attempt, max_attempt=max_attempt,
-                  log_path=log)
+        run_batch(key, points, output, study, threads=threads, attempt=attempt, max_attempt=max_attempt, log_path=log)
     except BatchIncomplete:
         sys.exit(1)
     except (PointWriteError, OSError) as exc:
@@ -71,8 +78,9 @@ class point_lock:
         except BlockingIOError:
             self.fh.seek(0)
             holder = self.fh.read().strip() or "another process"
-            self.logger.warning("point file %s is being computed by %s; waiting for it to finish",
-                                self.path.name[1:-5], holder)
+            self.logger.warning(
+                "point file %s is being computed by %s; waiting for it to finish", self.path.name[1:-5], holder
+            )
             fcntl.flock(self.fh, fcntl.LOCK_EX)
         try:  # who holds it, for the message of a waiting job (best effort: the disk may be full)
             self.fh.seek(0)
@@ -130,8 +138,12 @@ class with_injected_faults:
 
             self.saved = resource.getrlimit(resource.RLIMIT_FSIZE)
             resource.setrlimit(resource.RLIMIT_FSIZE, (int(size), self.saved[1]))
-            self.logger.warning("fault injection: files written for point %s are limited to %s bytes (%s)",
-                                self.pid, size, FAULT_WRITE_LIMIT_ENV)
+            self.logger.warning(
+                "fault injection: files written for point %s are limited to %s bytes (%s)",
+                self.pid,
+                size,
+                FAULT_WRITE_LIMIT_ENV,
+            )
         _apply_injected_hold(self.pid, self.logger)
         return self
 

@@ -90,8 +90,14 @@ class StudyPlan:
             family = get_family(fam)
             pts = [p for p in self.points.values() if p.family == fam]
             costs = [family.point_cost(p.values) for p in pts]
-            for b in form_batches(fam, pts, costs, target_minutes=target, threads=self.batch_threads,
-                                  points_per_batch=ex.get("points_per_batch")):
+            for b in form_batches(
+                fam,
+                pts,
+                costs,
+                target_minutes=target,
+                threads=self.batch_threads,
+                points_per_batch=ex.get("points_per_batch"),
+            ):
                 out[b.key] = b
         return out
 
@@ -99,8 +105,10 @@ class StudyPlan:
         try:
             return self.batches[f"{family}/{name}"]
         except KeyError:
-            raise KeyError(f"batch {family}/{name} is not part of study {self.name!r} as planned now "
-                           "(its points changed); run the workflow again") from None
+            raise KeyError(
+                f"batch {family}/{name} is not part of study {self.name!r} as planned now "
+                "(its points changed); run the workflow again"
+            ) from None
 
     def batch_file(self, key: str) -> str:
         return f"{self.study_dir}/batches/{key}.nc"

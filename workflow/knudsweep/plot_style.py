@@ -42,10 +42,18 @@ DATA_Z, REFERENCE_Z = 3, 4  # thin references drawn over the data, so none hides
 
 MODEL_NAMES = {"bgk": "BGK", "s_model": "S-model", "es_bgk": "ES-BGK", "dsmc": "DSMC"}
 MOLECULAR_NAMES = {"vhs": "VHS", "vss": "VSS", "hard_sphere": "hard sphere", "maxwell": "Maxwell molecules"}
-STATE_NAMES = {"anisotropic": "anisotropic temperature", "two_beams": "two beams", "bkw": "BKW",
-               "equilibrium": "equilibrium"}
-PROBLEM_NAMES = {"poiseuille": "Poiseuille flow", "thermal_creep": "thermal creep",
-                 "couette": "Couette flow", "heat_transfer": "heat transfer"}
+STATE_NAMES = {
+    "anisotropic": "anisotropic temperature",
+    "two_beams": "two beams",
+    "bkw": "BKW",
+    "equilibrium": "equilibrium",
+}
+PROBLEM_NAMES = {
+    "poiseuille": "Poiseuille flow",
+    "thermal_creep": "thermal creep",
+    "couette": "Couette flow",
+    "heat_transfer": "heat transfer",
+}
 DELTA_LABEL = r"rarefaction parameter $\delta$"
 KN_LABEL = r"Knudsen number $\mathrm{Kn} = \sqrt{\pi}/(2\delta)$"
 
@@ -74,8 +82,11 @@ def model_marker(model: str) -> dict[str, Any]:
 
 def model_line(model: str) -> dict[str, Any]:
     """Line of a kinetic model where markers alone cannot tell models apart (long time series)."""
-    return {"bgk": {"ls": "-", "lw": 2.6, "alpha": 0.55}, "s_model": {"ls": (0, (4, 1.5)), "lw": 1.3},
-            "es_bgk": {"ls": (0, (1, 1)), "lw": 1.3}}.get(model, {"ls": "-", "lw": LINE_WIDTH})
+    return {
+        "bgk": {"ls": "-", "lw": 2.6, "alpha": 0.55},
+        "s_model": {"ls": (0, (4, 1.5)), "lw": 1.3},
+        "es_bgk": {"ls": (0, (1, 1)), "lw": 1.3},
+    }.get(model, {"ls": "-", "lw": LINE_WIDTH})
 
 
 def reference(kind: str, **extra) -> dict[str, Any]:
@@ -151,8 +162,7 @@ def smooth_logx(x: np.ndarray, y: np.ndarray, n: int = 200) -> tuple[np.ndarray,
     return np.exp(dense), PchipInterpolator(lx, y)(dense)
 
 
-def plot_series(ax, x, y, style: dict[str, Any], label: str | None = None, smooth: bool = True,
-                logy: bool = True):
+def plot_series(ax, x, y, style: dict[str, Any], label: str | None = None, smooth: bool = True, logy: bool = True):
     """Computed points as markers joined by a monotone curve; one legend entry (line + marker)."""
     ok = np.isfinite(x) & np.isfinite(y)
     if not ok.any():
@@ -161,8 +171,9 @@ def plot_series(ax, x, y, style: dict[str, Any], label: str | None = None, smoot
     if smooth:
         xs, ys = (smooth_loglog if logy else smooth_logx)(np.asarray(x), np.asarray(y))
         ax.plot(xs, ys, **line_kw)
-        ax.plot(np.asarray(x)[ok], np.asarray(y)[ok], ls="none",
-                **{k: v for k, v in style.items() if k not in ("ls", "lw")})
+        ax.plot(
+            np.asarray(x)[ok], np.asarray(y)[ok], ls="none", **{k: v for k, v in style.items() if k not in ("ls", "lw")}
+        )
         # legend proxy: line and marker together, nothing drawn
         return ax.plot([], [], **style, label=label)[0]
     return ax.plot(np.asarray(x)[ok], np.asarray(y)[ok], **style, label=label)[0]
@@ -172,8 +183,16 @@ def bottom_legend(fig, handles, labels, ncol: int = 2, title: str | None = None)
     """A legend below the axes (outside the data), in the figure's normal font size."""
     if not handles:
         return None
-    return fig.legend(handles, labels, loc="outside lower center", ncol=ncol, fontsize="small",
-                      title=title, title_fontsize="small", frameon=False)
+    return fig.legend(
+        handles,
+        labels,
+        loc="outside lower center",
+        ncol=ncol,
+        fontsize="small",
+        title=title,
+        title_fontsize="small",
+        frameon=False,
+    )
 
 
 def no_data(ax, text: str = "no converged points") -> None:
@@ -184,8 +203,16 @@ def mark_failed(ax, x, status, style: dict[str, Any]) -> int:
     """A cross at the bottom edge for each failed or corrupt point; returns how many."""
     bad = np.isin(status, ["failed", "corrupt"])
     if bad.any():
-        ax.plot(np.asarray(x)[bad], np.full(int(bad.sum()), 0.03), "x", color=style["color"], ms=7,
-                transform=ax.get_xaxis_transform(), clip_on=False, zorder=DATA_Z + 1)
+        ax.plot(
+            np.asarray(x)[bad],
+            np.full(int(bad.sum()), 0.03),
+            "x",
+            color=style["color"],
+            ms=7,
+            transform=ax.get_xaxis_transform(),
+            clip_on=False,
+            zorder=DATA_Z + 1,
+        )
     return int(bad.sum())
 
 

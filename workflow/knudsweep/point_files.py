@@ -51,8 +51,15 @@ from knudsweep.solver.netcdf_io import POINT_LAYOUT, verify_digest, write_result
 _NOT_COEFFICIENTS = {"iterations", "wall_time"}
 OUTDATED = "outdated: "  # prefix of the reason of a sound file from earlier inputs
 # Global attributes the status listing needs (read without loading any variable).
-HEADER_ATTRS = ("status", "status_reason", "iterations_used", "code_version", "point_layout", "point_id",
-                "point_values")
+HEADER_ATTRS = (
+    "status",
+    "status_reason",
+    "iterations_used",
+    "code_version",
+    "point_layout",
+    "point_id",
+    "point_values",
+)
 
 
 def canonical_json(values: dict[str, Any]) -> Any:
@@ -90,8 +97,9 @@ def identity_problem(attrs: dict[str, Any], pid: str, values: dict[str, Any] | N
     return ""
 
 
-def write_point(result, path: str | os.PathLike, pid: str, values: dict[str, Any],
-                provenance: dict[str, Any] | None = None) -> Path:
+def write_point(
+    result, path: str | os.PathLike, pid: str, values: dict[str, Any], provenance: dict[str, Any] | None = None
+) -> Path:
     """Write the point file of ``result`` (point ``pid``, canonical ``values``) atomically.
 
     ``provenance``: further global attributes (config hash, tries, timings).
@@ -123,13 +131,14 @@ def record_from_result(result, pid: str) -> dict[str, Any]:
         "iterations": int(conv.iterations),
         "wall_time": float(result.wall_time),
         "residual": np.asarray(conv.residuals, dtype=float),
-        "coefficients": {name: (float(q.value), {"units": q.units, "long_name": q.long_name})
-                         for name, q in result.coefficients.items()},
+        "coefficients": {
+            name: (float(q.value), {"units": q.units, "long_name": q.long_name})
+            for name, q in result.coefficients.items()
+        },
     }
 
 
-def read_point_record(path: str | os.PathLike, pid: str, values: dict[str, Any]
-                      ) -> tuple[dict[str, Any] | None, str]:
+def read_point_record(path: str | os.PathLike, pid: str, values: dict[str, Any]) -> tuple[dict[str, Any] | None, str]:
     """``(record, "")`` if ``path`` is a valid file of point ``pid``; else ``(None, why)``.
 
     ``why`` is "missing" when there is no file, otherwise a one-line reason.
@@ -149,8 +158,10 @@ def read_point_record(path: str | os.PathLike, pid: str, values: dict[str, Any]
             coefficients = {}
             for name, var in nc.variables.items():
                 if var.ndim == 0 and name not in _NOT_COEFFICIENTS:
-                    coefficients[name] = (float(var.getValue()), {k: str(var.getncattr(k)) for k in
-                                                                  ("units", "long_name") if k in var.ncattrs()})
+                    coefficients[name] = (
+                        float(var.getValue()),
+                        {k: str(var.getncattr(k)) for k in ("units", "long_name") if k in var.ncattrs()},
+                    )
             record = {
                 "pid": pid,
                 "status": str(attrs["status"]),

@@ -83,8 +83,9 @@ def solve_values(family: str, values: dict[str, Any], section: dict[str, Any], a
         try:
             result = fam.solve(values, max_iter=max_iter, section=section)
         except (ArithmeticError, ValueError) as exc:  # numpy's LinAlgError is a ValueError
-            result = _failed_result(family, values, f"solver error: {type(exc).__name__}: {exc}",
-                                    time.perf_counter() - t0)
+            result = _failed_result(
+                family, values, f"solver error: {type(exc).__name__}: {exc}", time.perf_counter() - t0
+            )
         result = _guard_finite(result)
         log.debug("try %d (max_iter=%s): %s %s", tries, max_iter, result.status, result.convergence.reason)
         if result.status != FAILED or factor == 1 or max_iter is None or tries >= 2:
@@ -144,6 +145,8 @@ def write_failure_message(output: str | os.PathLike, exc: BaseException) -> str:
     """
     from knudsweep.preflight import free_space_note
 
-    return (f"could not write point file {output}: {type(exc).__name__}: {exc} ({free_space_note(output)}); "
-            "no file was written under that name; the point is recorded as crashed and "
-            "`knudsweep status <study> --requeue-failed` queues it for the next run")
+    return (
+        f"could not write point file {output}: {type(exc).__name__}: {exc} ({free_space_note(output)}); "
+        "no file was written under that name; the point is recorded as crashed and "
+        "`knudsweep status <study> --requeue-failed` queues it for the next run"
+    )

@@ -30,7 +30,7 @@ class ProductWriteError(OSError):
 
 
 def free_space_note(path: str | os.PathLike) -> str:
-    """"<n> bytes free in <folder>" for the folder of ``path`` (or "free space of <folder> unknown")."""
+    """ "<n> bytes free in <folder>" for the folder of ``path`` (or "free space of <folder> unknown")."""
     folder = Path(path).parent
     while not folder.exists() and folder != folder.parent:
         folder = folder.parent
@@ -42,8 +42,10 @@ def free_space_note(path: str | os.PathLike) -> str:
 
 def write_failure_line(path: str | os.PathLike, exc: BaseException) -> str:
     """One line: which file could not be written, the error and the free space."""
-    return (f"could not write {path}: {type(exc).__name__}: {exc} ({free_space_note(path)}); "
-            "nothing under that name was changed")
+    return (
+        f"could not write {path}: {type(exc).__name__}: {exc} ({free_space_note(path)}); "
+        "nothing under that name was changed"
+    )
 
 
 @contextmanager
@@ -89,8 +91,9 @@ def check_before_run(plan, log_dir: str = "logs") -> tuple[str, list[str]]:
     folders = [RESULTS, f"{RESULTS}/points", plan.study_dir, log_dir]
     problem = unwritable_folder(folders)
     if problem:
-        return (f"{problem}; nothing was run. Make it writable, or run in another folder "
-                "(snakemake --directory DIR)"), []
+        return (
+            f"{problem}; nothing was run. Make it writable, or run in another folder (snakemake --directory DIR)"
+        ), []
     note = check_sweep(plan)
     clean_stray_temporaries(plan, ".")
     return "", [note] if note else []

@@ -107,9 +107,11 @@ def relative_error_sentence(ds, key: str, sel: dict | None = None, what: str | N
         return "No converged point carries an error estimate."
     rel = float(np.max(np.abs(e[ok] / v[ok])))
     size = ", far below the marker size" if rel < 0.01 else ""
-    return (f"Uncertainty: the estimated discretisation error of {what or key} (Richardson extrapolation over a "
-            f"coarser solve) is at most {100 * rel:.2g} % of the value over the points shown{size}; it does not "
-            "include the model error (kinetic model, wall law).")
+    return (
+        f"Uncertainty: the estimated discretisation error of {what or key} (Richardson extrapolation over a "
+        f"coarser solve) is at most {100 * rel:.2g} % of the value over the points shown{size}; it does not "
+        "include the model error (kinetic model, wall law)."
+    )
 
 
 def status_sentence(ds, sel: dict | None = None) -> str:
@@ -143,8 +145,11 @@ def plain_label(dim: str, value: str) -> str:
         parts = []
         for side in value.split("_upper="):
             side = side.replace("cercignani_lampis-", "Cercignani-Lampis, ").replace("maxwell-", "Maxwell, ")
-            side = re.sub(r"-?(alpha(?:_[tn])?)=", lambda m: (", " if m.group(0).startswith("-") else "")
-                          + m.group(1) + " = ", side)
+            side = re.sub(
+                r"-?(alpha(?:_[tn])?)=",
+                lambda m: (", " if m.group(0).startswith("-") else "") + m.group(1) + " = ",
+                side,
+            )
             parts.append(side)
         return parts[0] if len(parts) == 1 else f"lower {parts[0]}; upper {parts[1]}"
     return value
@@ -152,9 +157,12 @@ def plain_label(dim: str, value: str) -> str:
 
 def _counts(ds) -> dict[str, int]:
     s = ds["status"].values.ravel().astype(str)
-    return {"points": int(s.size), "converged": int((s == "converged").sum()),
-            "failed": int((s == "failed").sum()),
-            "missing": int(s.size - (s == "converged").sum() - (s == "failed").sum())}
+    return {
+        "points": int(s.size),
+        "converged": int((s == "converged").sum()),
+        "failed": int((s == "failed").sum()),
+        "missing": int(s.size - (s == "converged").sum() - (s == "failed").sum()),
+    }
 
 
 def _axes_lines(ds, family) -> list[str]:
@@ -164,8 +172,11 @@ def _axes_lines(ds, family) -> list[str]:
     for dim in ds["status"].dims:
         vals = ds[dim].values
         if np.issubdtype(vals.dtype, np.number):
-            shown = ", ".join(f"{v:g}" for v in vals) if vals.size <= 8 else \
-                f"{vals.size} values from {vals.min():g} to {vals.max():g}"
+            shown = (
+                ", ".join(f"{v:g}" for v in vals)
+                if vals.size <= 8
+                else f"{vals.size} values from {vals.min():g} to {vals.max():g}"
+            )
         else:
             shown = "; ".join(plain_label(dim, str(v)) for v in vals)
         lines.append(f"   * - {dim.replace('_', ' ')}\n     - {rst_escape(shown)}")
@@ -189,24 +200,31 @@ def study_page_text(plan, sweep: str) -> str:
         "(linearised kinetic models or particle simulations of an ideal gas, with the stated wall laws); "
         "the uncertainties given in the captions are numerical only and do not cover the model error."
     )
-    rows = ["   * - family\n     - what is computed\n     - points\n     - converged\n     - failed\n"
-            "     - missing\n     - point code versions"]
+    rows = [
+        "   * - family\n     - what is computed\n     - points\n     - converged\n     - failed\n"
+        "     - missing\n     - point code versions"
+    ]
     failed_lines = []
     sweeps = []
     for fam in plan.families:
         ds = open_sweep(sweep, fam)
         c = _counts(ds)
         versions = sorted({v for v in ds["code_version"].values.ravel().astype(str) if v})
-        rows.append(f"   * - `{category(fam)}`_\n     - {_FAMILY_WORDS.get(fam, fam)}\n     - {c['points']}\n"
-                    f"     - {c['converged']}\n     - {c['failed']}\n     - {c['missing']}\n"
-                    f"     - {rst_escape(', '.join(versions) or 'none')}")
-        sweeps.append(f"{category(fam)}\n{'~' * len(category(fam))}\n\n.. list-table::\n   :header-rows: 0\n\n"
-                      + "\n".join(_axes_lines(ds, fam)))
+        rows.append(
+            f"   * - `{category(fam)}`_\n     - {_FAMILY_WORDS.get(fam, fam)}\n     - {c['points']}\n"
+            f"     - {c['converged']}\n     - {c['failed']}\n     - {c['missing']}\n"
+            f"     - {rst_escape(', '.join(versions) or 'none')}"
+        )
+        sweeps.append(
+            f"{category(fam)}\n{'~' * len(category(fam))}\n\n.. list-table::\n   :header-rows: 0\n\n"
+            + "\n".join(_axes_lines(ds, fam))
+        )
         bad = np.argwhere(np.isin(ds["status"].values.astype(str), ["failed"]))
         for idx in bad[:20]:
-            where = ", ".join(f"{d} = {ds[d].values[i]}" for d, i in zip(ds["status"].dims, idx))
-            failed_lines.append(f"* {category(fam)}: {rst_escape(where)}: "
-                                f"{rst_escape(ds['reason'].values[tuple(idx)])}")
+            where = ", ".join(f"{d} = {ds[d].values[i]}" for d, i in zip(ds["status"].dims, idx, strict=False))
+            failed_lines.append(
+                f"* {category(fam)}: {rst_escape(where)}: {rst_escape(ds['reason'].values[tuple(idx)])}"
+            )
         if len(bad) > 20:
             failed_lines.append(f"* {category(fam)}: {len(bad) - 20} more (knudsweep status lists all)")
     parts.append("Points\n------\n\n.. list-table::\n   :header-rows: 1\n\n" + "\n".join(rows))
@@ -227,22 +245,24 @@ def study_page_text(plan, sweep: str) -> str:
 
 def table_caption(table, name: str) -> str:
     notes = "\n".join(f"* {rst_escape(n)}" for n in table.notes)
-    return _paragraphs([f"**{rst_escape(table.title)}** (tables/{name}.csv; the Markdown file beside it holds "
-                        "the same notes).", notes])
+    return _paragraphs(
+        [f"**{rst_escape(table.title)}** (tables/{name}.csv; the Markdown file beside it holds the same notes).", notes]
+    )
 
 
 def table_html(table, name: str) -> str:
     frame = table.frame
-    body = frame.to_html(index=False, border=0, na_rep="", float_format=lambda v: f"{v:.6g}",
-                         classes="knudsweep-table")
+    body = frame.to_html(index=False, border=0, na_rep="", float_format=lambda v: f"{v:.6g}", classes="knudsweep-table")
     notes = "".join(f"<li>{html.escape(n)}</li>" for n in table.notes)
-    return ("<!DOCTYPE html>\n<html><head><meta charset=\"utf-8\">"
-            f"<title>{html.escape(table.title)}</title>"
-            "<style>body{font-family:sans-serif;font-size:13px;margin:1em}"
-            "table{border-collapse:collapse}th,td{padding:2px 6px;border-bottom:1px solid #ddd;text-align:right}"
-            "th{position:sticky;top:0;background:#f4f4f4}</style></head><body>"
-            f"<h2>{html.escape(table.title)}</h2><p>Data: tables/{html.escape(name)}.csv "
-            f"({len(frame)} rows).</p><ul>{notes}</ul>{body}</body></html>\n")
+    return (
+        '<!DOCTYPE html>\n<html><head><meta charset="utf-8">'
+        f"<title>{html.escape(table.title)}</title>"
+        "<style>body{font-family:sans-serif;font-size:13px;margin:1em}"
+        "table{border-collapse:collapse}th,td{padding:2px 6px;border-bottom:1px solid #ddd;text-align:right}"
+        "th{position:sticky;top:0;background:#f4f4f4}</style></head><body>"
+        f"<h2>{html.escape(table.title)}</h2><p>Data: tables/{html.escape(name)}.csv "
+        f"({len(frame)} rows).</p><ul>{notes}</ul>{body}</body></html>\n"
+    )
 
 
 def _write(path: str | os.PathLike, text: str) -> None:
@@ -269,8 +289,10 @@ def write_report_pages(study: dict[str, Any], sweep: str, root: str | os.PathLik
         captions = family.figure_captions(ds, section)
         for name in family.figure_names(section):
             text = captions.get(name) or f"{category(fam)}: {name.replace('_', ' ')}."
-            _write(root / caption_file(plan, name), _paragraphs([text, status_sentence(ds)])
-                   if name not in captions else _paragraphs([text]))
+            _write(
+                root / caption_file(plan, name),
+                _paragraphs([text, status_sentence(ds)]) if name not in captions else _paragraphs([text]),
+            )
             written.append(root / caption_file(plan, name))
         for name, table in family.tables(ds, section).items():
             _write(root / caption_file(plan, name), table_caption(table, name))

@@ -94,14 +94,18 @@ def _from_sidecar(path: Path, st: os.stat_result) -> dict | None:
         record = json.loads(sidecar_path(path).read_text(encoding="utf-8"))
     except (OSError, ValueError):
         return None
-    if (record.get("sidecar_layout") != SIDECAR_LAYOUT or record.get("size") != st.st_size
-            or record.get("mtime_ns") != st.st_mtime_ns):
+    if (
+        record.get("sidecar_layout") != SIDECAR_LAYOUT
+        or record.get("size") != st.st_size
+        or record.get("mtime_ns") != st.st_mtime_ns
+    ):
         return None
     return record
 
 
-def read_status(path: str | os.PathLike, update_sidecar: bool = True, pid: str | None = None,
-                values: dict | None = None) -> PointStatus:
+def read_status(
+    path: str | os.PathLike, update_sidecar: bool = True, pid: str | None = None, values: dict | None = None
+) -> PointStatus:
     """Status of one point file from its sidecar or, failing that, its attributes.
 
     With ``pid``, a file that holds another point (copied over this one) is
@@ -128,9 +132,16 @@ def read_status(path: str | os.PathLike, update_sidecar: bool = True, pid: str |
     why = identity_problem(attrs, attrs.get("point_id") if pid is None else pid, values)
     if why and not why.startswith(OUTDATED):
         return PointStatus("", str(path), "corrupt", why)
-    return PointStatus("", str(path), str(attrs["status"]), str(attrs.get("status_reason", "")),
-                       int(attrs.get("iterations_used", -1)), str(attrs.get("code_version", "")), bool(why),
-                       why[len(OUTDATED):])
+    return PointStatus(
+        "",
+        str(path),
+        str(attrs["status"]),
+        str(attrs.get("status_reason", "")),
+        int(attrs.get("iterations_used", -1)),
+        str(attrs.get("code_version", "")),
+        bool(why),
+        why[len(OUTDATED) :],
+    )
 
 
 def study_status(plan, root: str | os.PathLike = ".", update_sidecar: bool = True) -> list[PointStatus]:

@@ -31,9 +31,11 @@ from knudsweep.families import Table
 ROUND_OFF = 1e-10
 UNCERTAINTY_DIGITS = 2
 _UNCERTAINTY = re.compile(r"^(?P<quantity>.+) uncertainty (?P<unit>\[[^\]]*\])$")
-ROUND_OFF_NOTE = (f"Uncertainties are given to {UNCERTAINTY_DIGITS} significant digits and each value to the "
-                  f"same decimal place; an uncertainty of 0 is below {ROUND_OFF:g} of its value (round-off of "
-                  "a noise-free model-equation fit), its value then has 6 significant digits.")
+ROUND_OFF_NOTE = (
+    f"Uncertainties are given to {UNCERTAINTY_DIGITS} significant digits and each value to the "
+    f"same decimal place; an uncertainty of 0 is below {ROUND_OFF:g} of its value (round-off of "
+    "a noise-free model-equation fit), its value then has 6 significant digits."
+)
 
 
 def _plain(value: float) -> str:

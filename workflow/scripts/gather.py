@@ -1,4 +1,5 @@
 """Rule gather: point files -> results/<study>/sweep.nc (logic in knudsweep.gather)."""
+
 from knudsweep.jobs import run_gather
 
 if __name__ == "__main__":  # dask worker processes are spawned: guard the entry point

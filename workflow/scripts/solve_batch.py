@@ -1,4 +1,5 @@
 """Rule solve_batch: verify and solve one batch of points (logic in knudsweep.batch_job)."""
+
 import sys
 
 # A batch job never uses dask: marked absent, xarray does not import dask and

@@ -134,9 +134,11 @@ class Products:
     def register(self, names: Callable[[dict], list[str]], caption: Callable | None = None):
         """Decorator: ``builder(ds, section, *args) -> {name: product}`` for the names ``names(section)``;
         ``caption(ds, section) -> {name: text}`` for the same names."""
+
         def add(builder):
             self._entries.append((names, builder, caption))
             return builder
+
         return add
 
     def names(self, section: dict[str, Any]) -> list[str]:
@@ -165,35 +167,53 @@ class Products:
 
 
 class Family:
-    """Base class of a solver family; see the module docstring for the protocol."""
+    """Base class of a solver family; see the module docstring for the protocol.
+
+    The section-level methods forward to the family's ``grid`` module when it
+    defines a function of the same name (``check_section``, ``points``,
+    ``point_cost``, ``peak_memory_mb``, ``gather_dims``, ``dim_attrs``), so a
+    subclass names its two modules and writes only ``solve`` and ``warm_up``.
+    """
 
     name: str = ""
+    grid: Any = None  # the family's grid module
     report: Any = None  # the family's report module (``TABLES``, ``FIGURES``)
 
+    def _grid(self, what: str):
+        return getattr(self.grid, what, None) if self.grid is not None else None
+
     def check_section(self, section: dict[str, Any]) -> None:
-        return None
+        check = self._grid("check_section")
+        return check(section) if check else None
 
     def points(self, section: dict[str, Any]) -> list[Point]:
-        raise NotImplementedError
+        if self._grid("points") is None:
+            raise NotImplementedError
+        return self.grid.points(section)
 
     def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
         raise NotImplementedError
 
     def point_cost(self, values: dict[str, Any]) -> float:
-        return 1.0
+        cost = self._grid("point_cost")
+        return cost(values) if cost else 1.0
 
     def peak_memory_mb(self, section: dict[str, Any]) -> tuple[float, str]:
         """Largest estimated memory of one point of ``section`` (MB) and which point; 0 if small."""
-        return 0.0, ""
+        peak = self._grid("peak_memory_mb")
+        return peak(section) if peak else (0.0, "")
 
     def warm_up(self) -> None:
         return None
 
     def gather_dims(self, section: dict[str, Any]) -> dict[str, list]:
-        raise NotImplementedError
+        if self._grid("gather_dims") is None:
+            raise NotImplementedError
+        return self.grid.gather_dims(section)
 
     def dim_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
-        return {}
+        attrs = self._grid("dim_attrs")
+        return attrs(section) if attrs else {}
 
     def table_names(self, section: dict[str, Any]) -> list[str]:
         return self.report.TABLES.names(section) if self.report else []
@@ -261,7 +281,9 @@ def wall_params(spec: dict[str, Any], where: str) -> dict[str, Any]:
     allowed = WALL_KEYS[model]
     for key in ("alpha", "alpha_t", "alpha_n"):
         if key in spec and key not in allowed:
-            raise ValueError(f"{where}.{key}: not a parameter of wall model {model!r}; its parameters are {', '.join(allowed)}")
+            raise ValueError(
+                f"{where}.{key}: not a parameter of wall model {model!r}; its parameters are {', '.join(allowed)}"
+            )
     params = {key: canonical(spec.get(key, 1.0)) for key in allowed}
     try:
         make_wall(model, **params)

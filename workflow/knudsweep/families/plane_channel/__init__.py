@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from knudsweep.families import Family, Point
+from knudsweep.families import Family
 from knudsweep.families.plane_channel import grid, report
 from knudsweep.families.plane_channel.grid import (
     BOLTZMANN_MODELS,
@@ -23,28 +23,23 @@ from knudsweep.families.plane_channel.grid import (
     wall_settings,
 )
 
-__all__ = ["BOLTZMANN_MODELS", "BOLTZMANN_PROBLEMS", "FAMILY", "MODEL_EQUATIONS", "MODELS", "PROBLEMS", "PlaneChannel",
-           "wall_label", "wall_settings"]
+__all__ = [
+    "BOLTZMANN_MODELS",
+    "BOLTZMANN_PROBLEMS",
+    "FAMILY",
+    "MODEL_EQUATIONS",
+    "MODELS",
+    "PROBLEMS",
+    "PlaneChannel",
+    "wall_label",
+    "wall_settings",
+]
 
 
 class PlaneChannel(Family):
     name = grid.NAME
+    grid = grid
     report = report
-
-    def check_section(self, section: dict[str, Any]) -> None:
-        grid.check_section(section)
-
-    def points(self, section: dict[str, Any]) -> list[Point]:
-        return grid.points(section)
-
-    def point_cost(self, values: dict[str, Any]) -> float:
-        return grid.point_cost(values)
-
-    def gather_dims(self, section: dict[str, Any]) -> dict[str, list]:
-        return grid.gather_dims(section)
-
-    def dim_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
-        return grid.dim_attrs(section)
 
     def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
         from knudsweep.solver.plane_channel import solve_plane_channel
@@ -74,8 +69,14 @@ class PlaneChannel(Family):
                 if model in BOLTZMANN_MODELS and problem not in BOLTZMANN_PROBLEMS:
                     continue
                 solve_plane_channel(
-                    problem, delta=1.0, model=model, lower_wall=MaxwellWall(0.9),
-                    n_space=8, n_velocity=4 if model in BOLTZMANN_MODELS else 8, max_iter=5, tol=1e-3,
+                    problem,
+                    delta=1.0,
+                    model=model,
+                    lower_wall=MaxwellWall(0.9),
+                    n_space=8,
+                    n_velocity=4 if model in BOLTZMANN_MODELS else 8,
+                    max_iter=5,
+                    tol=1e-3,
                     accelerate=model in BOLTZMANN_MODELS,
                 )
 

@@ -102,8 +102,10 @@ def check_section(section: dict[str, Any]) -> None:
     reject_repeats("walls", [label for label, _, _ in wall_settings(section)])
     res = section.get("resolution", {})
     if res.get("accuracy") is not None and (res.get("n_space") is not None or res.get("n_velocity") is not None):
-        raise ValueError("resolution.accuracy: give either an accuracy target or n_space/n_velocity, not both "
-                         "(set n_space and n_velocity to null)")
+        raise ValueError(
+            "resolution.accuracy: give either an accuracy target or n_space/n_velocity, not both "
+            "(set n_space and n_velocity to null)"
+        )
     # The solver's own limits, checked here so a study fails before any job
     # starts instead of producing points that fail with a solver error.
     from knudsweep.solver.plane_channel import driver, grids
@@ -119,8 +121,11 @@ def check_section(section: dict[str, Any]) -> None:
         raise ValueError(f"resolution.tol: got {res['tol']}; allowed range is [1e-14, 0.01]")
     for d in delta_values(section):
         if not lo <= d <= hi:
-            bounds = (f"[{lo:g}, {hi:g}]" if has_delta
-                      else f"[{math.sqrt(math.pi) / (2 * hi):.3g}, {math.sqrt(math.pi) / (2 * lo):.3g}]")
+            bounds = (
+                f"[{lo:g}, {hi:g}]"
+                if has_delta
+                else f"[{math.sqrt(math.pi) / (2 * hi):.3g}, {math.sqrt(math.pi) / (2 * lo):.3g}]"
+            )
             raise ValueError(f"{axis}: a value gives delta = {d:g}; allowed range of {axis} is {bounds}")
     deltas = delta_values(section)
     if len(set(deltas)) != len(deltas):
@@ -137,26 +142,41 @@ def check_boltzmann(section: dict[str, Any], axis: str) -> None:
 
     for problem in section["problems"]:
         if problem not in BOLTZMANN_PROBLEMS:
-            raise ValueError(f"problems: model {lbe[0]} solves {', '.join(BOLTZMANN_PROBLEMS)} only, "
-                             f"got {problem!r} (put other problems in a second study)")
-    for i, (label, lower, upper) in enumerate(wall_settings(section)):
+            raise ValueError(
+                f"problems: model {lbe[0]} solves {', '.join(BOLTZMANN_PROBLEMS)} only, "
+                f"got {problem!r} (put other problems in a second study)"
+            )
+    for i, (_label, lower, upper) in enumerate(wall_settings(section)):
         for w in (lower, upper):
             if w is not None and w["model"] != "maxwell":
                 raise ValueError(f"walls[{i}].model: model {lbe[0]} takes wall model maxwell only, got {w['model']!r}")
     lo, hi = bd.DELTA_RANGE
     for d in delta_values(section):
         if not lo <= d <= hi:
-            bounds = (f"[{lo:g}, {hi:g}]" if axis == "delta"
-                      else f"[{math.sqrt(math.pi) / (2 * hi):.3g}, {math.sqrt(math.pi) / (2 * lo):.3g}]")
-            raise ValueError(f"{axis}: a value gives delta = {d:g}; allowed range of {axis} with model {lbe[0]} is {bounds}")
+            bounds = (
+                f"[{lo:g}, {hi:g}]"
+                if axis == "delta"
+                else f"[{math.sqrt(math.pi) / (2 * hi):.3g}, {math.sqrt(math.pi) / (2 * lo):.3g}]"
+            )
+            raise ValueError(
+                f"{axis}: a value gives delta = {d:g}; allowed range of {axis} with model {lbe[0]} is {bounds}"
+            )
     nv = section.get("resolution", {}).get("n_velocity")
     if nv is not None and not bd.MIN_SPEED <= nv <= bd.MAX_SPEED:
-        raise ValueError(f"resolution.n_velocity: got {nv}; with model {lbe[0]} it counts speed nodes, "
-                         f"allowed range [{bd.MIN_SPEED}, {bd.MAX_SPEED}] or null")
+        raise ValueError(
+            f"resolution.n_velocity: got {nv}; with model {lbe[0]} it counts speed nodes, "
+            f"allowed range [{bd.MIN_SPEED}, {bd.MAX_SPEED}] or null"
+        )
 
 
-def point_values(problem: str, model: str, delta: float, lower: dict[str, Any], upper: dict[str, Any] | None,
-                 resolution: dict[str, Any]) -> dict[str, Any]:
+def point_values(
+    problem: str,
+    model: str,
+    delta: float,
+    lower: dict[str, Any],
+    upper: dict[str, Any] | None,
+    resolution: dict[str, Any],
+) -> dict[str, Any]:
     """Canonical values of one point (a study's grid and ``knudsweep solve`` both build them here).
 
     ``lower``, ``upper``: canonical wall laws (:func:`knudsweep.families.wall_params`; upper None = alike);
@@ -244,13 +264,26 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
             "attrs": {"long_name": "gas-surface interaction setting"},
             "extra": {
                 "wall_model": ([w[1]["model"] for w in walls], {"long_name": "wall model (lower plate)"}),
-                "alpha": ([acc(w[1], "alpha") for w in walls], {"units": "1", "long_name": "Maxwell accommodation coefficient (lower plate)"}),
-                "alpha_t": ([acc(w[1], "alpha_t") for w in walls], {"units": "1", "long_name": "Cercignani-Lampis tangential-momentum accommodation (lower plate)"}),
-                "alpha_n": ([acc(w[1], "alpha_n") for w in walls], {"units": "1", "long_name": "Cercignani-Lampis normal-energy accommodation (lower plate)"}),
-                "symmetric_walls": ([np.int8(w[2] is None) for w in walls], {
-                    "long_name": "whether both plates have the same wall setting",
-                    "flag_values": np.array([0, 1], dtype=np.int8),
-                    "flag_meanings": "plates_differ plates_alike"}),
+                "alpha": (
+                    [acc(w[1], "alpha") for w in walls],
+                    {"units": "1", "long_name": "Maxwell accommodation coefficient (lower plate)"},
+                ),
+                "alpha_t": (
+                    [acc(w[1], "alpha_t") for w in walls],
+                    {"units": "1", "long_name": "Cercignani-Lampis tangential-momentum accommodation (lower plate)"},
+                ),
+                "alpha_n": (
+                    [acc(w[1], "alpha_n") for w in walls],
+                    {"units": "1", "long_name": "Cercignani-Lampis normal-energy accommodation (lower plate)"},
+                ),
+                "symmetric_walls": (
+                    [np.int8(w[2] is None) for w in walls],
+                    {
+                        "long_name": "whether both plates have the same wall setting",
+                        "flag_values": np.array([0, 1], dtype=np.int8),
+                        "flag_meanings": "plates_differ plates_alike",
+                    },
+                ),
             },
         },
         "delta": {

@@ -180,8 +180,12 @@ def model_error_table(ds, section: dict[str, Any]) -> Table:
             cols[f"{key} {model_text(lbe)} error estimate [1]"] = e_ref
             cols[f"{key} {model_text(lbe)} status"] = ds["status"].sel(model=lbe, **sel).values
             for m in eqs:
-                ratio, err = model_error_ratio(values_of(ds, key, model=m, **sel),
-                                               values_of(ds, f"{key}_error_estimate", model=m, **sel), g_ref, e_ref)
+                ratio, err = model_error_ratio(
+                    values_of(ds, key, model=m, **sel),
+                    values_of(ds, f"{key}_error_estimate", model=m, **sel),
+                    g_ref,
+                    e_ref,
+                )
                 cols[f"{key} {model_text(m)} / Boltzmann [1]"] = ratio
                 cols[f"{key} {model_text(m)} / Boltzmann error estimate [1]"] = err
         for j, d in enumerate(delta):
@@ -189,7 +193,8 @@ def model_error_table(ds, section: dict[str, Any]) -> Table:
             row.update({k: (v[j] if v.dtype.kind in "OUS" else float(v[j])) for k, v in cols.items()})
             rows.append(row)
     notes = [
-        NOTES_COMMON[0], NOTES_COMMON[1],
+        NOTES_COMMON[0],
+        NOTES_COMMON[1],
         f"Model error of the kinetic model equations: each one's reduced flow rate divided by the solution of the "
         f"{model_text(lbe)} equation (knudsweep.solver.plane_channel.boltzmann_driver) at the same delta and walls. delta is "
         "defined with the gas's viscosity in both, so the difference is the error of the model's collision term; "
@@ -235,8 +240,7 @@ def problem_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                 status = ds["status"].sel(**sel).values
                 g = ds[key].sel(**sel).values.astype(float) if key in ds else np.full(delta.shape, np.nan)
                 err_name = f"{key}_error_estimate"
-                g_err = (ds[err_name].sel(**sel).values.astype(float) if err_name in ds
-                         else np.full(delta.shape, np.nan))
+                g_err = ds[err_name].sel(**sel).values.astype(float) if err_name in ds else np.full(delta.shape, np.nan)
                 extra_cols = {}
                 if key == "G_P":
                     s_lo = _slip_sigma(lower, SIGMA_P_DIFFUSE)
@@ -278,10 +282,7 @@ def problem_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
             f"{key} error estimate: estimated discretisation error of {key} (absolute), from a Richardson "
             "extrapolation over a coarser solve (knudsweep.solver.resolution); it does not include the model error."
         )
-        notes.append(
-            f"temperature {section['conditions']['temperature']:g} K, gap "
-            f"{section['conditions']['gap']:g} m."
-        )
+        notes.append(f"temperature {section['conditions']['temperature']:g} K, gap {section['conditions']['gap']:g} m.")
         if key == "G_P":
             notes += [
                 "G_P / (delta/6): ratio to the continuum (no-slip Navier-Stokes) value delta/6.",
@@ -302,8 +303,10 @@ def problem_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                 "walls only."
             )
         if key in ("shear_stress", "heat_flux"):
-            notes.append(f"{key} * sqrt(pi): ratio to the free-molecular value 1/sqrt(pi) for diffuse walls "
-                         "(derived from the free-molecular wall fluxes), if the solver uses that normalisation.")
+            notes.append(
+                f"{key} * sqrt(pi): ratio to the free-molecular value 1/sqrt(pi) for diffuse walls "
+                "(derived from the free-molecular wall fluxes), if the solver uses that normalisation."
+            )
         tables[f"plane_channel_{problem}"] = Table(frame, f"Plane channel, {problem.replace('_', ' ')}", notes)
     return tables
 
@@ -338,6 +341,7 @@ def model_error_figure_names(section: dict[str, Any]) -> list[str]:
 
 def _accommodation_factor(lower: dict, upper: dict | None) -> float:
     """Mean over the plates of Maxwell's (2 - alpha)/alpha (alpha_t for Cercignani-Lampis walls)."""
+
     def one(w):
         a = w["alpha_t"] if w["model"] == "cercignani_lampis" else w["alpha"]
         return (2.0 - a) / a
@@ -361,8 +365,7 @@ def values_of(ds, key, **sel) -> np.ndarray:
 
 def _wall_entries(walls) -> list[tuple[int, str, dict, dict | None]]:
 
-    return [(i, label, lower, upper) for i, (label, (lower, upper)) in enumerate(walls.items())
-            ] if walls else []
+    return [(i, label, lower, upper) for i, (label, (lower, upper)) in enumerate(walls.items())] if walls else []
 
 
 def _legend_handles(ax, walls, models, refs: list[tuple[str, str]]):
@@ -370,7 +373,7 @@ def _legend_handles(ax, walls, models, refs: list[tuple[str, str]]):
     from knudsweep import plot_style as ps
 
     handles, labels = [], []
-    for i, label, lower, upper in _wall_entries(walls):
+    for i, _label, lower, upper in _wall_entries(walls):
         handles.append(ax.plot([], [], **ps.series_style(i), ms=5.5)[0])
         labels.append(ps.wall_text(lower, upper))
     if len(models) > 1:
@@ -394,8 +397,9 @@ def _coefficient_figure(ds, section, settings, problem):
     delta = ds["delta"].values.astype(float)
     two = len(models) > 1 and key in ("G_P", "G_T")
     if two:
-        fig, axes = new_figure(settings, mosaic=[["main"], ["diff"]], scale=(1.0, 1.45),
-                               sharex=True, height_ratios=[3.0, 1.3])
+        fig, axes = new_figure(
+            settings, mosaic=[["main"], ["diff"]], scale=(1.0, 1.45), sharex=True, height_ratios=[3.0, 1.3]
+        )
         ax, dax = axes["main"], axes["diff"]
     else:
         fig, ax = new_figure(settings, scale=(1.0, 1.2))
@@ -442,13 +446,23 @@ def _coefficient_figure(ds, section, settings, problem):
             ax.plot(big, big / 6.0, **ps.reference("continuum"))
             refs.append(("continuum", r"no-slip continuum $\delta/6$ ($\delta \geq 10$)"))
             refs.append(("slip", r"first-order slip $\delta/6 + \sigma_P$ ($\delta \geq 10$)"))
-        refs.append(("free_molecular", r"free-molecular form $-\frac{2-\alpha}{\alpha}\frac{\ln\delta}{\sqrt{\pi}}$"
-                                        r" + c ($\delta \leq 0.1$)"))
+        refs.append(
+            (
+                "free_molecular",
+                r"free-molecular form $-\frac{2-\alpha}{\alpha}\frac{\ln\delta}{\sqrt{\pi}}$"
+                r" + c ($\delta \leq 0.1$)",
+            )
+        )
     elif key == "G_T":
         if delta.max() >= SLIP_MIN_DELTA:
             refs.append(("slip", r"thermal slip $\sigma_T/\delta$, $\sigma_T$ matched at largest $\delta$"))
-        refs.append(("free_molecular", r"free-molecular form $-\frac{2-\alpha}{2\alpha}\frac{\ln\delta}{\sqrt{\pi}}$"
-                                        r" + c ($\delta \leq 0.1$)"))
+        refs.append(
+            (
+                "free_molecular",
+                r"free-molecular form $-\frac{2-\alpha}{2\alpha}\frac{\ln\delta}{\sqrt{\pi}}$"
+                r" + c ($\delta \leq 0.1$)",
+            )
+        )
     ax.set_xscale("log")
     if drawn:
         if key in ("G_P", "G_T"):
@@ -465,15 +479,19 @@ def _coefficient_figure(ds, section, settings, problem):
     ax.set_title(title, fontsize="medium")
     if dax is not None:
         base = models[0]
-        for i, label, lower, upper in _wall_entries(walls):
+        for i, label, _lower, _upper in _wall_entries(walls):
             g0 = values_of(ds, key, problem=problem, model=base, wall=label)
             for model in models[1:]:
                 g = values_of(ds, key, problem=problem, model=model, wall=label)
-                ps.plot_series(dax, delta, 100.0 * (g - g0) / g0, {**ps.series_style(i), **model_marker(model)},
-                               logy=False)
+                ps.plot_series(
+                    dax, delta, 100.0 * (g - g0) / g0, {**ps.series_style(i), **model_marker(model)}, logy=False
+                )
         dax.axhline(0.0, color=ps.REFERENCE_COLOR, lw=0.8, zorder=1)
-        dax.set_ylabel(f"{model_text(models[1]) if len(models) == 2 else 'model'} $-$ "
-                       f"{model_text(base)}\n[% of {model_text(base)}]", fontsize="small")
+        dax.set_ylabel(
+            f"{model_text(models[1]) if len(models) == 2 else 'model'} $-$ "
+            f"{model_text(base)}\n[% of {model_text(base)}]",
+            fontsize="small",
+        )
         dax.set_xlabel(ps.DELTA_LABEL)
     else:
         ax.set_xlabel(ps.DELTA_LABEL)
@@ -492,12 +510,11 @@ def _correction_figure(ds, section, settings):
     kn = SQRT_PI / (2.0 * delta)
     fig, ax = new_figure(settings, scale=(1.0, 1.2))
     drawn = False
-    for i, label, lower, upper in _wall_entries(walls):
+    for i, label, _lower, _upper in _wall_entries(walls):
         for model in models:
             g = values_of(ds, "G_P", problem="poiseuille", model=model, wall=label)
             order = np.argsort(kn)
-            if ps.plot_series(ax, kn[order], (g / (delta / 6.0))[order],
-                              {**ps.series_style(i), **model_marker(model)}):
+            if ps.plot_series(ax, kn[order], (g / (delta / 6.0))[order], {**ps.series_style(i), **model_marker(model)}):
                 drawn = True
     ax.axhline(1.0, **ps.reference("continuum"))
     ax.set_xscale("log")
@@ -509,8 +526,13 @@ def _correction_figure(ds, section, settings):
     ax.set_ylabel(r"correction factor $G_P\,/\,(\delta/6)$")
     ax.set_title("Flow-rate correction against no-slip continuum flow", fontsize="medium")
     # Correction factors are quoted against Kn by convention; delta on the top axis.
-    top = ax.secondary_xaxis("top", functions=(lambda k: SQRT_PI / (2.0 * np.maximum(k, 1e-300)),
-                                               lambda d: SQRT_PI / (2.0 * np.maximum(d, 1e-300))))
+    top = ax.secondary_xaxis(
+        "top",
+        functions=(
+            lambda k: SQRT_PI / (2.0 * np.maximum(k, 1e-300)),
+            lambda d: SQRT_PI / (2.0 * np.maximum(d, 1e-300)),
+        ),
+    )
     top.set_xlabel(r"rarefaction parameter $\delta$", fontsize="small")
     handles, labels = _legend_handles(ax, walls, models, [("continuum", "no-slip continuum: ratio 1")])
     ps.bottom_legend(fig, handles, labels, ncol=2)
@@ -533,12 +555,17 @@ def _convergence_figure(ds, section, settings, problem):
     fig, axes = new_figure(settings, mosaic=mosaic, scale=(1.0, 1.6), height_ratios=[1.0, 1.1])
     ax = axes["iters"]
     drawn = False
-    for i, label, lower, upper in _wall_entries(walls):
+    for i, label, _lower, _upper in _wall_entries(walls):
         for model in models:
             n = ds["iterations"].sel(problem=problem, model=model, wall=label).values.astype(float)
             ok = ds["status"].sel(problem=problem, model=model, wall=label).values == "converged"
-            if ps.plot_series(ax, delta, np.where(ok & (n > 0), n, np.nan),
-                              {**ps.series_style(i), **model_marker(model)}, smooth=False):
+            if ps.plot_series(
+                ax,
+                delta,
+                np.where(ok & (n > 0), n, np.nan),
+                {**ps.series_style(i), **model_marker(model)},
+                smooth=False,
+            ):
                 drawn = True
     ax.set_xscale("log")
     ax.set_xlabel(ps.DELTA_LABEL)
@@ -562,8 +589,15 @@ def _convergence_figure(ds, section, settings, problem):
                     any_line = True
                     hax.plot(it[ok], r[ok], color=cmap(norm(np.log10(d))), lw=0.8, alpha=0.85)
         hax.axhline(tol, **ps.reference("fit"))
-        hax.text(0.98, tol, f"tolerance {ps.sci(tol)}", transform=hax.get_yaxis_transform(), ha="right",
-                 va="bottom", fontsize="x-small")
+        hax.text(
+            0.98,
+            tol,
+            f"tolerance {ps.sci(tol)}",
+            transform=hax.get_yaxis_transform(),
+            ha="right",
+            va="bottom",
+            fontsize="x-small",
+        )
         if any_line:
             hax.set_yscale("log")
         else:
@@ -593,19 +627,31 @@ def _model_error_figure(ds, section, settings):
         ax = axes[key]
         problem = "poiseuille" if key == "G_P" else "thermal_creep"
         drawn = False
-        for i, label, lower, upper in _wall_entries(walls):
+        for i, label, _lower, _upper in _wall_entries(walls):
             sel = dict(problem=problem, wall=label)
             g_ref = values_of(ds, key, model=lbe, **sel)
             e_ref = values_of(ds, f"{key}_error_estimate", model=lbe, **sel)
             for m in eqs:
-                ratio, err = model_error_ratio(values_of(ds, key, model=m, **sel),
-                                               values_of(ds, f"{key}_error_estimate", model=m, **sel), g_ref, e_ref)
+                ratio, err = model_error_ratio(
+                    values_of(ds, key, model=m, **sel),
+                    values_of(ds, f"{key}_error_estimate", model=m, **sel),
+                    g_ref,
+                    e_ref,
+                )
                 style = {**ps.series_style(i), **model_marker(m)}
                 if ps.plot_series(ax, delta, ratio, style, logy=False):
                     drawn = True
                     ok = np.isfinite(ratio) & np.isfinite(err)
-                    ax.errorbar(delta[ok], ratio[ok], yerr=err[ok], fmt="none", ecolor=style["color"], elinewidth=0.8,
-                                capsize=0, zorder=ps.DATA_Z)
+                    ax.errorbar(
+                        delta[ok],
+                        ratio[ok],
+                        yerr=err[ok],
+                        fmt="none",
+                        ecolor=style["color"],
+                        elinewidth=0.8,
+                        capsize=0,
+                        zorder=ps.DATA_Z,
+                    )
         ax.axhline(1.0, **ps.reference("continuum"))
         ax.set_xscale("log")
         ax.set_xlabel(ps.DELTA_LABEL)
@@ -623,8 +669,6 @@ def _model_error_figure(ds, section, settings):
     return fig
 
 
-
-
 # ---------------------------------------------------------------- report captions
 def _plain_wall(lower: dict, upper: dict | None) -> str:
     from knudsweep.plot_style import wall_text
@@ -639,8 +683,11 @@ def _caption_context(ds, section: dict[str, Any]) -> dict[str, Any]:
     if any(m in BOLTZMANN_MODELS for m in section["models"]):
         models += " (mid-size filled markers with a black edge: the linearized Boltzmann equation)"
     delta = ds["delta"].values.astype(float)
-    return {"models": models, "wall_list": "; ".join(_plain_wall(lo, up) for lo, up in walls.values()),
-            "span": f"delta = {delta.min():g} to {delta.max():g} ({delta.size} values)"}
+    return {
+        "models": models,
+        "wall_list": "; ".join(_plain_wall(lo, up) for lo, up in walls.values()),
+        "span": f"delta = {delta.min():g} to {delta.max():g} ({delta.size} values)",
+    }
 
 
 def coefficient_captions(ds, section: dict[str, Any]) -> dict[str, str]:
@@ -663,8 +710,9 @@ def coefficient_captions(ds, section: dict[str, Any]) -> dict[str, str]:
             f"{c['temperature']:g} K and a {c['gap']:g} m gap.",
         ]
         if len(section["models"]) > 1:
-            text.append(f"Lower panel: difference of the models in percent of the {model_text(section['models'][0])} "
-                        "value.")
+            text.append(
+                f"Lower panel: difference of the models in percent of the {model_text(section['models'][0])} value."
+            )
         if key == "G_P":
             text.append(
                 "References (thin dark grey, drawn only where they apply): no-slip continuum delta/6 and first-order "
@@ -672,13 +720,15 @@ def coefficient_captions(ds, section: dict[str, Any]) -> dict[str, str]:
                 "walls, BGK, Loyalka, Petrellis & Storvick 1975, times Maxwell's (2 - alpha)/alpha); the "
                 "free-molecular asymptotic form -((2 - alpha)/alpha) ln(delta)/sqrt(pi) + c for delta <= "
                 f"{FREE_MOLECULAR_FIG_MAX_DELTA:g}, with c matched to the computed value at the smallest delta (a "
-                "shape reference, not an independent limit; the (2 - alpha)/alpha factor is approximate, no source).")
+                "shape reference, not an independent limit; the (2 - alpha)/alpha factor is approximate, no source)."
+            )
         elif key == "G_T":
             text.append(
                 "References: first-order thermal slip sigma_T/delta for delta >= "
                 f"{SLIP_MIN_DELTA:g} with sigma_T matched to the computed value at the largest delta (a shape "
                 f"reference; for BGK with diffuse walls sigma_T = {SIGMA_T_DIFFUSE_BGK}, Loyalka, Petrellis & Storvick "
-                "1975), and the free-molecular form with half the slope of G_P, matched at the smallest delta.")
+                "1975), and the free-molecular form with half the slope of G_P, matched at the smallest delta."
+            )
         text.append(relative_error_sentence(ds, key, {"problem": problem}, key))
         text.append(status_sentence(ds, {"problem": problem}))
         out[name] = "\n\n".join(text)
@@ -689,14 +739,18 @@ def correction_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     from knudsweep.report import relative_error_sentence, status_sentence
 
     ctx = _caption_context(ds, section)
-    return {"plane_channel_correction_vs_kn": "\n\n".join([
-        "Flow-rate correction factor G_P / (delta/6): the Poiseuille flow rate relative to no-slip continuum flow, "
-        "against the Knudsen number Kn = sqrt(pi)/(2 delta) (the axis on which correction factors are usually "
-        f"quoted; delta on the top axis). Kinetic models: {ctx['models']} (large open markers BGK, small filled "
-        f"markers S-model). Walls: {ctx['wall_list']}. The dotted line at 1 is the no-slip continuum.",
-        relative_error_sentence(ds, "G_P", {"problem": "poiseuille"}, "G_P"),
-        status_sentence(ds, {"problem": "poiseuille"}),
-    ])}
+    return {
+        "plane_channel_correction_vs_kn": "\n\n".join(
+            [
+                "Flow-rate correction factor G_P / (delta/6): the Poiseuille flow rate relative to no-slip continuum flow, "
+                "against the Knudsen number Kn = sqrt(pi)/(2 delta) (the axis on which correction factors are usually "
+                f"quoted; delta on the top axis). Kinetic models: {ctx['models']} (large open markers BGK, small filled "
+                f"markers S-model). Walls: {ctx['wall_list']}. The dotted line at 1 is the no-slip continuum.",
+                relative_error_sentence(ds, "G_P", {"problem": "poiseuille"}, "G_P"),
+                status_sentence(ds, {"problem": "poiseuille"}),
+            ]
+        )
+    }
 
 
 def convergence_captions(ds, section: dict[str, Any]) -> dict[str, str]:
@@ -707,14 +761,16 @@ def convergence_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     tol = section["resolution"]["tol"]
     out = {}
     for problem in section["problems"]:
-        out[f"plane_channel_convergence_{problem}"] = "\n\n".join([
-            f"Convergence of the iterative solution, {problem_text(problem)}. Top: iterations each point needed "
-            f"to reach the tolerance against delta (colour and marker: wall; open/filled: BGK/S-model). Below, "
-            f"one panel per kinetic model ({ctx['models']}): the relative change of the iterate per iteration for "
-            f"every wall and delta (colour: log10 delta), with the tolerance {tol:g} as a dashed line. Walls: "
-            f"{ctx['wall_list']}. Long histories are sampled at log-spaced iterations in the gathered sweep.",
-            status_sentence(ds, {"problem": problem}),
-        ])
+        out[f"plane_channel_convergence_{problem}"] = "\n\n".join(
+            [
+                f"Convergence of the iterative solution, {problem_text(problem)}. Top: iterations each point needed "
+                f"to reach the tolerance against delta (colour and marker: wall; open/filled: BGK/S-model). Below, "
+                f"one panel per kinetic model ({ctx['models']}): the relative change of the iterate per iteration for "
+                f"every wall and delta (colour: log10 delta), with the tolerance {tol:g} as a dashed line. Walls: "
+                f"{ctx['wall_list']}. Long histories are sampled at log-spaced iterations in the gathered sweep.",
+                status_sentence(ds, {"problem": problem}),
+            ]
+        )
     return out
 
 
@@ -743,8 +799,10 @@ def model_error_captions(ds, section: dict[str, Any]) -> dict[str, str]:
 # ---------------------------------------------------------------- the registry of figures (in drawing order)
 @FIGURES.register(coefficient_figure_names, caption=coefficient_captions)
 def coefficient_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
-    return {f"plane_channel_{MAIN_COEFFICIENT[p]}_vs_delta": _coefficient_figure(ds, section, settings, p)
-            for p in section["problems"]}
+    return {
+        f"plane_channel_{MAIN_COEFFICIENT[p]}_vs_delta": _coefficient_figure(ds, section, settings, p)
+        for p in section["problems"]
+    }
 
 
 @FIGURES.register(correction_figure_names, caption=correction_captions)
@@ -754,8 +812,9 @@ def correction_figures(ds, section: dict[str, Any], settings: dict[str, Any]) ->
 
 @FIGURES.register(convergence_figure_names, caption=convergence_captions)
 def convergence_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
-    return {f"plane_channel_convergence_{p}": _convergence_figure(ds, section, settings, p)
-            for p in section["problems"]}
+    return {
+        f"plane_channel_convergence_{p}": _convergence_figure(ds, section, settings, p) for p in section["problems"]
+    }
 
 
 @FIGURES.register(model_error_figure_names, caption=model_error_captions)

@@ -11,7 +11,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
-from knudsweep.families import Family, Point
+from knudsweep.families import Family
 from knudsweep.families.relaxation import grid, report
 from knudsweep.families.relaxation.grid import (
     BOLTZMANN,
@@ -24,43 +24,43 @@ from knudsweep.families.relaxation.grid import (
     solver_labels,
 )
 
-__all__ = ["BOLTZMANN", "FAMILY", "METHODS", "MODELS", "MODEL_EQUATIONS", "MOLECULAR_MODELS", "STATES",
-           "STATE_DEFAULTS", "Relaxation", "solver_labels"]
+__all__ = [
+    "BOLTZMANN",
+    "FAMILY",
+    "METHODS",
+    "MODELS",
+    "MODEL_EQUATIONS",
+    "MOLECULAR_MODELS",
+    "STATES",
+    "STATE_DEFAULTS",
+    "Relaxation",
+    "solver_labels",
+]
 
 
 class Relaxation(Family):
     name = grid.NAME
+    grid = grid
     report = report
     series_dim = "time"  # gather puts the time series of the points into sweep.nc (knudsweep.gather)
-
-    def check_section(self, section: dict[str, Any]) -> None:
-        grid.check_section(section)
-
-    def points(self, section: dict[str, Any]) -> list[Point]:
-        return grid.points(section)
-
-    def point_cost(self, values: dict[str, Any]) -> float:
-        return grid.point_cost(values)
-
-    def peak_memory_mb(self, section: dict[str, Any]) -> tuple[float, str]:
-        return grid.peak_memory_mb(section)
-
-    def gather_dims(self, section: dict[str, Any]) -> dict[str, list]:
-        return grid.gather_dims(section)
-
-    def dim_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
-        return grid.dim_attrs(section)
 
     def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
         from knudsweep.solver.relaxation import solve_relaxation
 
         kw = dict(
-            method=values["method"], gas=values["gas"], pressure=values["pressure"],
-            temperature=values["temperature"], initial_state=values["initial_state"],
-            molecular_model=values["molecular_model"], t_end=values["t_end"], n_output=values["n_output"],
-            seed=values["seed"], h_bins_per_axis=values["h_bins_per_axis"],
+            method=values["method"],
+            gas=values["gas"],
+            pressure=values["pressure"],
+            temperature=values["temperature"],
+            initial_state=values["initial_state"],
+            molecular_model=values["molecular_model"],
+            t_end=values["t_end"],
+            n_output=values["n_output"],
+            seed=values["seed"],
+            h_bins_per_axis=values["h_bins_per_axis"],
             axis_temperature_ratios=tuple(values["axis_temperature_ratios"]),
-            beam_separation=values["beam_separation"], beam_fraction=values["beam_fraction"],
+            beam_separation=values["beam_separation"],
+            beam_fraction=values["beam_fraction"],
             bkw_start_time=max(values["bkw_start_time"], 6.0 * math.log(2.5)),
         )
         if values["method"] == "dsmc":
@@ -73,11 +73,26 @@ class Relaxation(Family):
         from knudsweep.solver.relaxation import solve_relaxation
 
         for model in ("maxwell", "vss"):
-            solve_relaxation(method="dsmc", initial_state="two_beams", molecular_model=model, n_particles=200,
-                             n_replicas=2, t_end=0.2, n_output=2, h_bins_per_axis=2)
+            solve_relaxation(
+                method="dsmc",
+                initial_state="two_beams",
+                molecular_model=model,
+                n_particles=200,
+                n_replicas=2,
+                t_end=0.2,
+                n_output=2,
+                h_bins_per_axis=2,
+            )
         for method in MODEL_EQUATIONS:
-            solve_relaxation(method=method, initial_state="two_beams", beam_fraction=0.3, n_velocity=8,
-                             velocity_half_width=7.0, t_end=0.02, n_output=2)
+            solve_relaxation(
+                method=method,
+                initial_state="two_beams",
+                beam_fraction=0.3,
+                n_velocity=8,
+                velocity_half_width=7.0,
+                t_end=0.02,
+                n_output=2,
+            )
 
 
 FAMILY = Relaxation()

@@ -45,10 +45,13 @@ STATES = ("equilibrium", "anisotropic", "two_beams", "bkw")
 MOLECULAR_MODELS = ("vhs", "vss", "hard_sphere", "maxwell")
 MODELS = MOLECULAR_MODELS
 FIT_NAMES = ("anisotropy", "heat_flux", "fourth_moment")  # knudsweep.solver.relaxation.solve.FIT_NAMES
-STATE_DEFAULTS = {"axis_temperature_ratios": [1.8, 0.6, 0.6], "beam_separation": 3.0,
-                  "beam_fraction": 0.5, "bkw_start_time": 6.0 * math.log(2.5)}
-RUN_DEFAULTS = {"n_replicas": 8, "t_end": 10.0, "n_output": 41, "seed": 1, "h_bins_per_axis": 8,
-                "n_velocity": 32}
+STATE_DEFAULTS = {
+    "axis_temperature_ratios": [1.8, 0.6, 0.6],
+    "beam_separation": 3.0,
+    "beam_fraction": 0.5,
+    "bkw_start_time": 6.0 * math.log(2.5),
+}
+RUN_DEFAULTS = {"n_replicas": 8, "t_end": 10.0, "n_output": 41, "seed": 1, "h_bins_per_axis": 8, "n_velocity": 32}
 
 
 def options(section: dict[str, Any]) -> tuple[dict[str, Any], dict[str, Any]]:
@@ -88,8 +91,10 @@ def parse_solver(label: str) -> tuple[str, int | None]:
 
 
 def run_label(run: dict[str, Any]) -> str:
-    return (f"t{format_exp(run['t_end'])}-o{int(run['n_output'])}-k{int(run['h_bins_per_axis'])}"
-            f"-R{int(run['n_replicas'])}-s{int(run['seed'])}")
+    return (
+        f"t{format_exp(run['t_end'])}-o{int(run['n_output'])}-k{int(run['h_bins_per_axis'])}"
+        f"-R{int(run['n_replicas'])}-s{int(run['seed'])}"
+    )
 
 
 def check_section(section: dict[str, Any]) -> None:
@@ -101,14 +106,20 @@ def check_section(section: dict[str, Any]) -> None:
             if v not in allowed:
                 raise ValueError(f"{key}: {v!r} not allowed; allowed are {', '.join(allowed)}")
     for name in section["initial_states"]:
-        make_initial_state(name, tuple(state["axis_temperature_ratios"]), state["beam_separation"],
-                           state["beam_fraction"], state["bkw_start_time"])
+        make_initial_state(
+            name,
+            tuple(state["axis_temperature_ratios"]),
+            state["beam_separation"],
+            state["beam_fraction"],
+            state["bkw_start_time"],
+        )
     if "dsmc" in section["methods"]:
         k3 = int(run["h_bins_per_axis"]) ** 3
         for n in section["n_particles"]:
             if int(n) < 5 * k3:
-                raise ValueError(f"n_particles: {n} is below 5 per H cell ({5 * k3} for "
-                                 f"h_bins_per_axis={run['h_bins_per_axis']})")
+                raise ValueError(
+                    f"n_particles: {n} is below 5 per H cell ({5 * k3} for h_bins_per_axis={run['h_bins_per_axis']})"
+                )
     for key in ("pressures", "temperatures"):
         vals = [canonical(v) for v in section[key]]
         if len(set(vals)) != len(vals):
@@ -127,29 +138,48 @@ def points(section: dict[str, Any]) -> list[Point]:
                     for p in section["pressures"]:
                         for t in section["temperatures"]:
                             p, t = canonical(p), canonical(t)
-                            pid = point_id(NAME, [
-                                segment("", slabel), segment("gas", gas), segment("model", model),
-                                segment("solver", solver), segment("run", run_label(run)),
-                                segment("p", format_exp(p)), segment("T", format_plain(t)),
-                            ])
+                            pid = point_id(
+                                NAME,
+                                [
+                                    segment("", slabel),
+                                    segment("gas", gas),
+                                    segment("model", model),
+                                    segment("solver", solver),
+                                    segment("run", run_label(run)),
+                                    segment("p", format_exp(p)),
+                                    segment("T", format_plain(t)),
+                                ],
+                            )
                             values = {
-                                "method": method, "gas": gas, "pressure": p, "temperature": t,
+                                "method": method,
+                                "gas": gas,
+                                "pressure": p,
+                                "temperature": t,
                                 # the gas table's numbers: an edit of config/gases.yaml changes
                                 # the point's values, so its file no longer counts as done
                                 "gas_data": gas_record(gas),
-                                "initial_state": st, "molecular_model": model,
+                                "initial_state": st,
+                                "molecular_model": model,
                                 "n_particles": res if method == "dsmc" else None,
                                 "n_velocity": res if method != "dsmc" else None,
-                                "n_replicas": int(run["n_replicas"]), "t_end": canonical(run["t_end"]),
-                                "n_output": int(run["n_output"]), "seed": int(run["seed"]),
+                                "n_replicas": int(run["n_replicas"]),
+                                "t_end": canonical(run["t_end"]),
+                                "n_output": int(run["n_output"]),
+                                "seed": int(run["seed"]),
                                 "h_bins_per_axis": int(run["h_bins_per_axis"]),
                                 "axis_temperature_ratios": [canonical(x) for x in state["axis_temperature_ratios"]],
                                 "beam_separation": canonical(state["beam_separation"]),
                                 "beam_fraction": canonical(state["beam_fraction"]),
                                 "bkw_start_time": canonical(state["bkw_start_time"]),
                             }
-                            index = {"gas": gas, "pressure": p, "temperature": t, "initial_state": st,
-                                     "molecular_model": model, "solver": solver}
+                            index = {
+                                "gas": gas,
+                                "pressure": p,
+                                "temperature": t,
+                                "initial_state": st,
+                                "molecular_model": model,
+                                "solver": solver,
+                            }
                             out.append(Point(NAME, pid, values, index))
     return out
 
@@ -207,16 +237,16 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
             "attrs": {"long_name": "method and resolution"},
             "extra": {
                 "method": ([m for m, _ in parsed], {"long_name": "dsmc, bgk, s_model, es_bgk or fast_spectral"}),
-                "n_particles": ([float(r) if m == "dsmc" else float("nan") for m, r in parsed],
-                                {"units": "1", "long_name": "particles per replica (particle method)"}),
+                "n_particles": (
+                    [float(r) if m == "dsmc" else float("nan") for m, r in parsed],
+                    {"units": "1", "long_name": "particles per replica (particle method)"},
+                ),
             },
         },
     }
 
 
 @functools.lru_cache(maxsize=64)
-
-
 def fast_spectral_size(model: str, gas: str, n: int) -> tuple[int, int, float]:
     from knudsweep.solver.gas import get_gas
     from knudsweep.solver.relaxation.cross_sections import molecular_model

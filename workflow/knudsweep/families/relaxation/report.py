@@ -24,6 +24,7 @@ them there, see ``series_dim``); a sweep without them gives "no data" panels.
 
 from __future__ import annotations
 
+import json
 import math
 from typing import Any
 
@@ -52,16 +53,29 @@ def relaxation_times_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                 for st in dims["initial_state"]:
                     for model in dims["molecular_model"]:
                         for solver in dims["solver"]:
-                            sel = ds.sel(gas=gas, pressure=p, temperature=t, initial_state=st,
-                                         molecular_model=model, solver=solver)
+                            sel = ds.sel(
+                                gas=gas,
+                                pressure=p,
+                                temperature=t,
+                                initial_state=st,
+                                molecular_model=model,
+                                solver=solver,
+                            )
 
                             def val(name):
                                 return float(sel[name].values) if name in sel else float("nan")
 
-                            row = {"gas": gas, "pressure [Pa]": p, "temperature [K]": t,
-                                   "initial state": st, "molecular model": model, "solver": solver,
-                                   "method": parse_solver(solver)[0],
-                                   "mean collision time [s]": val("mean_collision_time_s")}
+                            row = {
+                                "gas": gas,
+                                "pressure [Pa]": p,
+                                "temperature [K]": t,
+                                "initial state": st,
+                                "molecular model": model,
+                                "solver": solver,
+                                "method": parse_solver(solver)[0],
+                                "mean collision time [s]": val("mean_collision_time_s"),
+                            }
+                            fits = _fit_record(sel)
                             for f in FIT_NAMES:
                                 lab = f.replace("_", " ")
                                 row[f"{lab} time kind"] = fit_kind(f, st)
@@ -69,12 +83,17 @@ def relaxation_times_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                                 row[f"{lab} time uncertainty [tau_c]"] = val(f"{f}_relaxation_time_uncertainty")
                                 row[f"{lab} time [s]"] = val(f"{f}_relaxation_time_s")
                                 row[f"{lab} time uncertainty [s]"] = val(f"{f}_relaxation_time_s_uncertainty")
+                                # why a time of a converged point is blank, in the fit's own words
+                                note = fits.get(f"{f}_fit", {}).get("note", "") if isinstance(fits, dict) else ""
+                                blank = math.isnan(row[f"{lab} time [tau_c]"])
+                                row[f"{lab} time note"] = note if (blank and note) else ""
                                 if f == "fourth_moment":
                                     continue
                                 for part in ("initial", "late"):
                                     row[f"{lab} {part} time [tau_c]"] = val(f"{f}_{part}_relaxation_time")
                                     row[f"{lab} {part} time uncertainty [tau_c]"] = val(
-                                        f"{f}_{part}_relaxation_time_uncertainty")
+                                        f"{f}_{part}_relaxation_time_uncertainty"
+                                    )
                             row["status"] = str(sel["status"].values) if "status" in sel else "missing"
                             rows.append(row)
     if BOLTZMANN in section["methods"]:
@@ -93,8 +112,9 @@ def relaxation_times_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
         "molecules and ES-BGK); otherwise one exponential.",
         "Uncertainties: standard uncertainty = statistical (jackknife over replicas; noise-free model "
         "equations: slope standard error) combined with the fit-window dependence (change of the estimate "
-        "when the window is shortened, beyond the noise of that change).  Empty: no such initial "
-        "non-equilibrium, not resolved above the noise, or the point failed.",
+        "when the window is shortened, beyond the noise of that change).  An empty time: the reason is in "
+        "'<signal> time note' (no such initial non-equilibrium, or the signal fell into the noise before "
+        "enough output times), or the point's status is not converged.",
         "Exact for Maxwell molecules (Truesdell & Muncaster 1980; solver/relaxation/moments.py): anisotropy "
         "time 2 tau_c (= mu/p), fourth-moment and heat-flux time 3 tau_c (= 1.5 mu/p).",
     ]
@@ -105,9 +125,20 @@ def relaxation_times_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
             "(finest velocity grid of the study) for the same gas, molecular model, start, p and T; the "
             "model equations relax at the molecular model's p/mu, so this is the error of the model "
             "equation itself.  fast spectral rows are the deterministic Boltzmann result; DSMC rows solve "
-            "the same equation by particles.")
+            "the same equation by particles."
+        )
 
     return {"relaxation_times": Table(pd.DataFrame(rows), "Relaxation times", notes)}
+
+
+def _fit_record(sel) -> dict:
+    """The point's fit notes: its discretization record (JSON text in sweep.nc), or {} if absent."""
+    if "discretization" not in sel:
+        return {}
+    try:
+        return json.loads(str(sel["discretization"].values))
+    except ValueError:
+        return {}
 
 
 def _time_columns() -> list[tuple[str, str]]:
@@ -144,7 +175,7 @@ def _model_errors(rows: list[dict[str, Any]]) -> None:
 
 # ---------------------------------------------------------------- figures (from sweep.nc only)
 NOISE_SE = 2.0  # a particle curve ends where its mean falls below 2 standard errors (noise)
-BAND_SE = 2.0   # half-width of the DSMC band about the Boltzmann curve, in standard errors of the mean
+BAND_SE = 2.0  # half-width of the DSMC band about the Boltzmann curve, in standard errors of the mean
 # Boltzmann (fast spectral) curve: dash-dot, no markers (colour = molecular model as for every method)
 BOLTZMANN_LINE = {"ls": (0, (6, 1.5, 1.2, 1.5)), "lw": 1.6}
 
@@ -160,8 +191,9 @@ def _curves(ds, section, state: str) -> list[dict]:
     for gas in ds["gas"].values:
         for m, model in enumerate(ds["molecular_model"].values):
             for solver in ds["solver"].values:
-                sel = ds.sel(gas=gas, pressure=p0, temperature=t0, initial_state=state,
-                             molecular_model=model, solver=solver)
+                sel = ds.sel(
+                    gas=gas, pressure=p0, temperature=t0, initial_state=state, molecular_model=model, solver=solver
+                )
                 if str(sel["status"].values) != "converged":
                     continue
                 method, _ = parse_solver(str(solver))
@@ -169,12 +201,25 @@ def _curves(ds, section, state: str) -> list[dict]:
                 def get(name):
                     return np.asarray(sel[name].values, float) if name in sel else np.full(t.shape, np.nan)
 
-                tau = float(sel["anisotropy_relaxation_time"].values) if "anisotropy_relaxation_time" in sel \
+                tau = (
+                    float(sel["anisotropy_relaxation_time"].values)
+                    if "anisotropy_relaxation_time" in sel
                     else float("nan")
-                out.append({"gas": str(gas), "model": str(model), "m": m, "method": method, "time": t,
-                            "h": get("h_function"), "h_se": get("h_function_std") / math.sqrt(n_rep),
-                            "aniso": get("anisotropy"), "aniso_se": get("anisotropy_std") / math.sqrt(n_rep),
-                            "tau": tau})
+                )
+                out.append(
+                    {
+                        "gas": str(gas),
+                        "model": str(model),
+                        "m": m,
+                        "method": method,
+                        "time": t,
+                        "h": get("h_function"),
+                        "h_se": get("h_function_std") / math.sqrt(n_rep),
+                        "aniso": get("anisotropy"),
+                        "aniso_se": get("anisotropy_std") / math.sqrt(n_rep),
+                        "tau": tau,
+                    }
+                )
     return out
 
 
@@ -194,12 +239,26 @@ def _draw_curve(ax, c, y, se, about=None):
         n = _until_noise(y, se)
         if n and about is not None:
             ref = about[:n]
-            ax.fill_between(c["time"][:n], np.maximum(ref - BAND_SE * se[:n], ref * 1e-3), ref + BAND_SE * se[:n],
-                            color=col, alpha=0.22, lw=0, zorder=2)
+            ax.fill_between(
+                c["time"][:n],
+                np.maximum(ref - BAND_SE * se[:n], ref * 1e-3),
+                ref + BAND_SE * se[:n],
+                color=col,
+                alpha=0.22,
+                lw=0,
+                zorder=2,
+            )
             ax.plot(c["time"][:n], y[:n], color=col, lw=1.1, zorder=3)
         elif n:
-            ax.fill_between(c["time"][:n], np.maximum(y[:n] - se[:n], y[:n] * 1e-3), y[:n] + se[:n],
-                            color=col, alpha=0.22, lw=0, zorder=2)
+            ax.fill_between(
+                c["time"][:n],
+                np.maximum(y[:n] - se[:n], y[:n] * 1e-3),
+                y[:n] + se[:n],
+                color=col,
+                alpha=0.22,
+                lw=0,
+                zorder=2,
+            )
             ax.plot(c["time"][:n], y[:n], color=col, lw=1.3, zorder=3)
         return
     ok = np.isfinite(y) & (y > 0)
@@ -208,8 +267,16 @@ def _draw_curve(ax, c, y, se, about=None):
         return
     every = max(len(y) // 6, 1)
     start = 0 if c["method"] == "bgk" else every // 2  # markers of the models side by side, not on top
-    ax.plot(c["time"][ok], y[ok], color=col, marker=ps.marker(c["m"]), markevery=(start, every),
-            **ps.model_line(c["method"]), **ps.model_marker(c["method"]), zorder=3)
+    ax.plot(
+        c["time"][ok],
+        y[ok],
+        color=col,
+        marker=ps.marker(c["m"]),
+        markevery=(start, every),
+        **ps.model_line(c["method"]),
+        **ps.model_marker(c["method"]),
+        zorder=3,
+    )
 
 
 def _boltzmann(curves: list[dict], c: dict, key: str) -> np.ndarray | None:
@@ -242,8 +309,9 @@ def _legend(fig, ax, section, with_fit: bool):
             handles.append(ax.plot([], [], color="0.35", **BOLTZMANN_LINE)[0])
             labels.append("Boltzmann (fast spectral)")
         else:
-            handles.append(ax.plot([], [], color="0.35", marker="o", **ps.model_line(method),
-                                   **ps.model_marker(method))[0])
+            handles.append(
+                ax.plot([], [], color="0.35", marker="o", **ps.model_line(method), **ps.model_marker(method))[0]
+            )
             labels.append(ps.model_text(method))
     if with_fit:
         handles.append(ax.plot([], [], **ps.reference("fit"))[0])
@@ -288,11 +356,18 @@ def _relaxation_figures(ds, section, settings, names) -> dict[str, Any]:
                 _draw_curve(ax, c, a, c["aniso_se"], None if ref is None else np.abs(ref))
                 if np.isfinite(c["tau"]) and c["tau"] > 0:
                     ax.plot(c["time"], abs(c["aniso"][0]) * np.exp(-c["time"] / c["tau"]), **ps.reference("fit"))
-                    taus.append(f"{ps.molecular_text(c['model'])}, {ps.model_text(c['method'])}: "
-                                f"{ps.number(c['tau'])}")
+                    taus.append(f"{ps.molecular_text(c['model'])}, {ps.model_text(c['method'])}: {ps.number(c['tau'])}")
             if taus:
-                ax.text(0.98, 0.98, "$\\tau/\\tau_c$\n" + "\n".join(taus), transform=ax.transAxes, ha="right",
-                        va="top", fontsize="x-small", bbox={"fc": "white", "ec": "0.8", "alpha": 0.9})
+                ax.text(
+                    0.98,
+                    0.98,
+                    "$\\tau/\\tau_c$\n" + "\n".join(taus),
+                    transform=ax.transAxes,
+                    ha="right",
+                    va="top",
+                    fontsize="x-small",
+                    bbox={"fc": "white", "ec": "0.8", "alpha": 0.9},
+                )
             ax.set_yscale("log")
             ax.set_ylim(1e-3 * a0, 1.5 * a0)
             ax.set_xlabel(r"time $t/\tau_c$ (mean collision times)")
@@ -303,6 +378,7 @@ def _relaxation_figures(ds, section, settings, names) -> dict[str, Any]:
         _legend(fig, axes[gases[0]], section, with_fit=True)
         figs[f"relaxation_anisotropy_{st}"] = fig
     return figs
+
 
 def figure_names(section: dict[str, Any]) -> list[str]:
     """``relaxation_h_<state>`` per initial state, ``relaxation_anisotropy_<state>`` where the start is anisotropic."""
@@ -321,32 +397,46 @@ def figure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     _, run = options(section)
     methods = ", ".join(model_text(m) for m in section["methods"])
     models = ", ".join(molecular_text(m) for m in section["molecular_models"])
-    where = (f"at {section['pressures'][0]:g} Pa and {section['temperatures'][0]:g} K (reduced time does not "
-             f"depend on p and T); gases {', '.join(section['gases'])}, one panel each")
+    where = (
+        f"at {section['pressures'][0]:g} Pa and {section['temperatures'][0]:g} K (reduced time does not "
+        f"depend on p and T); gases {', '.join(section['gases'])}, one panel each"
+    )
     if BOLTZMANN in section["methods"] and "dsmc" in section["methods"]:
-        band = (f"with a band of {BAND_SE:g} standard errors of the mean drawn about the fast spectral "
-                "(deterministic Boltzmann) curve of the same gas and molecular model, so DSMC agrees with it "
-                "where its mean stays inside the band")
+        band = (
+            f"with a band of {BAND_SE:g} standard errors of the mean drawn about the fast spectral "
+            "(deterministic Boltzmann) curve of the same gas and molecular model, so DSMC agrees with it "
+            "where its mean stays inside the band"
+        )
     else:
         band = "with a band of one standard error of the mean"
-    unc = (f"Uncertainty: DSMC curves are means over {int(run['n_replicas'])} replicas of "
-           f"{', '.join(str(int(n)) for n in section.get('n_particles', []))} particles {band}; each ends "
-           "where it falls below 2 standard errors (noise). The model equations and the fast spectral "
-           "solution are deterministic (velocity-grid error not estimated here). No model error included.")
+    unc = (
+        f"Uncertainty: DSMC curves are means over {int(run['n_replicas'])} replicas of "
+        f"{', '.join(str(int(n)) for n in section.get('n_particles', []))} particles {band}; each ends "
+        "where it falls below 2 standard errors (noise). The model equations and the fast spectral "
+        "solution are deterministic (velocity-grid error not estimated here). No model error included."
+    )
     out = {}
     for st in section["initial_states"]:
-        out[f"relaxation_h_{st}"] = "\n\n".join([
-            f"Relative H-function of a homogeneous gas relaxing from the {state_text(st)} state, on a log axis "
-            f"against time in mean collision times, {where}. Methods: {methods} (DSMC solid with band; BGK thick "
-            f"translucent line with large open markers; S-model dashed with small filled markers; fast "
-            f"spectral Boltzmann solution dash-dot without markers). Molecular "
-            f"models (colour and marker): {models}. H is binned on equiprobable cells of the equilibrium and "
-            "corrected for the particle sampling bias.", unc])
-        out[f"relaxation_anisotropy_{st}"] = "\n\n".join([
-            f"Magnitude of the temperature-tensor anisotropy from the {state_text(st)} state against time, "
-            f"{where}. Methods: {methods}; molecular models: {models} (styles as in the H-function figure). "
-            "Dotted black: exp(-t/tau) from the initial value with tau the anisotropy time of the table (time to "
-            "fall by e); the box lists tau in mean collision times (exact for Maxwell molecules: 2).", unc])
+        out[f"relaxation_h_{st}"] = "\n\n".join(
+            [
+                f"Relative H-function of a homogeneous gas relaxing from the {state_text(st)} state, on a log axis "
+                f"against time in mean collision times, {where}. Methods: {methods} (DSMC solid with band; BGK thick "
+                f"translucent line with large open markers; S-model dashed with small filled markers; fast "
+                f"spectral Boltzmann solution dash-dot without markers). Molecular "
+                f"models (colour and marker): {models}. H is binned on equiprobable cells of the equilibrium and "
+                "corrected for the particle sampling bias.",
+                unc,
+            ]
+        )
+        out[f"relaxation_anisotropy_{st}"] = "\n\n".join(
+            [
+                f"Magnitude of the temperature-tensor anisotropy from the {state_text(st)} state against time, "
+                f"{where}. Methods: {methods}; molecular models: {models} (styles as in the H-function figure). "
+                "Dotted black: exp(-t/tau) from the initial value with tau the anisotropy time of the table (time to "
+                "fall by e); the box lists tau in mean collision times (exact for Maxwell molecules: 2).",
+                unc,
+            ]
+        )
     return out
 
 

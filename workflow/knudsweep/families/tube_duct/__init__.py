@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from knudsweep.families import Family, Point, make_wall_object
+from knudsweep.families import Family, make_wall_object
 from knudsweep.families.tube_duct import grid, report
 from knudsweep.families.tube_duct.grid import (
     MODELS,
@@ -22,39 +22,36 @@ from knudsweep.families.tube_duct.grid import (
     wall_settings,
 )
 
-__all__ = ["FAMILY", "MODELS", "PROBLEMS", "TubeDuct", "delta_values", "geometry_of", "geometry_settings",
-           "wall_label", "wall_settings"]
+__all__ = [
+    "FAMILY",
+    "MODELS",
+    "PROBLEMS",
+    "TubeDuct",
+    "delta_values",
+    "geometry_of",
+    "geometry_settings",
+    "wall_label",
+    "wall_settings",
+]
 
 
 class TubeDuct(Family):
     name = grid.NAME
+    grid = grid
     report = report
-
-    def check_section(self, section: dict[str, Any]) -> None:
-        grid.check_section(section)
-
-    def points(self, section: dict[str, Any]) -> list[Point]:
-        return grid.points(section)
-
-    def point_cost(self, values: dict[str, Any]) -> float:
-        return grid.point_cost(values)
-
-    def peak_memory_mb(self, section: dict[str, Any]) -> tuple[float, str]:
-        return grid.peak_memory_mb(section)
-
-    def gather_dims(self, section: dict[str, Any]) -> dict[str, list]:
-        return grid.gather_dims(section)
-
-    def dim_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
-        return grid.dim_attrs(section)
 
     def coefficient_attrs(self, section: dict[str, Any]) -> dict[str, dict]:
         return grid.coefficient_attrs(section)
 
     def solve(self, values: dict[str, Any], *, max_iter: int | None, section: dict[str, Any]):
         kw = dict(
-            delta=values["delta"], model=values["model"], wall=make_wall_object(values["wall_params"]),
-            n_space=values["n_space"], n_velocity=values["n_velocity"], max_iter=max_iter, tol=values["tol"],
+            delta=values["delta"],
+            model=values["model"],
+            wall=make_wall_object(values["wall_params"]),
+            n_space=values["n_space"],
+            n_velocity=values["n_velocity"],
+            max_iter=max_iter,
+            tol=values["tol"],
             accuracy=values.get("accuracy"),
             accelerate=bool(section.get("iteration", {}).get("accelerate", True)),
         )
@@ -74,8 +71,9 @@ class TubeDuct(Family):
         for wall in (MaxwellWall(0.9), CercignaniLampisWall(0.8, 0.5)):
             for problem in PROBLEMS:
                 solve_tube(problem, delta=1.0, wall=wall, n_space=6, n_velocity=4, max_iter=3, tol=1e-3)
-                solve_duct(problem, delta=1.0, aspect_ratio=1.5, wall=wall, n_space=6, n_velocity=4, max_iter=3,
-                           tol=1e-3)
+                solve_duct(
+                    problem, delta=1.0, aspect_ratio=1.5, wall=wall, n_space=6, n_velocity=4, max_iter=3, tol=1e-3
+                )
 
 
 FAMILY = TubeDuct()

@@ -91,8 +91,10 @@ def check_section(section: dict[str, Any]) -> None:
     reject_repeats("walls", [label for label, _ in wall_settings(section)])
     res = section.get("resolution", {})
     if res.get("accuracy") is not None and (res.get("n_space") is not None or res.get("n_velocity") is not None):
-        raise ValueError("resolution.accuracy: give either an accuracy target or n_space/n_velocity, not both "
-                         "(set n_space and n_velocity to null)")
+        raise ValueError(
+            "resolution.accuracy: give either an accuracy target or n_space/n_velocity, not both "
+            "(set n_space and n_velocity to null)"
+        )
     deltas = delta_values(section)
     if len(set(deltas)) != len(deltas):
         raise ValueError(f"{axis}: values repeat after rounding to 6 significant digits")
@@ -112,8 +114,14 @@ def check_section(section: dict[str, Any]) -> None:
             raise ValueError("conditions.thermal.t_hot: must be > t_cold")
 
 
-def point_values(geometry: tuple[str, str, float], problem: str, model: str, delta: float, wall: dict[str, Any],
-                 resolution: dict[str, Any]) -> dict[str, Any]:
+def point_values(
+    geometry: tuple[str, str, float],
+    problem: str,
+    model: str,
+    delta: float,
+    wall: dict[str, Any],
+    resolution: dict[str, Any],
+) -> dict[str, Any]:
     """Canonical values of one point (a study's grid and ``knudsweep solve`` both build them here).
 
     ``geometry``: ``(label, shape, aspect_ratio)`` as :func:`geometry_of` gives it; ``wall``: canonical wall law
@@ -121,10 +129,16 @@ def point_values(geometry: tuple[str, str, float], problem: str, model: str, del
     """
     label, shape, aspect = geometry
     return {
-        "geometry": label, "shape": shape, "aspect_ratio": aspect,
-        "problem": problem, "model": model, "delta": canonical(delta),
-        "wall": wall_label(wall), "wall_params": wall,
-        "n_space": resolution.get("n_space"), "n_velocity": resolution.get("n_velocity"),
+        "geometry": label,
+        "shape": shape,
+        "aspect_ratio": aspect,
+        "problem": problem,
+        "model": model,
+        "delta": canonical(delta),
+        "wall": wall_label(wall),
+        "wall_params": wall,
+        "n_space": resolution.get("n_space"),
+        "n_velocity": resolution.get("n_velocity"),
         "tol": canonical(resolution["tol"]),
         "accuracy": None if resolution.get("accuracy") is None else canonical(resolution["accuracy"]),
     }
@@ -139,10 +153,17 @@ def points(section: dict[str, Any]) -> list[Point]:
             for model in section["models"]:
                 for wlabel, w in wall_settings(section):
                     for delta in delta_values(section):
-                        pid = point_id(NAME, [
-                            segment("", glabel), segment("", problem), segment("model", model),
-                            segment("wall", wlabel), segment("grid", grid), segment("delta", format_exp(delta)),
-                        ])
+                        pid = point_id(
+                            NAME,
+                            [
+                                segment("", glabel),
+                                segment("", problem),
+                                segment("model", model),
+                                segment("wall", wlabel),
+                                segment("grid", grid),
+                                segment("delta", format_exp(delta)),
+                            ],
+                        )
                         values = point_values((glabel, shape, aspect), problem, model, delta, w, res)
                         index = {"geometry": glabel, "problem": problem, "model": model, "wall": wlabel, "delta": delta}
                         out.append(Point(NAME, pid, values, index))
@@ -161,8 +182,10 @@ def peak_memory_mb(section: dict[str, Any]) -> tuple[float, str]:
         for d in delta_values(section):
             mb = duct_memory_mb(d, a, res.get("n_space"), res.get("n_velocity"), res.get("accuracy"))
             if mb > best[0]:
-                best = (mb, f"{label}, delta = {d:g}, n_space = {res.get('n_space')}, "
-                            f"n_velocity = {res.get('n_velocity')}")
+                best = (
+                    mb,
+                    f"{label}, delta = {d:g}, n_space = {res.get('n_space')}, n_velocity = {res.get('n_velocity')}",
+                )
     return best
 
 
@@ -204,7 +227,10 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
             "attrs": {"long_name": "channel cross-section"},
             "extra": {
                 "shape": ([s for _, s, _ in geos], {"long_name": "tube or rectangular duct"}),
-                "aspect_ratio": ([a for _, _, a in geos], {"units": "1", "long_name": "duct width / height (1 for the tube)"}),
+                "aspect_ratio": (
+                    [a for _, _, a in geos],
+                    {"units": "1", "long_name": "duct width / height (1 for the tube)"},
+                ),
             },
         },
         "problem": {"attrs": {"long_name": "driving problem"}},
@@ -213,14 +239,31 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
             "attrs": {"long_name": "gas-surface interaction setting"},
             "extra": {
                 "wall_model": ([w["model"] for _, w in walls], {"long_name": "wall model"}),
-                "alpha": ([acc(w, "alpha") for _, w in walls], {"units": "1", "long_name": "Maxwell accommodation coefficient"}),
-                "alpha_t": ([acc(w, "alpha_t") for _, w in walls], {"units": "1", "long_name": "Cercignani-Lampis tangential-momentum accommodation"}),
-                "alpha_n": ([acc(w, "alpha_n") for _, w in walls], {"units": "1", "long_name": "Cercignani-Lampis normal-energy accommodation"}),
+                "alpha": (
+                    [acc(w, "alpha") for _, w in walls],
+                    {"units": "1", "long_name": "Maxwell accommodation coefficient"},
+                ),
+                "alpha_t": (
+                    [acc(w, "alpha_t") for _, w in walls],
+                    {"units": "1", "long_name": "Cercignani-Lampis tangential-momentum accommodation"},
+                ),
+                "alpha_n": (
+                    [acc(w, "alpha_n") for _, w in walls],
+                    {"units": "1", "long_name": "Cercignani-Lampis normal-energy accommodation"},
+                ),
             },
         },
         "delta": {
-            "attrs": {"units": "1", "long_name": "rarefaction parameter delta = p a / (mu v0), a = tube radius or duct height"},
-            "extra": {"kn": ([canonical(SQRT_PI / (2.0 * d)) for d in deltas], {"units": "1", "long_name": "Knudsen number sqrt(pi) / (2 delta)"})},
+            "attrs": {
+                "units": "1",
+                "long_name": "rarefaction parameter delta = p a / (mu v0), a = tube radius or duct height",
+            },
+            "extra": {
+                "kn": (
+                    [canonical(SQRT_PI / (2.0 * d)) for d in deltas],
+                    {"units": "1", "long_name": "Knudsen number sqrt(pi) / (2 delta)"},
+                )
+            },
         },
     }
 
@@ -230,11 +273,16 @@ def coefficient_attrs(section: dict[str, Any]) -> dict[str, dict]:
     geometry with its own normalisation (knudsweep.solver.tube, knudsweep.solver.duct), so both are named."""
     out = {}
     for name, what, drive, tube, duct in (
-            ("G_P", "mass", "pressure gradient X_P", "4 int u r dr", "(2/A) int int u dy dz"),
-            ("Q_P", "heat", "pressure gradient X_P", "-4 int q r dr", "-(2/A) int int q dy dz"),
-            ("G_T", "mass", "temperature gradient X_T", "4 int u r dr", "(2/A) int int u dy dz"),
-            ("Q_T", "heat", "temperature gradient X_T", "-4 int q r dr", "-(2/A) int int q dy dz")):
-        out[name] = {"units": "1", "long_name": (
-            f"reduced {what} flow rate per unit {drive}; tube: {tube} (r in units of the radius); "
-            f"duct: per unit width, {duct} (y, z in units of the height, A = width / height)")}
+        ("G_P", "mass", "pressure gradient X_P", "4 int u r dr", "(2/A) int int u dy dz"),
+        ("Q_P", "heat", "pressure gradient X_P", "-4 int q r dr", "-(2/A) int int q dy dz"),
+        ("G_T", "mass", "temperature gradient X_T", "4 int u r dr", "(2/A) int int u dy dz"),
+        ("Q_T", "heat", "temperature gradient X_T", "-4 int q r dr", "-(2/A) int int q dy dz"),
+    ):
+        out[name] = {
+            "units": "1",
+            "long_name": (
+                f"reduced {what} flow rate per unit {drive}; tube: {tube} (r in units of the radius); "
+                f"duct: per unit width, {duct} (y, z in units of the height, A = width / height)"
+            ),
+        }
     return out

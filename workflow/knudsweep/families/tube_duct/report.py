@@ -107,7 +107,6 @@ def flow_table(ds, geometry: str, shape: str, aspect: float, model: str, wall: s
     return FlowRateTable(shape, d[ok], gp[ok], gt[ok], float(gp[ok][0]), 0.5 * float(gp[ok][0]), slope, aspect)
 
 
-
 # ---------------------------------------------------------------- physical units
 def size_of(section, shape: str, aspect: float) -> tuple[float, float, dict]:
     """(cross-section area S [m^2], length scale a [m], keyword for knudsweep.solver.conductance)."""
@@ -160,27 +159,38 @@ def conductance_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                 sel = dict(geometry=glabel, problem="poiseuille", model=model, wall=wlabel)
                 status = ds["status"].sel(**sel).values
                 gp = ds["G_P"].sel(**sel).values.astype(float) if "G_P" in ds else np.full(delta.shape, np.nan)
-                gp_err = (ds["G_P_error_estimate"].sel(**sel).values.astype(float) if "G_P_error_estimate" in ds else np.full(delta.shape, np.nan))
+                gp_err = (
+                    ds["G_P_error_estimate"].sel(**sel).values.astype(float)
+                    if "G_P_error_estimate" in ds
+                    else np.full(delta.shape, np.nan)
+                )
                 gslip = slip_gp(shape, aspect, delta, slip_sigma(w))
                 for gas in section["gases"]:
                     v0 = most_probable_speed(gas, t)
                     factor = s_area * a * v0 / (2.0 * length)  # C = S a v0 G_P / (2 L)  [m^3/s]
                     for j, d in enumerate(delta):
                         cond = factor * gp[j]
-                        rows.append({
-                            "geometry": glabel, "model": model, "wall": wlabel, "gas": gas,
-                            "delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d), "status": status[j],
-                            "pressure [Pa]": pressure_from_delta(gas, d, t, a),
-                            "G_P [1]": gp[j],
-                            "G_P error estimate [1]": gp_err[j],
-                            "conductance [m^3 s^-1]": cond,
-                            "conductance [L s^-1]": 1e3 * cond,
-                            "free-molecular conductance, diffuse [m^3 s^-1]": factor * g_fm,
-                            "continuum conductance, no slip [m^3 s^-1]": factor * g_cont[j],
-                            "C / C_free-molecular [1]": gp[j] / g_fm,
-                            "C / C_continuum [1]": gp[j] / g_cont[j],
-                            "C / C_slip [1]": gp[j] / gslip[j],
-                        })
+                        rows.append(
+                            {
+                                "geometry": glabel,
+                                "model": model,
+                                "wall": wlabel,
+                                "gas": gas,
+                                "delta [1]": d,
+                                "Kn [1]": SQRT_PI / (2.0 * d),
+                                "status": status[j],
+                                "pressure [Pa]": pressure_from_delta(gas, d, t, a),
+                                "G_P [1]": gp[j],
+                                "G_P error estimate [1]": gp_err[j],
+                                "conductance [m^3 s^-1]": cond,
+                                "conductance [L s^-1]": 1e3 * cond,
+                                "free-molecular conductance, diffuse [m^3 s^-1]": factor * g_fm,
+                                "continuum conductance, no slip [m^3 s^-1]": factor * g_cont[j],
+                                "C / C_free-molecular [1]": gp[j] / g_fm,
+                                "C / C_continuum [1]": gp[j] / g_cont[j],
+                                "C / C_slip [1]": gp[j] / gslip[j],
+                            }
+                        )
     notes = NOTES_COMMON + [
         f"temperature {t:g} K, tube radius {c['radius']:g} m, duct height {c['height']:g} m, length {length:g} m.",
         "Conductance in the linear regime at the row's pressure: C = S a v0 G_P / (2 L), S = cross-section area "
@@ -197,7 +207,9 @@ def conductance_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
         "231, approximate; alpha_t for Cercignani-Lampis walls, common practice, no source); tube delta/4 + "
         "sigma_P, duct knudsweep.solver.duct.slip_flow_rate.",
     ]
-    tables["tube_duct_conductance"] = Table(pd.DataFrame(rows), "Tube and duct: conductance and correction factors", notes)
+    tables["tube_duct_conductance"] = Table(
+        pd.DataFrame(rows), "Tube and duct: conductance and correction factors", notes
+    )
     return tables
 
 
@@ -222,23 +234,43 @@ def thermal_creep_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                 sel = dict(geometry=glabel, problem="thermal_creep", model=model, wall=wlabel)
                 status = ds["status"].sel(**sel).values
                 gt = ds["G_T"].sel(**sel).values.astype(float) if "G_T" in ds else np.full(delta.shape, np.nan)
-                gt_err = (ds["G_T_error_estimate"].sel(**sel).values.astype(float) if "G_T_error_estimate" in ds else np.full(delta.shape, np.nan))
-                gp = (ds["G_P"].sel(geometry=glabel, problem="poiseuille", model=model, wall=wlabel).values.astype(float)
-                      if ("G_P" in ds and "poiseuille" in section["problems"]) else np.full(delta.shape, np.nan))
-                ref_t = (SIGMA_T_DIFFUSE_BGK / delta) if (model == "bgk" and is_diffuse(w)) else np.full(delta.shape, np.nan)
+                gt_err = (
+                    ds["G_T_error_estimate"].sel(**sel).values.astype(float)
+                    if "G_T_error_estimate" in ds
+                    else np.full(delta.shape, np.nan)
+                )
+                gp = (
+                    ds["G_P"].sel(geometry=glabel, problem="poiseuille", model=model, wall=wlabel).values.astype(float)
+                    if ("G_P" in ds and "poiseuille" in section["problems"])
+                    else np.full(delta.shape, np.nan)
+                )
+                ref_t = (
+                    (SIGMA_T_DIFFUSE_BGK / delta)
+                    if (model == "bgk" and is_diffuse(w))
+                    else np.full(delta.shape, np.nan)
+                )
                 for gas in section["gases"]:
                     v0 = most_probable_speed(gas, t)
                     for j, d in enumerate(delta):
                         p = pressure_from_delta(gas, d, t, a)
-                        rows.append({
-                            "geometry": glabel, "model": model, "wall": wlabel, "gas": gas,
-                            "delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d), "status": status[j],
-                            "pressure [Pa]": p, "G_T [1]": gt[j], "G_T error estimate [1]": gt_err[j],
-                            # M / ((1/T) dT/dx) = S a p G_T / v0  [kg s^-1 per m^-1 ... = kg m s^-1]
-                            "mass flow per log-temperature gradient [kg m s^-1]": s_area * a * p * gt[j] / v0,
-                            "G_T / G_P (d ln p / d ln T at zero flow) [1]": gt[j] / gp[j],
-                            "G_T / (sigma_T/delta) [1]": gt[j] / ref_t[j],
-                        })
+                        rows.append(
+                            {
+                                "geometry": glabel,
+                                "model": model,
+                                "wall": wlabel,
+                                "gas": gas,
+                                "delta [1]": d,
+                                "Kn [1]": SQRT_PI / (2.0 * d),
+                                "status": status[j],
+                                "pressure [Pa]": p,
+                                "G_T [1]": gt[j],
+                                "G_T error estimate [1]": gt_err[j],
+                                # M / ((1/T) dT/dx) = S a p G_T / v0  [kg s^-1 per m^-1 ... = kg m s^-1]
+                                "mass flow per log-temperature gradient [kg m s^-1]": s_area * a * p * gt[j] / v0,
+                                "G_T / G_P (d ln p / d ln T at zero flow) [1]": gt[j] / gp[j],
+                                "G_T / (sigma_T/delta) [1]": gt[j] / ref_t[j],
+                            }
+                        )
     notes = NOTES_COMMON + [
         f"temperature {t:g} K, tube radius {c['radius']:g} m, duct height {c['height']:g} m.",
         "G_T / G_P = d ln p / d ln T at zero net flow (Sharipov & Seleznev, J. Phys. Chem. Ref. Data 27 (1998) "
@@ -268,8 +300,9 @@ def free_molecular_factor(w: dict[str, Any]) -> float:
 
 def wall_marker(k: int) -> dict[str, Any]:
     """Marker fill of the k-th wall setting: filled, open, half filled."""
-    return [{"ms": 5.5}, {"ms": 6.5, "mfc": "white", "mew": 1.2},
-            {"ms": 6.0, "fillstyle": "left", "mfcalt": "white"}][k % 3]
+    return [{"ms": 5.5}, {"ms": 6.5, "mfc": "white", "mew": 1.2}, {"ms": 6.0, "fillstyle": "left", "mfcalt": "white"}][
+        k % 3
+    ]
 
 
 def geometry_text(section, shape, aspect) -> str:
@@ -286,11 +319,11 @@ def _legend(fig, ax, section, geos, walls, refs):
     from knudsweep import plot_style as ps
 
     handles, labels = [], []
-    for i, (glabel, shape, aspect) in enumerate(geos):
+    for i, (_glabel, shape, aspect) in enumerate(geos):
         handles.append(ax.plot([], [], **ps.series_style(i), ms=5.5)[0])
         labels.append(geometry_text(section, shape, aspect))
     if len(walls) > 1:
-        for k, (wlabel, w) in enumerate(walls):
+        for k, (_wlabel, w) in enumerate(walls):
             handles.append(ax.plot([], [], ls="none", marker="o", color="0.35", **wall_marker(k))[0])
             labels.append(ps.wall_text(w))
     for kind, text in refs:
@@ -338,10 +371,14 @@ def _coefficient_figure(ds, section, settings, problem, model, geos, walls):
     refs = []
     if key == "G_P":
         if has_slip:
-            refs += [("continuum", r"no-slip continuum ($\delta \geq 10$)"),
-                     ("slip", r"first-order slip, $\sigma_P = 1.016\,(2-\alpha)/\alpha$ ($\delta \geq 10$)")]
+            refs += [
+                ("continuum", r"no-slip continuum ($\delta \geq 10$)"),
+                ("slip", r"first-order slip, $\sigma_P = 1.016\,(2-\alpha)/\alpha$ ($\delta \geq 10$)"),
+            ]
         if has_fm:
-            refs.append(("free_molecular", r"free molecular $\times\,(2-\alpha)/\alpha$, Maxwell walls ($\delta \leq 0.1$)"))
+            refs.append(
+                ("free_molecular", r"free molecular $\times\,(2-\alpha)/\alpha$, Maxwell walls ($\delta \leq 0.1$)")
+            )
     else:
         if has_slip:
             refs.append(("slip", r"thermal slip $\propto 1/\delta$, matched at largest $\delta$"))
@@ -434,9 +471,12 @@ def _pressure_figures(ds, section, settings, geos, walls):
         ps.no_data(ax, "needs converged $G_P$ and $G_T$ at two or more $\\delta$")
     ax.set_xlabel(r"pressure ratio $p_\mathrm{in}/p_\mathrm{out}$ (markers: the study's ratios)")
     ax.set_ylabel(r"mass flow [kg s$^{-1}$]")
-    ax.set_title(f"Flow through {c['length']:g} m long tube and ducts, {gas}, {t:g} K,\n"
-                 f"$p_\\mathrm{{out}}$ = {ps.number(p_out)} Pa for all, {ps.model_text(model)}, "
-                 f"{ps.wall_text(w0)}", fontsize="small")
+    ax.set_title(
+        f"Flow through {c['length']:g} m long tube and ducts, {gas}, {t:g} K,\n"
+        f"$p_\\mathrm{{out}}$ = {ps.number(p_out)} Pa for all, {ps.model_text(model)}, "
+        f"{ps.wall_text(w0)}",
+        fontsize="small",
+    )
     ps.bottom_legend(fig, handles, labels, ncol=1)
     out["tube_duct_flow_vs_pressure_ratio"] = fig
 
@@ -471,8 +511,10 @@ def _pressure_figures(ds, section, settings, geos, walls):
     ax.set_xscale("log")
     ax.set_xlabel(r"cold-side pressure $p_\mathrm{cold}$ [Pa] (markers: computed $\delta$ at the cold end)")
     ax.set_ylabel(r"$p_\mathrm{hot}/p_\mathrm{cold}$")
-    ax.set_title(f"Thermal transpiration, {gas}, {t_cold:g} K / {t_hot:g} K, {ps.model_text(model)}, "
-                 f"{ps.wall_text(w0)}", fontsize="small")
+    ax.set_title(
+        f"Thermal transpiration, {gas}, {t_cold:g} K / {t_hot:g} K, {ps.model_text(model)}, {ps.wall_text(w0)}",
+        fontsize="small",
+    )
     ps.bottom_legend(fig, handles, labels, ncol=2)
     out["tube_duct_thermal_transpiration"] = fig
     return out
@@ -522,12 +564,14 @@ def coefficient_captions(ds, section: dict[str, Any]) -> dict[str, str]:
                     "times (2 - alpha)/alpha, alpha_t for Cercignani-Lampis walls, approximate); free molecular for "
                     f"delta <= {FREE_MOLECULAR_FIG_MAX_DELTA:g}: Knudsen's 8/(3 sqrt(pi)) for the tube, the quadrature "
                     "of knudsweep.solver.duct for ducts, times Smoluchowski's (2 - alpha)/alpha, for Maxwell walls only (no "
-                    "source was at hand for the Cercignani-Lampis factor).")
+                    "source was at hand for the Cercignani-Lampis factor)."
+                )
             else:
                 text.append(
                     f"References: thermal slip, a 1/delta law matched to the computed value at the largest delta, "
                     f"for delta >= {SLIP_MIN_DELTA:g}; free molecular G_T = G_P/2 (Knudsen 1909) for delta <= "
-                    f"{FREE_MOLECULAR_FIG_MAX_DELTA:g}, Maxwell walls only.")
+                    f"{FREE_MOLECULAR_FIG_MAX_DELTA:g}, Maxwell walls only."
+                )
             text.append(relative_error_sentence(ds, key, {"problem": problem, "model": model}, key))
             text.append(status_sentence(ds, {"problem": problem, "model": model}))
             out[f"tube_duct_{key}_vs_delta_{model}"] = "\n\n".join(text)
@@ -548,29 +592,35 @@ def pressure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     wl, w0 = walls[0]
     ratios = sorted(c["pressure_ratios"])
     p_out = common_outlet_pressure(section, geos, gas, delta, float(max(ratios)))
-    note = (f"Gas {gas} at {c['temperature']:g} K, kinetic model {model_text(model)}, walls "
-            f"{_plain(wall_text(w0))} (the first model and wall of the study); cross-sections: {geo_list}; "
-            f"length {c['length']:g} m.")
-    out["tube_duct_flow_vs_pressure_ratio"] = "\n\n".join([
-        "Mass flow through the long channel at finite pressure ratio p_in/p_out, from the computed G_P and G_T "
-        "integrated along the channel (knudsweep.solver.conductance.flow_at_pressure_ratio; end effects neglected). "
-        f"The outlet pressure is the same for all cross-sections, p_out = {p_out:.3g} Pa, chosen so that "
-        "the whole channel stays inside the computed delta range. Markers at the study's ratios "
-        f"({', '.join(f'{r:g}' for r in ratios)}), curves monotone interpolations between them. " + note,
-        "Uncertainty: the interpolation of G_P between computed delta values and the numerical error of "
-        "the points (see the G_P caption); no model error.",
-    ])
+    note = (
+        f"Gas {gas} at {c['temperature']:g} K, kinetic model {model_text(model)}, walls "
+        f"{_plain(wall_text(w0))} (the first model and wall of the study); cross-sections: {geo_list}; "
+        f"length {c['length']:g} m."
+    )
+    out["tube_duct_flow_vs_pressure_ratio"] = "\n\n".join(
+        [
+            "Mass flow through the long channel at finite pressure ratio p_in/p_out, from the computed G_P and G_T "
+            "integrated along the channel (knudsweep.solver.conductance.flow_at_pressure_ratio; end effects neglected). "
+            f"The outlet pressure is the same for all cross-sections, p_out = {p_out:.3g} Pa, chosen so that "
+            "the whole channel stays inside the computed delta range. Markers at the study's ratios "
+            f"({', '.join(f'{r:g}' for r in ratios)}), curves monotone interpolations between them. " + note,
+            "Uncertainty: the interpolation of G_P between computed delta values and the numerical error of "
+            "the points (see the G_P caption); no model error.",
+        ]
+    )
     th = c["thermal"]
-    out["tube_duct_thermal_transpiration"] = "\n\n".join([
-        f"Thermal transpiration: pressure ratio p_hot/p_cold at zero net flow between ends at "
-        f"{th['t_cold']:g} K and {th['t_hot']:g} K, against the cold-side pressure, from d ln p / d ln T = "
-        "G_T/G_P integrated along the channel (knudsweep.solver.conductance.thermomolecular_pressure_ratio). Drawn "
-        "only where the cold end lies inside the computed delta range; markers where it sits on a computed "
-        "delta. References: the free-molecular limit sqrt(T_hot/T_cold) (Knudsen 1909) and the continuum "
-        "limit 1. " + note,
-        "Uncertainty: the interpolation of G_T/G_P between computed delta values (monotone, PCHIP in "
-        "log-log) and the numerical error of the points; no model error.",
-    ])
+    out["tube_duct_thermal_transpiration"] = "\n\n".join(
+        [
+            f"Thermal transpiration: pressure ratio p_hot/p_cold at zero net flow between ends at "
+            f"{th['t_cold']:g} K and {th['t_hot']:g} K, against the cold-side pressure, from d ln p / d ln T = "
+            "G_T/G_P integrated along the channel (knudsweep.solver.conductance.thermomolecular_pressure_ratio). Drawn "
+            "only where the cold end lies inside the computed delta range; markers where it sits on a computed "
+            "delta. References: the free-molecular limit sqrt(T_hot/T_cold) (Knudsen 1909) and the continuum "
+            "limit 1. " + note,
+            "Uncertainty: the interpolation of G_T/G_P between computed delta values (monotone, PCHIP in "
+            "log-log) and the numerical error of the points; no model error.",
+        ]
+    )
     return out
 
 
@@ -579,8 +629,11 @@ def pressure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
 def coefficient_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
     geos = geometry_settings(section)
     walls = wall_settings(section)
-    return {f"tube_duct_{MAIN_COEFFICIENT[p]}_vs_delta_{m}": _coefficient_figure(ds, section, settings, p, m, geos, walls)
-            for p in section["problems"] for m in section["models"]}
+    return {
+        f"tube_duct_{MAIN_COEFFICIENT[p]}_vs_delta_{m}": _coefficient_figure(ds, section, settings, p, m, geos, walls)
+        for p in section["problems"]
+        for m in section["models"]
+    }
 
 
 @FIGURES.register(pressure_figure_names, caption=pressure_captions)
