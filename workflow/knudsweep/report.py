@@ -28,9 +28,9 @@ import numpy as np
 REPORT_DIR = "report"
 CATEGORIES = {"plane_channel": "Plane channel", "tube_duct": "Tube and ducts", "relaxation": "Relaxation"}
 _FAMILY_WORDS = {
-    "plane_channel": "fully developed flow between parallel plates (linearised kinetic models)",
+    "plane_channel": "fully developed flow between parallel plates (linearised kinetic models and the linearised Boltzmann equation)",
     "tube_duct": "fully developed flow through a long circular tube and rectangular ducts (linearised kinetic models)",
-    "relaxation": "space-homogeneous relaxation to equilibrium (DSMC and model equations)",
+    "relaxation": "space-homogeneous relaxation to equilibrium (DSMC, the Boltzmann equation by the fast spectral method, model equations)",
 }
 
 
