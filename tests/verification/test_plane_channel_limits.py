@@ -151,3 +151,14 @@ def test_kramers_slip_reference_converges_at_second_order():
     print(f"\nKramers sigma_P on 200/400/800 cells {v}, ratio {ratio:.2f}")
     assert 3.0 < ratio < 5.0
     assert abs(bgk_viscous_slip() - v[2]) < 2e-3  # Richardson moves the finest value by 1.5e-3
+
+
+def test_kramers_thermal_slip_reference_converges_at_second_order():
+    # the independent sigma_T (kramers_bgk.py): second order in the cell size
+    from kramers_bgk import bgk_thermal_slip, thermal_slip_on_grid
+
+    v = [thermal_slip_on_grid(n) for n in (200, 400, 800)]
+    ratio = (v[1] - v[0]) / (v[2] - v[1])
+    print(f"\nthermal slip on 200/400/800 cells {v}, ratio {ratio:.2f}, extrapolated {bgk_thermal_slip():.5f}")
+    assert 3.0 < ratio < 5.0
+    assert abs(bgk_thermal_slip() - v[2]) < 5e-4  # Richardson moves the finest value by 1.3e-4
