@@ -67,6 +67,7 @@ def _collocation(n_cells: int, length: float, grade: float):
     return xc, kernel, t0[inv[2 * da.size :]], t1_edges[:-1] - t1_edges[1:]
 
 
+@functools.cache
 def slip_on_grid(n_cells: int, length: float = 16.0, grade: float = 1.5) -> float:
     """sigma_P from the collocation on n_cells cells, edges L (k/n)^grade."""
     xc, kernel, t0_tail, t0_cells = _collocation(n_cells, length, grade)
@@ -83,6 +84,7 @@ def slip_on_grid(n_cells: int, length: float = 16.0, grade: float = 1.5) -> floa
     return float(np.linalg.solve(mat, rhs)[-1])
 
 
+@functools.cache
 def thermal_slip_on_grid(n_cells: int, length: float = 16.0, grade: float = 1.5) -> float:
     """sigma_T from the collocation on n_cells cells (u = u_inf beyond L)."""
     xc, kernel, t0_tail, t0_cells = _collocation(n_cells, length, grade)
