@@ -11,10 +11,10 @@ import shutil
 import subprocess
 
 import pytest
-import xarray as xr
 from wf_helpers import DATA, REPO, job_counts, smk
 
 from knudsweep.config import load_study
+from knudsweep.gather import open_sweep
 from knudsweep.plan import StudyPlan
 
 
@@ -72,7 +72,8 @@ def test_tiny_study_through_slurm_as_one_batch_job(tmp_path):
     counts = job_counts(out)
     assert counts["solve_batch"] == 1 and counts["gather"] == 1
     plan = StudyPlan(load_study(study))
-    with xr.open_dataset(tmp_path / plan.sweep_file, group="plane_channel") as ds:
-        assert list(ds["status"].values.ravel()) == ["converged"] * 3
+    # the file stores status as CF flags (int8 + flag_meanings); open_sweep decodes them
+    ds = open_sweep(tmp_path / plan.sweep_file, "plane_channel")
+    assert list(ds["status"].values.ravel()) == ["converged"] * 3
     for f in plan.table_files() + plan.figure_files():
         assert (tmp_path / f).is_file()
