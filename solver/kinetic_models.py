@@ -81,8 +81,9 @@ _MODELS: dict[str, KineticModel] = {
 MODEL_NAMES: tuple[str, ...] = tuple(_MODELS)
 
 # Linearized Boltzmann equations of the plane channel (knudsweep.solver.plane_channel.boltzmann_driver):
-# model name -> molecule.  Poiseuille and thermal creep with Maxwell walls only.
-BOLTZMANN_MODELS: dict[str, str] = {"boltzmann_hard_sphere": "hard_sphere"}
+# model name -> molecule.  Poiseuille and thermal creep with Maxwell walls only.  "vhs" takes the viscosity
+# index omega of the gas (config/gases.yaml), so studies solve it per gas.
+BOLTZMANN_MODELS: dict[str, str] = {"boltzmann_hard_sphere": "hard_sphere", "boltzmann_vhs": "vhs"}
 
 # Method name of the relaxation solver's deterministic Boltzmann solution (fast spectral method,
 # knudsweep.solver.relaxation.fast_spectral); it runs beside the model equations and DSMC.

@@ -278,7 +278,7 @@ def _plane_channel_values(args) -> dict:
                 f"allowed range is [{MIN_SPEED}, {MAX_SPEED}]"
             )
     resolution = {"n_space": args.n_space, "n_velocity": args.n_velocity, "tol": args.tol, "accuracy": None}
-    return grid.point_values(args.problem, args.model, delta, lower, upper, resolution)
+    return grid.point_values(args.problem, args.model, delta, lower, upper, resolution, args.gas)
 
 
 def _check_output(path: Path) -> None:
@@ -487,6 +487,9 @@ def cmd_solve(args) -> int:
     summary["delta"] = values["delta"]
     summary["wall"] = values["wall"]
     summary["geometry"] = values.get("geometry", "plane_channel")
+    for key in ("gas", "omega"):  # a gas-dependent collision operator (boltzmann_vhs)
+        if key in values:
+            summary[key] = values[key]
     if args.output:
         summary["output"] = str(args.output)
     return _print_summary(args, summary, result, iterations=True)
@@ -655,7 +658,11 @@ def build_parser() -> argparse.ArgumentParser:
         help=f"{', '.join(km.MODEL_NAMES)}; plane channel also "
         f"{', '.join(km.BOLTZMANN_MODELS)} (linearized Boltzmann, poiseuille and thermal_creep, Maxwell walls)",
     )
-    s.add_argument("--gas", default="Ar", help="gas name from config/gases.yaml (used with --pressure)")
+    s.add_argument(
+        "--gas",
+        default="Ar",
+        help="gas name from config/gases.yaml (used with --pressure, and by boltzmann_vhs for its viscosity index)",
+    )
     s.add_argument(
         "--delta",
         type=float,

@@ -302,8 +302,20 @@ def validate_study(raw: dict[str, Any]) -> dict[str, Any]:
             get_family(name).check_section(study[name])
         except ValueError as exc:
             raise StudyConfigError(f"{name}.{exc}") from None
+        _check_given(name, raw[name], study[name])
     _check_size_and_memory(study, sections)
     return study
+
+
+def _check_given(name: str, raw_section: Any, section: dict[str, Any]) -> None:
+    """Keys a family needs the study to give (``required_keys(section)`` of its grid module, key -> reason):
+    a schema default does not stand in for them (e.g. the gases of a gas-dependent collision operator)."""
+    from knudsweep.families import get_family
+
+    required = getattr(get_family(name).grid, "required_keys", None)
+    for key, why in (required(section) if required else {}).items():
+        if key not in raw_section:
+            raise StudyConfigError(f"{name}.{key}: missing; {why}")
 
 
 # Largest study planned: 10^6 points plan in 1.1 GB and 25 s (snakemake --dry-run,

@@ -4,17 +4,24 @@ Grid: problems x kinetic models x wall settings x delta (or Kn).
 
 Point identity (the file path below ``results/points/``)::
 
-    plane_channel/<problem>/model=<model>/wall=<wall label>/grid=<ns>-<nv>-<tol>/delta=<delta>.nc
+    plane_channel/<problem>/model=<model>[/gas=<gas>]/wall=<wall label>/grid=<ns>-<nv>-<tol>/delta=<delta>.nc
 
 e.g. ``plane_channel/poiseuille/model=bgk/wall=maxwell-alpha=0.9/grid=ns40-nv16-tol1.0e-08/delta=1.0e+00.nc``.
 
-* **Gas is not part of the point.**  The linearised plane-channel problems are
-  solved in reduced variables; the solver sees delta, the kinetic model and the
-  walls only.  A study that lists Ar and He therefore solves each point once and
-  the tables convert the same reduced result to each gas's pressure and flow
-  (``knudsweep.solver.gas.pressure_from_delta``).  If a Kn axis is given, it is turned into
-  delta = sqrt(pi) / (2 Kn) before the point is named, so ``kn`` and ``delta``
-  studies share files.
+* **Gas is part of a point only where the operator depends on it.**  The
+  linearised plane-channel problems are solved in reduced variables; for the
+  model equations and hard spheres the solver sees delta, the kinetic model and
+  the walls only.  A study that lists Ar and He therefore solves each such point
+  once and the tables convert the same reduced result to each gas's pressure and
+  flow (``knudsweep.solver.gas.pressure_from_delta``).  The VHS operator
+  (``boltzmann_vhs``, :data:`GAS_MODELS`) depends on the gas's viscosity index
+  omega (config/gases.yaml): its points are expanded over the study's gases, the
+  path gets a ``gas=<gas>`` segment, the values ``gas`` and ``omega`` (so an
+  edited omega makes the file outdated), and the gathered ``model`` dimension
+  the label ``boltzmann_vhs-<gas>`` (:func:`model_entries`; extra coordinates
+  ``model_gas`` and ``omega``).  Other points keep their identity.  If a Kn axis
+  is given, it is turned into delta = sqrt(pi) / (2 Kn) before the point is
+  named, so ``kn`` and ``delta`` studies share files.
 * **Resolution and tolerance are part of the point** (``grid=`` segment): two
   studies at different resolution must not overwrite each other's files.
   ``auto`` stands for "solver default".
@@ -50,6 +57,8 @@ MODEL_EQUATIONS = kinetic_models.MODEL_NAMES
 BOLTZMANN_MODELS = tuple(kinetic_models.BOLTZMANN_MODELS)
 BOLTZMANN_PROBLEMS = ("poiseuille", "thermal_creep")
 MODELS = MODEL_EQUATIONS + BOLTZMANN_MODELS
+# Boltzmann models whose operator depends on the gas (VHS: the viscosity index omega of config/gases.yaml)
+GAS_MODELS = tuple(m for m, molecule in kinetic_models.BOLTZMANN_MODELS.items() if molecule == "vhs")
 
 # Scalar results of each problem (names as returned by knudsweep.solver.plane_channel).
 COEFFICIENTS: dict[str, tuple[str, ...]] = {
@@ -74,6 +83,9 @@ PLANE_POINT_SECONDS = 0.008
 # worker's first point
 BOLTZMANN_POINT_SECONDS = 0.1
 BOLTZMANN_SECONDS_PER_CELL = 0.002
+# VHS argon: 10-20 % more iterations than hard spheres (12-48 against 10-40 at delta 0.1-100, same bench); its
+# operator build (11 s for the 8- and 6-speed sets of one omega, cached per worker) is not in the point cost
+VHS_FACTOR = 1.2
 
 
 def wall_label(lower: dict[str, Any], upper: dict[str, Any] | None) -> str:
@@ -84,6 +96,45 @@ def wall_label(lower: dict[str, Any], upper: dict[str, Any] | None) -> str:
 def make_wall_objects(values: dict[str, Any]):
     """Solver wall objects (lower, upper-or-None) from a point's values."""
     return make_wall_object(values["lower_wall"]), make_wall_object(values["upper_wall"])
+
+
+def model_label(model: str, gas: str | None) -> str:
+    """Label of a model along the gathered ``model`` dimension: the model, or ``<model>-<gas>`` for GAS_MODELS."""
+    return model if gas is None else f"{model}-{gas}"
+
+
+def model_entries(section: dict[str, Any]) -> list[tuple[str, str, str | None]]:
+    """``[(label, model, gas-or-None), ...]`` in the order of the section's models (GAS_MODELS once per gas)."""
+    out = []
+    for model in section["models"]:
+        if model in GAS_MODELS:
+            out += [(model_label(model, gas), model, gas) for gas in section["gases"]]
+        else:
+            out.append((model, model, None))
+    return out
+
+
+def model_labels(section: dict[str, Any]) -> list[str]:
+    """Labels of the gathered ``model`` dimension (:func:`model_entries`)."""
+    return [label for label, _, _ in model_entries(section)]
+
+
+def gas_omega(gas: str) -> float:
+    """The VHS viscosity index omega of ``gas`` (config/gases.yaml, knudsweep.solver.gas), canonical."""
+    from knudsweep.solver.gas import get_gas
+
+    return canonical(get_gas(gas).omega)
+
+
+def required_keys(section: dict[str, Any]) -> dict[str, str]:
+    """Keys the study must give itself (their schema default is not enough), with the reason."""
+    gas_models = [m for m in section["models"] if m in GAS_MODELS]
+    if not gas_models:
+        return {}
+    return {
+        "gases": f"model {gas_models[0]} is solved for each gas with its viscosity index omega "
+        "(config/gases.yaml); list the gases, e.g. gases: [Ar]"
+    }
 
 
 def wall_settings(section: dict[str, Any]) -> list[tuple[str, dict, dict | None]]:
@@ -161,6 +212,16 @@ def check_boltzmann(section: dict[str, Any], axis: str) -> None:
             raise ValueError(
                 f"{axis}: a value gives delta = {d:g}; allowed range of {axis} with model {lbe[0]} is {bounds}"
             )
+    from knudsweep.solver.plane_channel.linearized_boltzmann import OMEGA_RANGE
+
+    gas_models = [m for m in section["models"] if m in GAS_MODELS]
+    for i, gas in enumerate(section["gases"] if gas_models else []):
+        omega = gas_omega(gas)
+        if not OMEGA_RANGE[0] <= omega <= OMEGA_RANGE[1]:
+            raise ValueError(
+                f"gases[{i}]: gas {gas} has omega = {omega:g} (config/gases.yaml); model {gas_models[0]} takes "
+                f"omega in [{OMEGA_RANGE[0]:g}, {OMEGA_RANGE[1]:g}]"
+            )
     nv = section.get("resolution", {}).get("n_velocity")
     if nv is not None and not bd.MIN_SPEED <= nv <= bd.MAX_SPEED:
         raise ValueError(
@@ -176,13 +237,15 @@ def point_values(
     lower: dict[str, Any],
     upper: dict[str, Any] | None,
     resolution: dict[str, Any],
+    gas: str | None = None,
 ) -> dict[str, Any]:
     """Canonical values of one point (a study's grid and ``knudsweep solve`` both build them here).
 
     ``lower``, ``upper``: canonical wall laws (:func:`knudsweep.families.wall_params`; upper None = alike);
-    ``resolution``: ``n_space``, ``n_velocity``, ``tol`` and optionally ``accuracy``.
+    ``resolution``: ``n_space``, ``n_velocity``, ``tol`` and optionally ``accuracy``; ``gas``: the gas of a
+    model in GAS_MODELS (its values then carry ``gas`` and ``omega``), ignored for other models.
     """
-    return {
+    values = {
         "problem": problem,
         "model": model,
         "delta": canonical(delta),
@@ -194,6 +257,12 @@ def point_values(
         "tol": canonical(resolution["tol"]),
         "accuracy": None if resolution.get("accuracy") is None else canonical(resolution["accuracy"]),
     }
+    if model in GAS_MODELS:
+        if gas is None:
+            raise ValueError(f"gas: model {model} needs a gas (its viscosity index omega)")
+        values["gas"] = gas
+        values["omega"] = gas_omega(gas)
+    return values
 
 
 def points(section: dict[str, Any]) -> list[Point]:
@@ -201,7 +270,8 @@ def points(section: dict[str, Any]) -> list[Point]:
     grid = grid_label(section)
     out = []
     for problem in section["problems"]:
-        for model in section["models"]:
+        for mlabel, model, gas in model_entries(section):
+            gas_segment = [] if gas is None else [segment("gas", gas)]
             for label, lower, upper in wall_settings(section):
                 for delta in delta_values(section):
                     pid = point_id(
@@ -209,13 +279,14 @@ def points(section: dict[str, Any]) -> list[Point]:
                         [
                             segment("", problem),
                             segment("model", model),
+                            *gas_segment,
                             segment("wall", label),
                             segment("grid", grid),
                             segment("delta", format_exp(delta)),
                         ],
                     )
-                    values = point_values(problem, model, delta, lower, upper, res)
-                    index = {"problem": problem, "model": model, "wall": label, "delta": delta}
+                    values = point_values(problem, model, delta, lower, upper, res, gas)
+                    index = {"problem": problem, "model": mlabel, "wall": label, "delta": delta}
                     out.append(Point(NAME, pid, values, index))
     return out
 
@@ -230,6 +301,8 @@ def point_cost(values: dict[str, Any]) -> float:
 
         n_space = values.get("n_space") or grids.default_n_space(values["delta"])
         cost = BOLTZMANN_POINT_SECONDS + BOLTZMANN_SECONDS_PER_CELL * n_space
+        if values.get("model") in GAS_MODELS:
+            cost *= VHS_FACTOR
         if values.get("n_velocity"):
             cost *= max(0.1, (values["n_velocity"] / 8.0) ** 3)
         return cost * (4.0 if values.get("accuracy") is not None else 1.0)
@@ -244,7 +317,7 @@ def point_cost(values: dict[str, Any]) -> float:
 def gather_dims(section: dict[str, Any]) -> dict[str, list]:
     return {
         "problem": list(section["problems"]),
-        "model": list(section["models"]),
+        "model": model_labels(section),
         "wall": [label for label, _, _ in wall_settings(section)],
         "delta": delta_values(section),
     }
@@ -259,7 +332,7 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
 
     return {
         "problem": {"attrs": {"long_name": "driving problem"}},
-        "model": {"attrs": {"long_name": "kinetic model equation"}},
+        "model": {"attrs": {"long_name": "kinetic model equation"}, **_model_extra(section)},
         "wall": {
             "attrs": {"long_name": "gas-surface interaction setting"},
             "extra": {
@@ -295,4 +368,23 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
                 )
             },
         },
+    }
+
+
+def _model_extra(section: dict[str, Any]) -> dict[str, Any]:
+    """Extra coordinates along ``model`` when a model depends on the gas: its gas and viscosity index."""
+    entries = model_entries(section)
+    if not any(gas is not None for _, _, gas in entries):
+        return {}
+    return {
+        "extra": {
+            "model_gas": (
+                [gas or "" for _, _, gas in entries],
+                {"long_name": "gas of a gas-dependent collision operator (empty: the model does not depend on it)"},
+            ),
+            "omega": (
+                [gas_omega(gas) if gas is not None else float("nan") for _, _, gas in entries],
+                {"units": "1", "long_name": "VHS viscosity index omega of the gas (mu ~ T^omega)"},
+            ),
+        }
     }

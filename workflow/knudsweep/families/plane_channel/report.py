@@ -46,8 +46,11 @@ from knudsweep.families import Products, Table
 from knudsweep.families.plane_channel.grid import (
     BOLTZMANN_MODELS,
     BOLTZMANN_PROBLEMS,
+    GAS_MODELS,
     MAIN_COEFFICIENT,
     MODEL_EQUATIONS,
+    model_entries,
+    model_labels,
     wall_settings,
 )
 
@@ -70,35 +73,55 @@ NOTES_COMMON = [
 ]
 
 
-BOLTZMANN_TEXT = {"boltzmann_hard_sphere": "linearized Boltzmann (hard spheres)"}
-# Marker of a linearized-Boltzmann series: a mid-size filled marker with a black edge, apart from the
-# open (BGK), small filled (S-model) and half-filled (ES-BGK) markers of knudsweep.plot_style.model_marker
+BOLTZMANN_TEXT = {
+    "boltzmann_hard_sphere": "linearized Boltzmann (hard spheres)",
+    "boltzmann_vhs": "linearized Boltzmann (VHS",  # closed with the gas: "(VHS, Ar)"
+}
+# Marker of a linearized-Boltzmann series: a mid-size filled marker with a black edge (VHS: white-filled), apart
+# from the open (BGK), small filled (S-model) and half-filled (ES-BGK) markers of knudsweep.plot_style.model_marker
 BOLTZMANN_MARKER = {"ms": 6.0, "mec": "black", "mew": 0.9}
+VHS_MARKER = {"ms": 6.0, "mec": "black", "mew": 0.9, "mfc": "white"}
+
+
+def base_model(label: str) -> tuple[str, str | None]:
+    """(model, gas-or-None) of a label of the ``model`` dimension (``boltzmann_vhs-Ar`` -> boltzmann_vhs, Ar)."""
+    for model in GAS_MODELS:
+        if label.startswith(model + "-"):
+            return model, label[len(model) + 1 :]
+    return label, None
 
 
 def model_text(model: str) -> str:
-    """Plain words of a model (knudsweep.plot_style.model_text; the Boltzmann models named here)."""
+    """Plain words of a model label (knudsweep.plot_style.model_text; the Boltzmann models named here)."""
     from knudsweep.plot_style import model_text as style_text
 
+    name, gas = base_model(model)
+    if gas is not None:
+        return f"{BOLTZMANN_TEXT[name]}, {gas})"
     return BOLTZMANN_TEXT.get(model) or style_text(model)
 
 
 def model_marker(model: str) -> dict[str, Any]:
-    """Marker of a model (knudsweep.plot_style.model_marker; the Boltzmann models: BOLTZMANN_MARKER)."""
+    """Marker of a model label (knudsweep.plot_style.model_marker; the Boltzmann models: BOLTZMANN_MARKER,
+    VHS_MARKER)."""
     from knudsweep.plot_style import model_marker as style_marker
 
-    return dict(BOLTZMANN_MARKER) if model in BOLTZMANN_MODELS else style_marker(model)
+    name, gas = base_model(model)
+    if gas is not None:
+        return dict(VHS_MARKER)
+    return dict(BOLTZMANN_MARKER) if name in BOLTZMANN_MODELS else style_marker(model)
 
 
-def model_error_pairs(section: dict[str, Any]) -> tuple[str | None, list[str], list[str]]:
-    """(Boltzmann model, model equations, coefficients) of the model-error view; (None, [], []) if the study
-    does not hold both kinds of model."""
-    lbe = [m for m in section["models"] if m in BOLTZMANN_MODELS]
+def model_error_pairs(section: dict[str, Any]) -> tuple[list[str], list[str], list[str]]:
+    """(Boltzmann references, model equations, coefficients) of the model-error view: the references are the
+    labels of the ``model`` dimension of each Boltzmann operator (hard spheres; VHS once per gas); ([], [], [])
+    if the study does not hold both kinds of model."""
+    refs = [label for label, model, _ in model_entries(section) if model in BOLTZMANN_MODELS]
     eqs = [m for m in section["models"] if m in MODEL_EQUATIONS]
     keys = [MAIN_COEFFICIENT[p] for p in section["problems"] if p in BOLTZMANN_PROBLEMS]
-    if not lbe or not eqs or not keys:
-        return None, [], []
-    return lbe[0], eqs, keys
+    if not refs or not eqs or not keys:
+        return [], [], []
+    return refs, eqs, keys
 
 
 def model_error_ratio(g_model, e_model, g_ref, e_ref):
@@ -161,24 +184,25 @@ def problem_table_names(section: dict[str, Any]) -> list[str]:
 
 def model_error_names(section: dict[str, Any]) -> list[str]:
     """``[<prefix>model_error<suffix>]`` if the study holds a Boltzmann model and a model equation."""
-    return ["plane_channel_model_error"] if model_error_pairs(section)[0] is not None else []
+    return ["plane_channel_model_error"] if model_error_pairs(section)[0] else []
 
 
 def model_error_table(ds, section: dict[str, Any]) -> Table:
-    """G_P, G_T of each model equation over the linearized Boltzmann value, per wall and delta."""
-    lbe, eqs, keys = model_error_pairs(section)
+    """G_P, G_T of each model equation over each linearized Boltzmann value (one row block per Boltzmann
+    operator, and per gas for VHS), per wall and delta."""
+    refs, eqs, keys = model_error_pairs(section)
     delta = ds["delta"].values.astype(float)
     rows = []
-    for label in walls_by_label(section):
+    for lbe, label in ((r, w) for r in refs for w in walls_by_label(section)):
         cols: dict[str, np.ndarray] = {}
         for key in keys:
             problem = "poiseuille" if key == "G_P" else "thermal_creep"
             sel = dict(problem=problem, wall=label)
             g_ref = values_of(ds, key, model=lbe, **sel)
             e_ref = values_of(ds, f"{key}_error_estimate", model=lbe, **sel)
-            cols[f"{key} {model_text(lbe)} [1]"] = g_ref
-            cols[f"{key} {model_text(lbe)} error estimate [1]"] = e_ref
-            cols[f"{key} {model_text(lbe)} status"] = ds["status"].sel(model=lbe, **sel).values
+            cols[f"{key} Boltzmann [1]"] = g_ref
+            cols[f"{key} Boltzmann error estimate [1]"] = e_ref
+            cols[f"{key} Boltzmann status"] = ds["status"].sel(model=lbe, **sel).values
             for m in eqs:
                 ratio, err = model_error_ratio(
                     values_of(ds, key, model=m, **sel),
@@ -188,22 +212,28 @@ def model_error_table(ds, section: dict[str, Any]) -> Table:
                 )
                 cols[f"{key} {model_text(m)} / Boltzmann [1]"] = ratio
                 cols[f"{key} {model_text(m)} / Boltzmann error estimate [1]"] = err
+        gas = base_model(lbe)[1] or ""
         for j, d in enumerate(delta):
-            row = {"wall": label, "delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d)}
+            row = {"Boltzmann model": model_text(lbe), "gas": gas, "wall": label, "delta [1]": d}
+            row["Kn [1]"] = SQRT_PI / (2.0 * d)
             row.update({k: (v[j] if v.dtype.kind in "OUS" else float(v[j])) for k, v in cols.items()})
             rows.append(row)
     notes = [
         NOTES_COMMON[0],
         NOTES_COMMON[1],
-        f"Model error of the kinetic model equations: each one's reduced flow rate divided by the solution of the "
-        f"{model_text(lbe)} equation (knudsweep.solver.plane_channel.boltzmann_driver) at the same delta and walls. delta is "
+        "Model error of the kinetic model equations: each one's reduced flow rate divided by the solution of the "
+        f"linearized Boltzmann equation named in the row ({', '.join(model_text(r) for r in refs)}; "
+        "knudsweep.solver.plane_channel.boltzmann_driver) at the same delta and walls. The VHS operator takes the "
+        "viscosity index omega of the row's gas (config/gases.yaml); hard spheres and the model equations do not "
+        "depend on the gas (gas column empty). delta is "
         "defined with the gas's viscosity in both, so the difference is the error of the model's collision term; "
         "the ratio tends to 1 as delta -> 0, slowly (like 1/ln delta) between plates, where the flow rates diverge "
         "with a model-dependent constant.",
         "error estimate columns: estimated discretisation errors (absolute), Richardson over a coarser solve "
         "(knudsweep.solver.resolution); the ratio's estimate adds the two relative estimates. They do not include any "
         "modelling error.",
-        "Empty cells: a point failed, is missing or corrupt (its status column says which for the Boltzmann value).",
+        "Empty cells: a point failed, is missing or corrupt (the Boltzmann status column says which for the "
+        "Boltzmann value).",
     ]
     return Table(pd.DataFrame(rows), "Plane channel, model error against the linearized Boltzmann equation", notes)
 
@@ -234,9 +264,9 @@ def problem_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
     for problem in section["problems"]:
         key = MAIN_COEFFICIENT[problem]
         rows = []
-        for model in section["models"]:
+        for mlabel, model, model_gas in model_entries(section):
             for label, (lower, upper) in walls.items():
-                sel = dict(problem=problem, model=model, wall=label)
+                sel = dict(problem=problem, model=mlabel, wall=label)
                 status = ds["status"].sel(**sel).values
                 g = ds[key].sel(**sel).values.astype(float) if key in ds else np.full(delta.shape, np.nan)
                 err_name = f"{key}_error_estimate"
@@ -252,7 +282,7 @@ def problem_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                         "G_P / G_fm,asymptotic [1]": g / fm,
                     }
                     if "thermal_creep" in section["problems"] and "G_T" in ds:
-                        gt = ds["G_T"].sel(problem="thermal_creep", model=model, wall=label).values
+                        gt = ds["G_T"].sel(problem="thermal_creep", model=mlabel, wall=label).values
                         extra_cols["G_T / G_P [1]"] = gt / g
                 elif key == "G_T":
                     if model == "bgk" and _is_diffuse(lower, upper):
@@ -261,7 +291,8 @@ def problem_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                         extra_cols["G_T / (sigma_T/delta) [1]"] = np.full_like(delta, np.nan)
                 elif key in ("shear_stress", "heat_flux"):
                     extra_cols[f"{key} * sqrt(pi) [1]"] = g * SQRT_PI
-                for gas in section["gases"]:
+                # a gas-dependent operator (VHS) converts with its own gas only
+                for gas in section["gases"] if model_gas is None else [model_gas]:
                     for j, d in enumerate(delta):
                         row = {
                             "model": model,
@@ -336,7 +367,7 @@ def convergence_figure_names(section: dict[str, Any]) -> list[str]:
 
 
 def model_error_figure_names(section: dict[str, Any]) -> list[str]:
-    return ["plane_channel_model_error_vs_delta"] if model_error_pairs(section)[0] is not None else []
+    return ["plane_channel_model_error_vs_delta"] if model_error_pairs(section)[0] else []
 
 
 def _accommodation_factor(lower: dict, upper: dict | None) -> float:
@@ -393,7 +424,7 @@ def _coefficient_figure(ds, section, settings, problem):
 
     key = MAIN_COEFFICIENT[problem]
     walls = walls_by_label(section)
-    models = list(section["models"])
+    models = model_labels(section)
     delta = ds["delta"].values.astype(float)
     two = len(models) > 1 and key in ("G_P", "G_T")
     if two:
@@ -505,7 +536,7 @@ def _correction_figure(ds, section, settings):
     from knudsweep.figures import new_figure
 
     walls = walls_by_label(section)
-    models = list(section["models"])
+    models = model_labels(section)
     delta = ds["delta"].values.astype(float)
     kn = SQRT_PI / (2.0 * delta)
     fig, ax = new_figure(settings, scale=(1.0, 1.2))
@@ -548,7 +579,7 @@ def _convergence_figure(ds, section, settings, problem):
     from knudsweep.figures import new_figure
 
     walls = walls_by_label(section)
-    models = list(section["models"])
+    models = model_labels(section)
     delta = ds["delta"].values.astype(float)
     tol = float(section["resolution"]["tol"])
     mosaic = [["iters"] * len(models), list(models)]
@@ -619,12 +650,18 @@ def _model_error_figure(ds, section, settings):
     from knudsweep import plot_style as ps
     from knudsweep.figures import new_figure
 
-    lbe, eqs, keys = model_error_pairs(section)
+    refs, eqs, keys = model_error_pairs(section)
     walls = walls_by_label(section)
     delta = ds["delta"].values.astype(float)
-    fig, axes = new_figure(settings, mosaic=[keys], scale=(1.0 if len(keys) == 1 else 1.6, 1.2), sharey=True)
-    for n, key in enumerate(keys):
-        ax = axes[key]
+    mosaic = [[f"{key}|{lbe}" for key in keys] for lbe in refs]  # one row per Boltzmann operator (VHS: per gas)
+    fig, axes = new_figure(
+        settings,
+        mosaic=mosaic,
+        scale=(1.0 if len(keys) == 1 else 1.6, 1.2 * (1.0 + 0.6 * (len(refs) - 1))),
+        sharey=True,
+    )
+    for n, (key, lbe) in enumerate((k, r) for r in refs for k in keys):
+        ax = axes[f"{key}|{lbe}"]
         problem = "poiseuille" if key == "G_P" else "thermal_creep"
         drawn = False
         for i, label, _lower, _upper in _wall_entries(walls):
@@ -654,16 +691,20 @@ def _model_error_figure(ds, section, settings):
                     )
         ax.axhline(1.0, **ps.reference("continuum"))
         ax.set_xscale("log")
-        ax.set_xlabel(ps.DELTA_LABEL)
-        if n == 0:
+        if lbe == refs[-1]:
+            ax.set_xlabel(ps.DELTA_LABEL)
+        if n % len(keys) == 0:
             ax.set_ylabel("model equation / linearized Boltzmann")
-        ax.set_title(f"${key}$, {ps.problem_text(problem)}", fontsize="medium")
+        title = f"${key}$, {ps.problem_text(problem)}"
+        ax.set_title(title if len(refs) == 1 else f"{title}\nagainst {model_text(lbe)}", fontsize="medium")
         if not drawn:
             ps.no_data(ax)
-    fig.suptitle(f"Plane channel: model equations against the {model_text(lbe)}", fontsize="medium")
-    handles, labels = _legend_handles(axes[keys[0]], walls, eqs, [("continuum", "equal to the Boltzmann value")])
+    against = model_text(refs[0]) if len(refs) == 1 else "linearized Boltzmann equation"
+    fig.suptitle(f"Plane channel: model equations against the {against}", fontsize="medium")
+    first = axes[f"{keys[0]}|{refs[0]}"]
+    handles, labels = _legend_handles(first, walls, eqs, [("continuum", "equal to the Boltzmann value")])
     if len(eqs) == 1:  # _legend_handles names the models only when there are several
-        handles.append(axes[keys[0]].plot([], [], ls="none", marker="o", color="0.35", **model_marker(eqs[0]))[0])
+        handles.append(first.plot([], [], ls="none", marker="o", color="0.35", **model_marker(eqs[0]))[0])
         labels.append(model_text(eqs[0]))
     ps.bottom_legend(fig, handles, labels, ncol=2)
     return fig
@@ -679,9 +720,12 @@ def _plain_wall(lower: dict, upper: dict | None) -> str:
 def _caption_context(ds, section: dict[str, Any]) -> dict[str, Any]:
     """Text pieces every caption uses: models, walls, the delta span."""
     walls = walls_by_label(section)
-    models = ", ".join(model_text(m) for m in section["models"])
+    models = ", ".join(model_text(m) for m in model_labels(section))
     if any(m in BOLTZMANN_MODELS for m in section["models"]):
-        models += " (mid-size filled markers with a black edge: the linearized Boltzmann equation)"
+        models += (
+            " (mid-size markers with a black edge: the linearized Boltzmann equation, filled for hard spheres, "
+            "white for VHS)"
+        )
     delta = ds["delta"].values.astype(float)
     return {
         "models": models,
@@ -709,9 +753,9 @@ def coefficient_captions(ds, section: dict[str, Any]) -> dict[str, str]:
             f"(reduced variables); the tables convert to Pa and SI flow rates for {', '.join(section['gases'])} at "
             f"{c['temperature']:g} K and a {c['gap']:g} m gap.",
         ]
-        if len(section["models"]) > 1:
+        if len(model_labels(section)) > 1:
             text.append(
-                f"Lower panel: difference of the models in percent of the {model_text(section['models'][0])} value."
+                f"Lower panel: difference of the models in percent of the {model_text(model_labels(section)[0])} value."
             )
         if key == "G_P":
             text.append(
@@ -778,21 +822,26 @@ def model_error_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     from knudsweep.report import relative_error_sentence, status_sentence
 
     ctx = _caption_context(ds, section)
-    lbe, eqs, keys = model_error_pairs(section)
+    refs, eqs, keys = model_error_pairs(section)
     eq_text = ", ".join(model_text(m) for m in eqs)
+    ref_text = ", ".join(model_text(r) for r in refs)
     text = [
         f"Model error of the kinetic model equations ({eq_text}): their reduced flow rates "
-        f"{' and '.join(keys)} divided by the solution of the {model_text(lbe)} equation at the same delta and "
-        f"walls, against delta ({ctx['span']}); one panel per flow rate. Colour and marker: wall "
+        f"{' and '.join(keys)} divided by the solution of the linearized Boltzmann equation ({ref_text}; VHS with "
+        f"the gas's viscosity index omega) at the same delta and walls, against delta ({ctx['span']}); one panel "
+        "per flow rate and Boltzmann operator. Colour and marker: wall "
         f"({ctx['wall_list']}); marker fill: model equation. The dotted line at 1 is agreement; delta uses the "
         "gas's viscosity in every model, so the ratios tend to 1 as delta -> 0 (slowly, like 1/ln delta, between "
         "plates). Error bars: the discretisation error estimates of both solutions, added (usually smaller than "
         "the markers).",
     ]
-    for key in keys:
-        problem = "poiseuille" if key == "G_P" else "thermal_creep"
-        text.append(relative_error_sentence(ds, key, {"problem": problem, "model": lbe}, f"{key} ({model_text(lbe)})"))
-    text.append(status_sentence(ds, {"model": lbe}))
+    for lbe in refs:
+        for key in keys:
+            problem = "poiseuille" if key == "G_P" else "thermal_creep"
+            text.append(
+                relative_error_sentence(ds, key, {"problem": problem, "model": lbe}, f"{key} ({model_text(lbe)})")
+            )
+        text.append(status_sentence(ds, {"model": lbe}))
     return {"plane_channel_model_error_vs_delta": "\n\n".join(text)}
 
 
