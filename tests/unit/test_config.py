@@ -4,6 +4,7 @@ from pathlib import Path
 
 import pytest
 import yaml
+from precision import ROUND_OFF_FORMULA
 
 from knudsweep.config import (
     SCHEMA_FILE,
@@ -109,7 +110,9 @@ def test_missing_study_file_and_bad_yaml(tmp_path):
 
 def test_log_spaced_axis_includes_both_ends():
     values = axis_values("delta", {"start": 0.01, "stop": 100, "num": 5})
-    assert values[0] == pytest.approx(0.01, rel=1e-15) and values[-1] == pytest.approx(100, rel=1e-15)
+    assert values[0] == pytest.approx(0.01, rel=ROUND_OFF_FORMULA) and values[-1] == pytest.approx(
+        100, rel=ROUND_OFF_FORMULA
+    )
     assert len(values) == 5
 
 

@@ -11,6 +11,7 @@ import math
 
 import numpy as np
 import pytest
+from precision import DISCRETISATION, ROUND_OFF, ROUND_OFF_FORMULA, ROUND_OFF_SUM
 from scipy.integrate import quad
 from scipy.special import gamma, gammaincc, roots_hermite
 
@@ -23,6 +24,15 @@ from knudsweep.solver.quadrature import (
     log_linear_half_range,
     shifted_half_range_hermite,
 )
+
+# Inner panels of the graded rule are Gauss-Legendre on exp(-x^2) x^k, 4 points per panel, 2 panels per decade:
+# moments measured ~1e-8 off; the bound leaves margin.
+GRADED_MOMENT_RTOL = 1e-6
+# Composite Gauss-Legendre (4 points) plus the exact outer Gauss rule of the log-linear rule: moments measured < 1e-9
+# off; the bound leaves margin.
+LOG_LINEAR_MOMENT_RTOL = 1e-7
+# Ray integrand at the density of the tube's 16-speed default (2 panels per unit of t): the accuracy asked of it.
+TUBE_SPEED_RULE_ERROR = 1e-6
 
 
 def half_moment(k: int) -> float:
@@ -37,7 +47,7 @@ def test_half_range_hermite_exact_up_to_degree_2n_minus_1(n):
     rel = [abs((w * x**k).sum() / half_moment(k) - 1) for k in range(2 * n)]
     # all terms are positive, so the sum carries only rounding: a few ulp per
     # node and per power of x; 1e-12 leaves room for n = 64, degree 127.
-    assert max(rel) < 1e-12
+    assert max(rel) < ROUND_OFF
 
 
 def test_half_range_hermite_is_not_exact_beyond_degree_2n_minus_1():
@@ -50,8 +60,8 @@ def test_half_range_hermite_is_not_exact_beyond_degree_2n_minus_1():
 def test_two_node_rule_against_hand_formula():
     # For n = 1 the node is the mean of the weight: (1/2) / (sqrt(pi)/2) = 1/sqrt(pi).
     x, w = half_range_hermite(1)
-    assert x[0] == pytest.approx(1 / math.sqrt(math.pi), rel=1e-14)
-    assert w[0] == pytest.approx(math.sqrt(math.pi) / 2, rel=1e-14)
+    assert x[0] == pytest.approx(1 / math.sqrt(math.pi), rel=ROUND_OFF_FORMULA)
+    assert w[0] == pytest.approx(math.sqrt(math.pi) / 2, rel=ROUND_OFF_FORMULA)
 
 
 @pytest.mark.parametrize("b", [0.3, 1.0, 2.5])
@@ -61,8 +71,8 @@ def test_shifted_rule_moments(b):
     assert x[0] > b
     for k in range(2 * n):
         exact = gamma((k + 1) / 2) * gammaincc((k + 1) / 2, b * b) / 2
-        # same rounding argument as above; 1e-12
-        assert (w * x**k).sum() == pytest.approx(exact, rel=1e-12)
+        # same rounding argument as above
+        assert (w * x**k).sum() == pytest.approx(exact, rel=ROUND_OFF)
 
 
 def test_full_range_mirror_matches_hermite_moments_and_sign_function():
@@ -70,15 +80,15 @@ def test_full_range_mirror_matches_hermite_moments_and_sign_function():
     xh, wh = roots_hermite(10)  # independent full-range Gauss-Hermite rule (scipy)
     for k in range(0, 19, 2):
         exact = gamma((k + 1) / 2)
-        assert (w * x**k).sum() == pytest.approx(exact, rel=1e-12)
-        assert (wh * xh**k).sum() == pytest.approx(exact, rel=1e-12)
+        assert (w * x**k).sum() == pytest.approx(exact, rel=ROUND_OFF)
+        assert (wh * xh**k).sum() == pytest.approx(exact, rel=ROUND_OFF)
     # odd moments vanish by symmetry
-    assert abs((w * x**5).sum()) < 1e-12
+    assert abs((w * x**5).sum()) < ROUND_OFF
     # a function with a jump at 0 (what a wall produces) is still integrated
     # exactly by the mirrored rule, not by the full-range Gauss-Hermite rule.
     f = lambda c: np.where(c > 0, c, 0.0)  # noqa: E731
     exact = half_moment(1)
-    assert (w * f(x)).sum() == pytest.approx(exact, rel=1e-13)
+    assert (w * f(x)).sum() == pytest.approx(exact, rel=ROUND_OFF_SUM)
     assert abs((wh * f(xh)).sum() / exact - 1) > 1e-4
 
 
@@ -88,9 +98,7 @@ def test_graded_rule_moments_and_grazing_integrand():
     assert np.all(np.diff(x) > 0) and x[0] > 0 and np.all(w > 0)
     assert x[0] < 1e-6
     for k in range(8):
-        # inner panels are Gauss-Legendre on exp(-x^2) x^k; 4 points per panel,
-        # 2 panels per decade: measured ~1e-8, tolerance 1e-6 leaves margin.
-        assert (w * x**k).sum() == pytest.approx(half_moment(k), rel=1e-6)
+        assert (w * x**k).sum() == pytest.approx(half_moment(k), rel=GRADED_MOMENT_RTOL)
     # The integrand of the channel flow rate at small rarefaction parameter d:
     # (1 - exp(-d/x)) / d, which is ~1/d below x ~ d and ~1/x above.
     for d in (1e-4, 1e-3, 1e-2):
@@ -100,9 +108,9 @@ def test_graded_rule_moments_and_grazing_integrand():
             quad(f, a, b, limit=200, epsabs=0, epsrel=1e-12)[0] for a, b in zip(cuts[:-1], cuts[1:], strict=True)
         )
         approx = (w * -np.expm1(-d / x) / d).sum()
-        # measured 4e-5 with these panel settings; 1e-4 is the accuracy the
+        # measured 4e-5 with these panel settings; DISCRETISATION is the accuracy the
         # solver defaults are chosen for.
-        assert approx == pytest.approx(exact, rel=1e-4)
+        assert approx == pytest.approx(exact, rel=DISCRETISATION)
         # the plain half-range rule of similar size misses it badly
         xh, wh = half_range_hermite(x.size)
         if d <= 1e-3:
@@ -113,9 +121,7 @@ def test_log_linear_rule_moments_and_regular_convergence_on_ray_integrands():
     x, w = log_linear_half_range(2.0, 1e-3, split=1.0, slope=1.0, points_per_panel=4, n_outer=8)
     assert np.all(np.diff(x) > 0) and x[0] > 0 and np.all(w > 0)
     for k in range(8):
-        # composite Gauss-Legendre (4 points) plus the exact outer Gauss rule:
-        # measured < 1e-9; 1e-7 leaves margin
-        assert (w * x**k).sum() == pytest.approx(half_moment(k), rel=1e-7)
+        assert (w * x**k).sum() == pytest.approx(half_moment(k), rel=LOG_LINEAR_MOMENT_RTOL)
     # The tube/duct speed integrand of a ray of optical length k:
     # int_0^inf c exp(-c^2) exp(-k/c) dc, which varies on the scale c ~ k.
     for k in (1e-3, 1e-2, 0.1, 0.5):
@@ -131,9 +137,9 @@ def test_log_linear_rule_moments_and_regular_convergence_on_ray_integrands():
         # every panel narrows when the density doubles, so the error falls by a
         # large factor per doubling (order 8 for smooth integrands: 256 per
         # doubling asymptotically; 8 is asked, well short of that)
-        assert errors[1] < errors[0] / 8 or errors[1] < 1e-12
-        assert errors[2] < errors[1] / 8 or errors[2] < 1e-12
-        assert errors[1] < 1e-6  # the density of the tube's 16-speed default (2 per unit of t)
+        assert errors[1] < errors[0] / 8 or errors[1] < ROUND_OFF
+        assert errors[2] < errors[1] / 8 or errors[2] < ROUND_OFF
+        assert errors[1] < TUBE_SPEED_RULE_ERROR
 
 
 @pytest.mark.parametrize(

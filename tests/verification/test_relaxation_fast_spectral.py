@@ -19,6 +19,7 @@ import math
 
 import numpy as np
 import pytest
+from precision import ROUND_OFF_FORMULA, ROUND_OFF_SUM
 
 from knudsweep.solver import gas
 from knudsweep.solver.relaxation import deterministic as det
@@ -27,6 +28,21 @@ from knudsweep.solver.relaxation.bkw import BKW_FIRST_TIME, bkw_density, bkw_fou
 from knudsweep.solver.relaxation.cross_sections import MolecularModel, molecular_model
 from knudsweep.solver.relaxation.h_function import _relative_entropy_grid, equiprobable_edges
 from knudsweep.solver.relaxation.initial_states import initial_density_on_grid, make_initial_state
+
+# The collision operator on the exact BKW distribution, N = 32, box 10: measured 1e-4 (16: 3e0, 24: 7e-3); the floor
+# is the rank-4 radial expansion.
+BKW_OPERATOR_ERROR_32 = 3e-4
+# Stress and heat-flux rates of Maxwell molecules on a two-beam state, N = 32: spectral error measured ~3e-4.
+MAXWELL_RATE_ERROR_32 = 2e-3
+# Round-off of the H sum f ln(f/M_d) w over 1.4e4 nodes with terms <= 1e-2: ~1e-15.
+H_SUM_ROUND_OFF = 1e-15
+# H on the coarse mild-VSS run stops near 3e-4 of its start (spectral error in the tails of the box).
+H_FLOOR_COARSE = 1e-3
+# Binned H of an anisotropic Gaussian start on the 32^3 grid: measured 1.3e-3 off the closed form.
+BINNED_H_START_ERROR = 3e-3
+# BKW on the default grid (N = 32, L = 10, dt = 0.2): the requirement of the issue that added the method; measured
+# 3e-6 (<c^4>) and 2e-5 (distribution).
+BKW_DEFAULT_GRID_ERROR = 1e-4
 
 MAXWELL = MolecularModel("maxwell", 1.0, 1.0)
 ARGON = gas.get_gas("Ar")
@@ -66,7 +82,7 @@ def test_bkw_operator_converges_spectrally_in_the_grid():
     errs = [_operator_error(n)[0] for n in (16, 24, 32)]
     assert errs[1] < errs[0] / 100.0
     assert errs[2] < errs[1] / 20.0
-    assert errs[2] < 3e-4
+    assert errs[2] < BKW_OPERATOR_ERROR_32
 
 
 def test_maxwell_molecules_stress_and_heat_flux_rates_are_exact():
@@ -74,7 +90,7 @@ def test_maxwell_molecules_stress_and_heat_flux_rates_are_exact():
     # dq/dt = -(2/3)(p/mu) q for ANY f, so the instantaneous rates of the
     # discrete operator on a two-beam state test them directly.  The remaining
     # error is the spectral error of the operator on this grid (measured
-    # ~3e-4 at N = 32 for this state), so 2e-3 is the bar.
+    # ~3e-4 at N = 32 for this state).
     state = make_initial_state("two_beams", beam_separation=1.5, beam_fraction=0.3)
     grid = det.make_grid(32, fs.spectral_half_width(state))
     op = fs.build_operator(MAXWELL, grid)
@@ -83,14 +99,14 @@ def test_maxwell_molecules_stress_and_heat_flux_rates_are_exact():
     fs.set_equilibrium(op, det.discrete_target(0, f, v, w))
     q = fs.collision(f, op)
     p_over_mu = MAXWELL.pressure_over_viscosity
-    assert p_over_mu == pytest.approx(0.5, rel=1e-15)  # (7-2)(5-2)/30, cross_sections.py
+    assert p_over_mu == pytest.approx(0.5, rel=ROUND_OFF_FORMULA)  # (7-2)(5-2)/30, cross_sections.py
     c2 = np.sum(v * v, axis=1)
     stress = np.sum(f * (v[:, 0] ** 2 - c2 / 3.0)) * w
     dstress = np.sum(q * (v[:, 0] ** 2 - c2 / 3.0)) * w
     heat = np.sum(f * 0.5 * c2 * v[:, 0]) * w
     dheat = np.sum(q * 0.5 * c2 * v[:, 0]) * w
-    assert -dstress / stress == pytest.approx(p_over_mu, rel=2e-3)
-    assert -dheat / heat == pytest.approx(2.0 / 3.0 * p_over_mu, rel=2e-3)
+    assert -dstress / stress == pytest.approx(p_over_mu, rel=MAXWELL_RATE_ERROR_32)
+    assert -dheat / heat == pytest.approx(2.0 / 3.0 * p_over_mu, rel=MAXWELL_RATE_ERROR_32)
 
 
 @pytest.mark.parametrize(
@@ -107,8 +123,8 @@ def test_maxwellian_stays_maxwellian(model):
     data = fs.run_fast_spectral(model, state, grid, 0.5, 5, 3, EDGES, keep_distribution=True, **SMALL)
     v = grid.nodes()
     m = det.normalise_initial(initial_density_on_grid(state, v[:, 0], v[:, 1], v[:, 2]), v, grid.weight)
-    assert np.max(np.abs(data["final_distribution"] - m)) < 1e-13 * m.max()
-    assert np.max(np.abs(data["h_fine"])) < 1e-13
+    assert np.max(np.abs(data["final_distribution"] - m)) < ROUND_OFF_SUM * m.max()
+    assert np.max(np.abs(data["h_fine"])) < ROUND_OFF_SUM
 
 
 @pytest.fixture(scope="module")
@@ -137,19 +153,19 @@ def test_conservation_to_round_off(mild_vss):
     assert op.rank > 1
     # The projection leaves C Q = 0 up to the round-off of a sum over 1.4e4
     # nodes (~1e-16 relative each); 48 steps of 3 stages accumulate < 1e-13.
-    assert np.max(np.abs(rec[:, 0] - 1.0)) < 1e-13
-    assert np.max(np.abs(rec[:, 1:4])) < 1e-13
-    assert np.max(np.abs(rec[:, 4] - 1.5)) < 1e-13
+    assert np.max(np.abs(rec[:, 0] - 1.0)) < ROUND_OFF_SUM
+    assert np.max(np.abs(rec[:, 1:4])) < ROUND_OFF_SUM
+    assert np.max(np.abs(rec[:, 4] - 1.5)) < ROUND_OFF_SUM
 
 
 def test_h_never_increases(mild_vss):
     _, _, h, _ = mild_vss
     # H-theorem; the bound is the round-off of the sum f ln(f/M_d) w over 1.4e4
     # nodes (terms <= 1e-2, relative error 1e-16 each, ~1e-15 in total).
-    assert np.all(np.diff(h) <= 1e-15)
+    assert np.all(np.diff(h) <= H_SUM_ROUND_OFF)
     # it does relax; on this coarse grid and angular set H stops near 3e-4 of its start
-    # (spectral error deposited in the tails of the box, see the module notes): bar 1e-3
-    assert h[-1] < 1e-3 * h[0]
+    # (spectral error deposited in the tails of the box, see the module notes)
+    assert h[-1] < H_FLOOR_COARSE * h[0]
 
 
 def test_negative_values_are_small(mild_vss):
@@ -212,7 +228,7 @@ def test_binned_h_of_the_start_matches_the_closed_form():
     state = make_initial_state("anisotropic", (1.8, 0.6, 0.6))
     grid = det.make_grid(32, fs.spectral_half_width(state))
     d = fs.run_fast_spectral(MAXWELL, state, grid, 0.01, 1, 2, edges, **SMALL)
-    assert abs(d["h_function"][0, 0] / exact - 1.0) < 3e-3
+    assert abs(d["h_function"][0, 0] / exact - 1.0) < BINNED_H_START_ERROR
 
 
 def test_unresolved_points_fail_with_a_reason(monkeypatch):
@@ -237,18 +253,16 @@ def test_unresolved_points_fail_with_a_reason(monkeypatch):
 @pytest.mark.slow
 def test_bkw_on_the_default_grid():
     # Default grid N = 32, box L = 10 (spectral_half_width), default angular and
-    # radial sets, dt = 0.2.  Bar 1e-4 relative (the issue's requirement) for
-    # <c^4>(t) and for the distribution (max error over max f); measured 3e-6
-    # and 2e-5.
+    # radial sets, dt = 0.2: <c^4>(t) and the distribution (max error over max f) within BKW_DEFAULT_GRID_ERROR.
     state = make_initial_state("bkw")
     grid = det.make_grid(32, fs.spectral_half_width(state))
     n_out, dt, steps = 4, 0.2, 4
     d = fs.run_fast_spectral(MAXWELL, state, grid, dt, steps, n_out, EDGES, keep_distribution=True)
     times = BKW_FIRST_TIME + np.arange(n_out) * dt * steps
-    assert np.max(np.abs(d["fourth_moment"][0] / bkw_fourth_moment(times) - 1.0)) < 1e-4
+    assert np.max(np.abs(d["fourth_moment"][0] / bkw_fourth_moment(times) - 1.0)) < BKW_DEFAULT_GRID_ERROR
     v = grid.nodes()
     exact = bkw_density(np.sqrt(np.sum(v * v, axis=1)), times[-1])
-    assert np.max(np.abs(d["final_distribution"] - exact)) < 1e-4 * exact.max()
+    assert np.max(np.abs(d["final_distribution"] - exact)) < BKW_DEFAULT_GRID_ERROR * exact.max()
     assert np.all(np.diff(d["h_fine"]) < 0.0)
 
 
