@@ -17,6 +17,7 @@ import zipfile
 from pathlib import Path
 
 import pytest
+from precision import ITERATION
 
 REPO = Path(__file__).resolve().parents[2]
 
@@ -85,11 +86,12 @@ def test_installed_wheel_solves_a_point_outside_the_checkout(wheel, tmp_path):
     )
     assert out.returncode == 0, out.stderr
     record = json.loads(out.stdout)
-    # G_P(delta = 1), plane channel, BGK, diffuse walls: the value the checkout gives
+    # G_P(delta = 1), plane channel, BGK, diffuse walls: the value the checkout gives (the CLI accelerates, the
+    # Python default iterates plainly: the same fixed point, measured 3e-10 apart)
     from knudsweep.solver.plane_channel import solve_plane_channel
 
     assert record["coefficients"]["G_P"] == pytest.approx(
-        solve_plane_channel("poiseuille", delta=1.0).coefficient("G_P"), rel=1e-5
+        solve_plane_channel("poiseuille", delta=1.0).coefficient("G_P"), rel=ITERATION
     )
 
 
