@@ -42,17 +42,19 @@ Gaussian-weighted integrand.  quad reaches round-off on these (measured <= 9e-16
 
 # --- the solver's own iteration tolerance carried into a coefficient ----------------------------------------------
 ITERATION = 1e-6
-"""Two solves of the same discrete equations (plain and accelerated iteration, or two stopping points) that each stop
-when the estimated remaining change is below tol = 1e-8 (knudsweep.solver.iteration: e rho/(1-rho) < tol).  The
-estimate can be fooled by a small factor (Anderson mixing: 1.5e-8 left at tol 1e-8, DEVELOPERS.md), and a coefficient
-sums many unknowns: 1e-6 leaves a factor 100 over tol.  Common practice, no source."""
+"""Two solves of the same discrete equations (plain and accelerated iteration, or two stopping points), each stopped
+when the estimated remaining change is below its tol (knudsweep.solver.iteration: e rho/(1-rho) < tol; 1e-8 by
+default, 1e-10 to 1e-12 in the comparisons).  Both approach the same discrete fixed point, so they differ by the
+remaining iteration error, which the estimate can miss by a small factor (Anderson mixing: 1.5e-8 left at tol 1e-8,
+DEVELOPERS.md).  1e-6 is the agreement asked of every acceleration (DEVELOPERS.md, "A geometry"), 100x the default
+tol.  Common practice, no source."""
 
 # --- discretisation error of the default grid ---------------------------------------------------------------------
 DISCRETISATION = 1e-4
 """An identity of the continuous equations checked on the default grid, where each side carries its own truncation
 error (Onsager reciprocity Q_P = G_T: the two problems are solved on the same grid but with different right-hand
-sides; measured differences <= 2e-5 with 100 cells).  Default grids are set to 1e-4-level accuracy in the
-coefficients (DEVELOPERS.md, numerics notes).  Common practice, no source."""
+sides; measured differences <= 2e-5 with 100 cells), or a quadrature at the density the solver defaults use
+(the accuracy they are chosen for, tests/unit/test_quadrature.py).  Common practice, no source."""
 
 ASYMPTOTIC = 1e-3
 """A finite-delta solve against a limit (free molecular, continuum, slip): the neglected terms of the expansion
@@ -66,8 +68,9 @@ probability 5.7e-7 (two-sided normal tail).  Common practice, no source."""
 
 # --- estimate honesty ---------------------------------------------------------------------------------------------
 HONEST = 3.0
-"""An a-posteriori discretisation error estimate is honest when the actual error against a much finer reference is at
-most HONEST times the estimate.  The acceptance bound of the project brief; common practice, no source."""
+"""An a-posteriori error estimate (a discretisation error estimate, or a fitted time's stated uncertainty) is honest
+when the actual error, against a much finer reference or an exact value, is at most HONEST times the estimate.  The
+acceptance bound of the project brief; common practice, no source."""
 
 # --- published tables ---------------------------------------------------------------------------------------------
 # No single constant: a value read from a table is known to half a unit of its last printed digit, so each check
