@@ -190,3 +190,10 @@ def test_cli_solves_a_vhs_point_for_a_gas(capsys):
     with pytest.raises(SystemExit) as info:
         main([*argv[:4], "Xx", *argv[5:]])
     assert info.value.code == 2 and capsys.readouterr().err.startswith("knudsweep: error: --gas: unknown gas 'Xx'")
+
+
+def test_point_cost_of_a_vhs_point():
+    pts = {(p.values["model"], p.values.get("gas")): p for p in FAMILY.points(SECTION) if p.values["delta"] == 1.0}
+    hs = FAMILY.point_cost(pts["boltzmann_hard_sphere", None].values)
+    # VHS argon needs 10-20 % more iterations than hard spheres (grid.VHS_FACTOR, benchmarks/bench_boltzmann_channel.py)
+    assert FAMILY.point_cost(pts["boltzmann_vhs", "Ar"].values) == pytest.approx(grid.VHS_FACTOR * hs)
