@@ -9,17 +9,20 @@ from __future__ import annotations
 import math
 
 import numpy as np
+from scipy.interpolate import PchipInterpolator
 from scipy.optimize import brentq
 
 from knudsweep.solver.resolution import nested_ladder
 
 MAX_ASPECT_RATIO = 50.0
 SPACE_MAX = 400  # largest accepted n_space (nodes across the half height)
-WALL_CELL = 0.1  # first cell at the wall, in free paths (see clustered)
-MAX_CELL = 2.0  # largest cell, in units of the uniform spacing (see clustered)
+WALL_CELL = 0.1  # first cell of the grid's shape at the wall, in free paths (see graded_shape)
+MAX_CELL = 2.0  # largest cell of the shape, in units of the uniform spacing (see graded_shape)
+SHAPE_INTERVALS = 40  # intervals across the half height of the shape that clustered maps
 # Error reduction per ladder step assumed by the Richardson estimate
 # (knudsweep.solver.resolution): second-order upwind, first order next to the
-# walls; measured 2.7 to 3.3 per step (A = 2, BGK, diffuse, delta = 1, G_P).
+# walls; measured 2.7 to 3.3 per step (A = 2, BGK, diffuse, delta = 1, G_P) and 3.6 to 5.5
+# (A = 1, delta = 5 to 1000, on the mapped grid of clustered); the smaller value is kept.
 ASSUMED_RATIO = 3.0
 # Cap of the accuracy ladder: unknowns 4 n_angle n_speed n_y n_z of one
 # distribution array (four such float arrays are kept: 1.2e7 -> ~400 MB).
@@ -30,15 +33,34 @@ BYTES_PER_UNKNOWN = 20
 
 
 def clustered(n: int, length: float, delta: float = 0.0) -> np.ndarray:
-    """n nodes on [0, length], graded towards the wall x = 0.
+    """n nodes on [0, length], graded towards the wall x = 0: a fixed map of uniform nodes.
 
-    Cells grow geometrically from WALL_CELL / delta (a tenth of the free path
-    ell = H / delta, in units of H) through the Knudsen layer, which carries
-    the thermal-creep drive at large delta, and are capped at MAX_CELL times
-    the uniform spacing in the core, where the Poiseuille profile needs them;
-    the growth factor is chosen so that the n - 1 cells fill the length.
-    Uniform when the first cell would exceed the uniform spacing.  Measured
-    (square duct, BGK): see default_sizes.
+    The map x(s), s in [0, 1], does not depend on n: it is the monotone cubic
+    (PCHIP; Fritsch & Carlson, SIAM J. Numer. Anal. 17 (1980) 238) through the
+    nodes of :func:`graded_shape` at SHAPE_INTERVALS (1 + log2(2 length)/2)
+    intervals, evaluated at n uniform s.  Every cell, the wall cell included,
+    therefore shrinks as 1/(n - 1) when n grows, and the discretisation error
+    falls as (n - 1)^-2 (measured in tests/verification/test_duct_flow.py), which
+    is what the Richardson estimate of knudsweep.solver.resolution assumes.
+    """
+    n_shape = 1 + int(round(SHAPE_INTERVALS * (1.0 + 0.5 * math.log2(max(2.0 * length, 1.0)))))
+    shape = graded_shape(n_shape, length, delta)
+    if n == n_shape:
+        return shape
+    x = PchipInterpolator(np.linspace(0.0, 1.0, n_shape), shape)(np.linspace(0.0, 1.0, n))
+    x[0], x[-1] = 0.0, length
+    return x
+
+
+def graded_shape(n: int, length: float, delta: float) -> np.ndarray:
+    """The shape of :func:`clustered`: n nodes whose cells grow geometrically away from x = 0.
+
+    Cells grow from WALL_CELL / delta (a tenth of the free path ell = H / delta,
+    in units of H) through the Knudsen layer, which carries the thermal-creep
+    drive at large delta, and are capped at MAX_CELL times the uniform spacing
+    in the core, where the Poiseuille profile needs them; the growth factor is
+    chosen so that the n - 1 cells fill the length.  Uniform when the first
+    cell would exceed the uniform spacing.
     """
     uniform = length / (n - 1)
     h0 = WALL_CELL / delta if delta > 0.0 else math.inf
@@ -106,12 +128,13 @@ def angle_rule(n_angle: int, aspect_ratio: float, delta: float):
 def default_sizes(delta: float, aspect_ratio: float) -> tuple[int, int, int, int]:
     """(nodes across the half height, across the half width, angles per quadrant, speeds).
 
-    Nodes across the half height: 25 up to delta = 0.5, 41 up to 100, 81
-    above (the graded grid of :func:`clustered` resolves the thermal-creep
-    Knudsen layer; the grid study in tests/verification/test_duct_flow.py
-    checks the resulting accuracy); across the half width n (1 + log2(A)/2).
+    Nodes across the half height: 25 up to delta = 0.5, 41 up to 2, 81 up to
+    50, 161 above, so that G_P and G_T are within 0.1 % and every coefficient's
+    coarse level (every other node) already converges as n^-2, which keeps the
+    estimate honest (tests/verification/test_duct_flow.py measures both against
+    finer grids); across the half width n (1 + log2(A)/2).
     """
-    ny = 25 if delta <= 0.5 else (41 if delta <= 100 else 81)
+    ny = 25 if delta <= 0.5 else 41 if delta <= 2.0 else 81 if delta <= 50.0 else 161
     nz = int(round(ny * (1.0 + 0.5 * math.log2(aspect_ratio))))
     return ny, nz, 6, 12
 
