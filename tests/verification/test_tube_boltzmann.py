@@ -246,15 +246,17 @@ def test_convergence_in_each_resolution(delta):
 
 
 @pytest.mark.slow
+@pytest.mark.parametrize("molecule,omega", [("hard_sphere", None), ("vhs", 0.81)])
 @pytest.mark.parametrize("problem", ["poiseuille", "thermal_creep"])
-def test_slip_asymptote_with_plane_channel_slip_coefficients(problem):
+def test_slip_asymptote_with_plane_channel_slip_coefficients(problem, molecule, omega):
     """Large delta, Navier-Stokes with first-order slip (check-values.md 0.3):
 
     poiseuille: tube G_P = delta/4 + sigma_P + b/delta, plane channel G_P = delta/6 + sigma_P + b'/delta;
     thermal creep: the slip velocity u = sigma_T X_T / (2 delta) (u_s = sigma_T mu/(rho T) dT/dx in our units,
     rho = 2 p / v0^2) is a plug flow in both, so delta G_T = sigma_T + b''/delta in the tube (4 int u r dr = 2 u)
-    and in the plane channel (2 int u dy = 2 u).  sigma_P, sigma_T of hard spheres come from the plane-channel
-    linearized-Boltzmann solver (the same operator), not from memory.
+    and in the plane channel (2 int u dy = 2 u).  sigma_P, sigma_T of hard spheres and of VHS molecules with
+    omega = 0.81 (argon-like) come from the plane-channel linearized-Boltzmann solver (the same operator), not from
+    memory.
     """
     name = NAMES[problem][0]
 
@@ -268,19 +270,22 @@ def test_slip_asymptote_with_plane_channel_slip_coefficients(problem):
 
     plane = {
         d: reduced(
-            solve_plane_channel_boltzmann(problem, delta=d, n_velocity=6, tol=1e-11, error_estimate=False).coefficient(
-                name
-            ),
+            solve_plane_channel_boltzmann(
+                problem, delta=d, molecule=molecule, omega=omega, n_velocity=6, tol=1e-11, error_estimate=False
+            ).coefficient(name),
             d,
             "plane",
         )
         for d in (50.0, 100.0)
     }
-    tube = {d: reduced(fixed(problem, d, 81, 8, tol=1e-11).coefficient(name), d, "tube") for d in (25.0, 50.0, 100.0)}
+    tube = {
+        d: reduced(fixed(problem, d, 81, 8, tol=1e-11, molecule=molecule, omega=omega).coefficient(name), d, "tube")
+        for d in (25.0, 50.0, 100.0)
+    }
     sigma_plane = extrapolate(plane, 50.0, 100.0)
     sigma_tube = extrapolate(tube, 50.0, 100.0)
     sigma_tube_low = extrapolate(tube, 25.0, 50.0)
-    print(f"\n{problem}: slip coefficient from the plane channel {sigma_plane:.5f}, tube {sigma_tube:.5f} "
+    print(f"\n{problem} {molecule}: slip coefficient from the plane channel {sigma_plane:.5f}, tube {sigma_tube:.5f} "
           f"(from delta 25, 50: {sigma_tube_low:.5f})")  # fmt: skip
     # the O(1/delta^2) remainder of the tube extrapolation is bounded by the change between the (25, 50) and
     # (50, 100) extrapolations; the plane channel's remainder is 2e-4 (its own slip test); the tube's radial grid:
