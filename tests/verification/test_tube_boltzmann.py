@@ -133,7 +133,7 @@ def test_bgk_operator_in_new_code_matches_model_tube_solver(alpha):
 
 
 @pytest.mark.slow
-@pytest.mark.parametrize("delta", [0.1, 10.0, 100.0])
+@pytest.mark.parametrize("delta", [0.01, 0.1, 10.0, 100.0])
 @pytest.mark.parametrize("problem", ["poiseuille", "thermal_creep"])
 def test_bgk_operator_in_new_code_matches_model_tube_solver_over_delta(problem, delta):
     _against_model_tube(problem, delta)
