@@ -29,11 +29,9 @@ rule inside its compiled loop (``plane_channel.kernels.source_iteration``).
 
 Acceleration (synthetic; accelerated and plain iterations converge to the
 same discrete solution, the plain one needs up to thousands of times more
-sweeps at large delta) is on by default for tube, duct and the
-linearized-Boltzmann plane channel.  ``solve_plane_channel`` keeps plain
-iteration as its default: through it the linearized-Boltzmann model would
-otherwise change its Q_P by more than the tolerance (its accelerated
-iteration stops on the velocity change only; see that function).
+sweeps at large delta) is on by default for every geometry and model; the
+accelerated linearized-Boltzmann iteration stops on the larger change of
+velocity and heat flux.
 MAX_ITER_ACCELERATED and MAX_ITER_PLAIN are the default caps.
 """
 

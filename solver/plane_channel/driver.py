@@ -126,7 +126,7 @@ def solve_plane_channel(
     n_velocity: int | None = None,
     max_iter: int | None = None,
     tol: float = 1e-8,
-    accelerate: bool = False,
+    accelerate: bool = True,
     accuracy: float | None = None,
     error_estimate: bool = True,
 ) -> SolverResult:
@@ -148,11 +148,8 @@ def solve_plane_channel(
     tol : stop when the estimated relative error of the primary moment
         (velocity, or temperature for heat transfer) is below tol.
     accelerate : synthetic acceleration of the iteration (all four problems;
-        kernels._synthetic_step).  Default off here, unlike tube and duct
-        (``knudsweep.solver.iteration``): the linearized-Boltzmann path's
-        accelerated iteration stops on the velocity change only, and its Q_P
-        then differs from the plain answer by 1.4e-7 at tol 1e-8 (delta = 1,
-        measured), more than the tolerance; studies choose it per model.
+        kernels._synthetic_step); on by default, as for tube and duct
+        (``knudsweep.solver.iteration``).
     accuracy : relative accuracy asked of every coefficient, in [1e-6, 0.1];
         the resolution is then chosen by climbing grids.resolution_ladder
         until the Richardson estimate (knudsweep.solver.resolution) is below it
