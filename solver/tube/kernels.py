@@ -157,7 +157,7 @@ def sample_fields(nseg, jj, dr, coef_u, coef_q, coef_t, out):
 
 
 @njit(cache=True)
-def _exp_moments(x, out):
+def exp_moments(x, out):
     """out[n] = int_0^1 t^n exp(-x t) dt, n = 0..3; returns exp(-x).
 
     Taylor series for x < 0.5 (14 terms: remainder < 0.5^14/14! ~ 1e-15);
@@ -196,7 +196,7 @@ def _ray_integral(nseg, ds, fields, ray, i, m, cpsi, kappa, c, src, vinv, mom):
     k3d = src[10] + src[11] * c2
     for sg in range(nseg):
         d = ds[sg]
-        e = _exp_moments(kappa * d, mom)
+        e = exp_moments(kappa * d, mom)
         acc1 = 0.0
         acc3 = 0.0
         for p in range(4):

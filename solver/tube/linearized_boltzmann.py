@@ -61,7 +61,7 @@ from scipy.interpolate import CubicSpline
 from scipy.special import lpmv
 
 from knudsweep.solver.plane_channel import linearized_boltzmann as lb
-from knudsweep.solver.tube.kernels import _exp_moments
+from knudsweep.solver.tube.kernels import exp_moments
 
 MOLECULES = ("hard_sphere", "vhs", "bgk")
 SQRT_PI = math.sqrt(math.pi)
@@ -218,7 +218,7 @@ def _chord_integral(nseg, ds, jj, dr, cp, coef, c_perp, kappa, drive, vinv, src,
                         ((coef[mm, 0, j, v] * x + coef[mm, 1, j, v]) * x + coef[mm, 2, j, v]) * x + coef[mm, 3, j, v]
                     )
         for v in range(nv):
-            e = _exp_moments(kappa[v] * d, mom)
+            e = exp_moments(kappa[v] * d, mom)
             total = 0.0
             for p in range(4):
                 beta = vinv[0, p] * mom[0] + vinv[1, p] * mom[1] + vinv[2, p] * mom[2] + vinv[3, p] * mom[3]
