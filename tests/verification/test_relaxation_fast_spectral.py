@@ -19,7 +19,7 @@ import math
 
 import numpy as np
 import pytest
-from precision import ROUND_OFF_FORMULA, ROUND_OFF_SUM
+from precision import HONEST, ROUND_OFF_FORMULA, ROUND_OFF_SUM
 
 from knudsweep.solver import gas
 from knudsweep.solver.relaxation import deterministic as det
@@ -313,9 +313,9 @@ def test_relaxation_times_and_h_agree_with_dsmc(model_name):
         tau, u = ds.coefficient(f"{name}_relaxation_time"), ds.coefficient(f"{name}_relaxation_time_uncertainty")
         ref = sp.coefficient(f"{name}_relaxation_time")
         print(f"\n{model_name} {name}: DSMC {tau:.4f} +- {u:.4f}, fast spectral {ref:.4f}")
-        # 3 standard uncertainties (99.7 % for Gaussian errors); the fast spectral times'
+        # HONEST standard uncertainties (99.7 % for Gaussian errors); the fast spectral times'
         # own error (grid, angles, rank, dt: < 3e-4 relative, measured) is far below u
-        assert abs(tau - ref) <= 3.0 * u
+        assert abs(tau - ref) <= HONEST * u
         assert u <= (0.01 if name != "fourth_moment" else 0.04) * ref  # the check resolves the time
     # Late anisotropy time: window dependent for hard spheres (non-exponential decay), so the
     # deterministic curve is fitted on the DSMC window.
@@ -331,7 +331,7 @@ def test_relaxation_times_and_h_agree_with_dsmc(model_name):
         f"{model_name} late anisotropy on [{window['t_first']}, {window['t_last']}]: DSMC {tau:.4f} +- {u:.4f}, "
         f"fast spectral {ref:.4f}"
     )
-    assert abs(tau - ref) <= 3.0 * u
+    assert abs(tau - ref) <= HONEST * u
     # Mean DSMC H(t) within its noise band about the deterministic curve at every output time.
     # Band: 4 standard errors of the replica mean (41 correlated outputs; for Gaussian noise a
     # 4-sigma excursion anywhere has probability < 41 x 6e-5 = 0.3 %; measured max 2.5).  The
