@@ -49,6 +49,14 @@ def test_check_section_names_key():
         FAMILY.check_section({**SECTION, "methods": ["lattice"]})
 
 
+def test_bkw_default_start_time_rounded_by_the_schema_is_accepted():
+    # the schema's default and minimum are 6 ln 2.5 = 5.4977443... rounded down to 5.497744
+    section = {**SECTION, "initial_states": ["bkw"], "state_options": {"bkw_start_time": 5.497744}}
+    FAMILY.check_section(section)
+    with pytest.raises(ValueError, match="bkw_start_time"):
+        FAMILY.check_section({**section, "state_options": {"bkw_start_time": 5.0}})
+
+
 def test_tiny_sweep_end_to_end(tmp_path, monkeypatch):
     monkeypatch.chdir(tmp_path)
     pts = FAMILY.points(SECTION)

@@ -8,7 +8,6 @@ to the solver (``knudsweep.solver.relaxation``).
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
 from knudsweep.families import Family
@@ -61,7 +60,7 @@ class Relaxation(Family):
             axis_temperature_ratios=tuple(values["axis_temperature_ratios"]),
             beam_separation=values["beam_separation"],
             beam_fraction=values["beam_fraction"],
-            bkw_start_time=max(values["bkw_start_time"], 6.0 * math.log(2.5)),
+            bkw_start_time=grid.bkw_start_time(values["bkw_start_time"]),
         )
         if values["method"] == "dsmc":
             kw.update(n_particles=values["n_particles"], n_replicas=values["n_replicas"])
