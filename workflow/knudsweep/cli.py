@@ -66,10 +66,15 @@ def _positive(option: str, value):
 
 def _solve_values(args) -> tuple[str, dict]:
     """(family, point values as that family builds them) from the options."""
+    from knudsweep.families.tube_duct import BOLTZMANN_SHAPES
+
     if args.geometry == "plane_channel":
         from knudsweep.families.plane_channel import MODELS, PROBLEMS
-    else:
+    elif args.geometry in BOLTZMANN_SHAPES:
         from knudsweep.families.tube_duct import MODELS, PROBLEMS
+    else:  # the duct: model equations only
+        from knudsweep.families.tube_duct import MODEL_EQUATIONS as MODELS
+        from knudsweep.families.tube_duct import PROBLEMS
     from knudsweep.solver import gas as gasmod
 
     if args.problem not in PROBLEMS:
@@ -89,6 +94,11 @@ def _solve_values(args) -> tuple[str, dict]:
             raise CliError(
                 f"--problem: model {args.model} solves {', '.join(BOLTZMANN_PROBLEMS)} only, got {args.problem!r}"
             )
+        if args.model in BOLTZMANN_MODELS and args.wall_model != "maxwell":
+            raise CliError(f"--wall-model: model {args.model} takes maxwell only, got {args.wall_model!r}")
+    else:
+        from knudsweep.families.tube_duct import BOLTZMANN_MODELS
+
         if args.model in BOLTZMANN_MODELS and args.wall_model != "maxwell":
             raise CliError(f"--wall-model: model {args.model} takes maxwell only, got {args.wall_model!r}")
     if args.gas not in gasmod.known_gases():
@@ -246,9 +256,21 @@ def _tube_duct_values(args) -> dict:
         aspect = 1.0 if args.aspect_ratio is None else args.aspect_ratio
         _schema_number("--aspect-ratio", aspect, schema_node("tube_duct", "geometries", "items", "aspect_ratio"))
     _check_sizes(args)
+    if args.model in grid.BOLTZMANN_MODELS:
+        from knudsweep.solver.tube.boltzmann_driver import SPACE_RANGE, SPEED_RANGE
+
+        for opt, value, (low, high), what in (
+            ("--n-velocity", args.n_velocity, SPEED_RANGE, "speed nodes"),
+            ("--n-space", args.n_space, SPACE_RANGE, "radial nodes"),
+        ):
+            if value is not None and not low <= value <= high:
+                raise CliError(
+                    f"{opt}: got {value}; with --model {args.model} it counts {what}, allowed range is [{low}, {high}]"
+                )
     wall = _wall_values(args, args.alpha, args.alpha_t, args.alpha_n, "")
     resolution = {"n_space": args.n_space, "n_velocity": args.n_velocity, "tol": args.tol, "accuracy": None}
-    return grid.point_values(grid.geometry_of(args.geometry, aspect), args.problem, args.model, delta, wall, resolution)
+    geometry = grid.geometry_of(args.geometry, aspect)
+    return grid.point_values(geometry, args.problem, args.model, delta, wall, resolution, args.gas)
 
 
 def _plane_channel_values(args) -> dict:
@@ -655,7 +677,7 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument(
         "--model",
         default="bgk",
-        help=f"{', '.join(km.MODEL_NAMES)}; plane channel also "
+        help=f"{', '.join(km.MODEL_NAMES)}; plane channel and tube also "
         f"{', '.join(km.BOLTZMANN_MODELS)} (linearized Boltzmann, poiseuille and thermal_creep, Maxwell walls)",
     )
     s.add_argument(

@@ -313,6 +313,98 @@ def reject_repeats(key: str, labels: list[str]) -> None:
             raise ValueError(f"{key}[{i}]: repeats {key}[{labels.index(label)}] ({label})")
 
 
+# ---------------------------------------------------------------- gas-dependent collision operators
+# Shared by the channel families (plane_channel, tube_duct): a linearized Boltzmann model whose operator depends on
+# the gas (VHS: the viscosity index omega of config/gases.yaml) is solved once per gas of the section.
+
+
+def _gas_models() -> tuple[str, ...]:
+    from knudsweep.solver import kinetic_models
+
+    return tuple(m for m, molecule in kinetic_models.BOLTZMANN_MODELS.items() if molecule == "vhs")
+
+
+GAS_MODELS = _gas_models()
+
+
+def model_label(model: str, gas: str | None) -> str:
+    """Label of a model along the gathered ``model`` dimension: the model, or ``<model>-<gas>`` for GAS_MODELS."""
+    return model if gas is None else f"{model}-{gas}"
+
+
+def model_entries(section: dict[str, Any]) -> list[tuple[str, str, str | None]]:
+    """``[(label, model, gas-or-None), ...]`` in the order of the section's models (GAS_MODELS once per gas)."""
+    out = []
+    for model in section["models"]:
+        if model in GAS_MODELS:
+            out += [(model_label(model, gas), model, gas) for gas in section["gases"]]
+        else:
+            out.append((model, model, None))
+    return out
+
+
+def model_labels(section: dict[str, Any]) -> list[str]:
+    """Labels of the gathered ``model`` dimension (:func:`model_entries`)."""
+    return [label for label, _, _ in model_entries(section)]
+
+
+def gas_omega(gas: str) -> float:
+    """The VHS viscosity index omega of ``gas`` (config/gases.yaml, knudsweep.solver.gas), canonical."""
+    from knudsweep.identity import canonical
+    from knudsweep.solver.gas import get_gas
+
+    return canonical(get_gas(gas).omega)
+
+
+def required_keys(section: dict[str, Any]) -> dict[str, str]:
+    """Keys the study must give itself (their schema default is not enough), with the reason."""
+    gas_models = [m for m in section["models"] if m in GAS_MODELS]
+    if not gas_models:
+        return {}
+    return {
+        "gases": f"model {gas_models[0]} is solved for each gas with its viscosity index omega "
+        "(config/gases.yaml); list the gases, e.g. gases: [Ar]"
+    }
+
+
+def model_gas_coordinates(section: dict[str, Any]) -> dict[str, Any]:
+    """Extra coordinates along ``model`` when a model depends on the gas: its gas and viscosity index."""
+    entries = model_entries(section)
+    if not any(gas is not None for _, _, gas in entries):
+        return {}
+    return {
+        "extra": {
+            "model_gas": (
+                [gas or "" for _, _, gas in entries],
+                {"long_name": "gas of a gas-dependent collision operator (empty: the model does not depend on it)"},
+            ),
+            "omega": (
+                [gas_omega(gas) if gas is not None else float("nan") for _, _, gas in entries],
+                {"units": "1", "long_name": "VHS viscosity index omega of the gas (mu ~ T^omega)"},
+            ),
+        }
+    }
+
+
+def base_model(label: str) -> tuple[str, str | None]:
+    """(model, gas-or-None) of a label of the ``model`` dimension (``boltzmann_vhs-Ar`` -> boltzmann_vhs, Ar)."""
+    for model in GAS_MODELS:
+        if label.startswith(model + "-"):
+            return model, label[len(model) + 1 :]
+    return label, None
+
+
+def model_error_ratio(g_model, e_model, g_ref, e_ref):
+    """Ratio G_model / G_ref and its discretisation error estimate |ratio| (|e_model / G_model| + |e_ref / G_ref|)
+    (first-order propagation, the two estimates added as bounds)."""
+    import numpy as np
+
+    g_model, g_ref = np.asarray(g_model, float), np.asarray(g_ref, float)
+    ratio = g_model / g_ref
+    err = np.abs(ratio) * (np.abs(np.asarray(e_model, float) / g_model) + np.abs(np.asarray(e_ref, float) / g_ref))
+    return ratio, err
+
+
 def get_family(name: str) -> Family:
     """The registered family ``name`` (ValueError lists the known ones)."""
     if name not in REGISTRY:

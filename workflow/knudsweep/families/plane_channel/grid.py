@@ -37,13 +37,20 @@ from typing import Any
 import numpy as np
 
 from knudsweep.families import (
+    GAS_MODELS,
     Point,
     check_axis_choice,
     delta_values,
+    gas_omega,
     grid_label,
     make_wall_object,
+    model_entries,
+    model_gas_coordinates,
+    model_label,  # noqa: F401  (re-exported: the family's model labels)
+    model_labels,
     one_wall_label,
     reject_repeats,
+    required_keys,  # noqa: F401  (read by knudsweep.config as grid.required_keys)
     wall_params,
 )
 from knudsweep.identity import canonical, format_exp, point_id, segment
@@ -57,8 +64,8 @@ MODEL_EQUATIONS = kinetic_models.MODEL_NAMES
 BOLTZMANN_MODELS = tuple(kinetic_models.BOLTZMANN_MODELS)
 BOLTZMANN_PROBLEMS = ("poiseuille", "thermal_creep")
 MODELS = MODEL_EQUATIONS + BOLTZMANN_MODELS
-# Boltzmann models whose operator depends on the gas (VHS: the viscosity index omega of config/gases.yaml)
-GAS_MODELS = tuple(m for m, molecule in kinetic_models.BOLTZMANN_MODELS.items() if molecule == "vhs")
+# GAS_MODELS, the Boltzmann models whose operator depends on the gas (VHS: the viscosity index omega of
+# config/gases.yaml), and their helpers are shared with the tube (knudsweep.families)
 
 # Scalar results of each problem (names as returned by knudsweep.solver.plane_channel).
 COEFFICIENTS: dict[str, tuple[str, ...]] = {
@@ -96,45 +103,6 @@ def wall_label(lower: dict[str, Any], upper: dict[str, Any] | None) -> str:
 def make_wall_objects(values: dict[str, Any]):
     """Solver wall objects (lower, upper-or-None) from a point's values."""
     return make_wall_object(values["lower_wall"]), make_wall_object(values["upper_wall"])
-
-
-def model_label(model: str, gas: str | None) -> str:
-    """Label of a model along the gathered ``model`` dimension: the model, or ``<model>-<gas>`` for GAS_MODELS."""
-    return model if gas is None else f"{model}-{gas}"
-
-
-def model_entries(section: dict[str, Any]) -> list[tuple[str, str, str | None]]:
-    """``[(label, model, gas-or-None), ...]`` in the order of the section's models (GAS_MODELS once per gas)."""
-    out = []
-    for model in section["models"]:
-        if model in GAS_MODELS:
-            out += [(model_label(model, gas), model, gas) for gas in section["gases"]]
-        else:
-            out.append((model, model, None))
-    return out
-
-
-def model_labels(section: dict[str, Any]) -> list[str]:
-    """Labels of the gathered ``model`` dimension (:func:`model_entries`)."""
-    return [label for label, _, _ in model_entries(section)]
-
-
-def gas_omega(gas: str) -> float:
-    """The VHS viscosity index omega of ``gas`` (config/gases.yaml, knudsweep.solver.gas), canonical."""
-    from knudsweep.solver.gas import get_gas
-
-    return canonical(get_gas(gas).omega)
-
-
-def required_keys(section: dict[str, Any]) -> dict[str, str]:
-    """Keys the study must give itself (their schema default is not enough), with the reason."""
-    gas_models = [m for m in section["models"] if m in GAS_MODELS]
-    if not gas_models:
-        return {}
-    return {
-        "gases": f"model {gas_models[0]} is solved for each gas with its viscosity index omega "
-        "(config/gases.yaml); list the gases, e.g. gases: [Ar]"
-    }
 
 
 def wall_settings(section: dict[str, Any]) -> list[tuple[str, dict, dict | None]]:
@@ -332,7 +300,7 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
 
     return {
         "problem": {"attrs": {"long_name": "driving problem"}},
-        "model": {"attrs": {"long_name": "kinetic model equation"}, **_model_extra(section)},
+        "model": {"attrs": {"long_name": "kinetic model equation"}, **model_gas_coordinates(section)},
         "wall": {
             "attrs": {"long_name": "gas-surface interaction setting"},
             "extra": {
@@ -368,23 +336,4 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
                 )
             },
         },
-    }
-
-
-def _model_extra(section: dict[str, Any]) -> dict[str, Any]:
-    """Extra coordinates along ``model`` when a model depends on the gas: its gas and viscosity index."""
-    entries = model_entries(section)
-    if not any(gas is not None for _, _, gas in entries):
-        return {}
-    return {
-        "extra": {
-            "model_gas": (
-                [gas or "" for _, _, gas in entries],
-                {"long_name": "gas of a gas-dependent collision operator (empty: the model does not depend on it)"},
-            ),
-            "omega": (
-                [gas_omega(gas) if gas is not None else float("nan") for _, _, gas in entries],
-                {"units": "1", "long_name": "VHS viscosity index omega of the gas (mu ~ T^omega)"},
-            ),
-        }
     }

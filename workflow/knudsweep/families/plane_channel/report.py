@@ -42,11 +42,10 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from knudsweep.families import Products, Table
+from knudsweep.families import Products, Table, base_model, model_error_ratio  # the two shared with the tube
 from knudsweep.families.plane_channel.grid import (
     BOLTZMANN_MODELS,
     BOLTZMANN_PROBLEMS,
-    GAS_MODELS,
     MAIN_COEFFICIENT,
     MODEL_EQUATIONS,
     model_entries,
@@ -83,14 +82,6 @@ BOLTZMANN_MARKER = {"ms": 6.0, "mec": "black", "mew": 0.9}
 VHS_MARKER = {"ms": 6.0, "mec": "black", "mew": 0.9, "mfc": "white"}
 
 
-def base_model(label: str) -> tuple[str, str | None]:
-    """(model, gas-or-None) of a label of the ``model`` dimension (``boltzmann_vhs-Ar`` -> boltzmann_vhs, Ar)."""
-    for model in GAS_MODELS:
-        if label.startswith(model + "-"):
-            return model, label[len(model) + 1 :]
-    return label, None
-
-
 def model_text(model: str) -> str:
     """Plain words of a model label (knudsweep.plot_style.model_text; the Boltzmann models named here)."""
     from knudsweep.plot_style import model_text as style_text
@@ -122,15 +113,6 @@ def model_error_pairs(section: dict[str, Any]) -> tuple[list[str], list[str], li
     if not refs or not eqs or not keys:
         return [], [], []
     return refs, eqs, keys
-
-
-def model_error_ratio(g_model, e_model, g_ref, e_ref):
-    """Ratio G_model / G_ref and its discretisation error estimate |ratio| (|e_model / G_model| + |e_ref / G_ref|)
-    (first-order propagation, the two estimates added as bounds)."""
-    g_model, g_ref = np.asarray(g_model, float), np.asarray(g_ref, float)
-    ratio = g_model / g_ref
-    err = np.abs(ratio) * (np.abs(np.asarray(e_model, float) / g_model) + np.abs(np.asarray(e_ref, float) / g_ref))
-    return ratio, err
 
 
 def _slip_sigma(wall_row: dict[str, Any], diffuse_value: float) -> float:

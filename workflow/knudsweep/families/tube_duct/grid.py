@@ -2,11 +2,13 @@
 
 Grid: geometries x problems x kinetic models x wall settings x delta (or Kn).
 A geometry is the circular tube or a rectangular duct of one aspect ratio
-(width / height >= 1).
+(width / height >= 1).  The kinetic models are the model equations and, for the
+tube with Maxwell walls, the linearized Boltzmann equation (hard spheres, VHS;
+``knudsweep.solver.tube.boltzmann_driver``).
 
 Point identity (the file path below ``results/points/``)::
 
-    tube_duct/<geometry>/<problem>/model=<model>/wall=<wall label>/grid=<ns>-<nv>-<tol>/delta=<delta>.nc
+    tube_duct/<geometry>/<problem>/model=<model>[/gas=<gas>]/wall=<wall label>/grid=<ns>-<nv>-<tol>/delta=<delta>.nc
 
 e.g. ``tube_duct/duct-A=4.0/thermal_creep/model=bgk/wall=maxwell-alpha=0.9/grid=nsauto-nvauto-tol1.0e-07/delta=1.0e+01.nc``.
 
@@ -15,7 +17,12 @@ e.g. ``tube_duct/duct-A=4.0/thermal_creep/model=bgk/wall=maxwell-alpha=0.9/grid=
   before the point is named, so ``kn`` and ``delta`` studies share files.
 * Gas, temperature and channel size are not part of a point (the solvers work
   in reduced variables); they only convert results to SI units in the tables
-  and figures.
+  and figures.  The exception is the VHS operator (``boltzmann_vhs``,
+  :data:`GAS_MODELS`), which depends on the gas's viscosity index omega: as in
+  the plane channel, its points are expanded over the section's gases, the path
+  gets a ``gas=<gas>`` segment, the values ``gas`` and ``omega``, and the
+  gathered ``model`` dimension the label ``boltzmann_vhs-<gas>`` (extra
+  coordinates ``model_gas`` and ``omega``).  Other points keep their identity.
 * Resolution and tolerance are part of the point; iteration limits are not.
 
 Tables and figures are built from the gathered sweep in :mod:`knudsweep.families.tube_duct.report`.
@@ -27,20 +34,30 @@ import math
 from typing import Any
 
 from knudsweep.families import (
+    GAS_MODELS,
     Point,
     check_axis_choice,
     delta_values,
+    gas_omega,
     grid_label,
+    model_entries,
+    model_gas_coordinates,
+    model_labels,
     one_wall_label,
     reject_repeats,
+    required_keys,  # noqa: F401  (read by knudsweep.config as grid.required_keys)
     wall_params,
 )
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
-from knudsweep.solver.kinetic_models import MODEL_NAMES
+from knudsweep.solver import kinetic_models
 
 NAME = "tube_duct"
 PROBLEMS = ("poiseuille", "thermal_creep")
-MODELS = MODEL_NAMES  # the kinetic model equations (knudsweep.solver.kinetic_models)
+MODEL_EQUATIONS = kinetic_models.MODEL_NAMES
+# the linearized Boltzmann equation (knudsweep.solver.kinetic_models.BOLTZMANN_MODELS): the tube only, Maxwell walls
+BOLTZMANN_MODELS = tuple(kinetic_models.BOLTZMANN_MODELS)
+BOLTZMANN_SHAPES = ("tube",)
+MODELS = MODEL_EQUATIONS + BOLTZMANN_MODELS
 MAIN_COEFFICIENT = {"poiseuille": "G_P", "thermal_creep": "G_T"}
 SQRT_PI = math.sqrt(math.pi)
 
@@ -112,6 +129,52 @@ def check_section(section: dict[str, Any]) -> None:
         th = c.get("thermal", {})
         if th and th.get("t_hot", 2.0) <= th.get("t_cold", 1.0):
             raise ValueError("conditions.thermal.t_hot: must be > t_cold")
+    check_boltzmann(section, axis)
+
+
+def check_boltzmann(section: dict[str, Any], axis: str) -> None:
+    """The linearized Boltzmann equation's narrower scope (knudsweep.solver.tube.boltzmann_driver): the tube,
+    Maxwell walls, its delta range, speed nodes and the VHS omega range."""
+    lbe = [m for m in section["models"] if m in BOLTZMANN_MODELS]
+    if not lbe:
+        return
+    from knudsweep.solver.plane_channel.linearized_boltzmann import OMEGA_RANGE
+    from knudsweep.solver.tube import boltzmann_driver as bd
+
+    for i, (label, shape, _a) in enumerate(geometry_settings(section)):
+        if shape not in BOLTZMANN_SHAPES:
+            raise ValueError(
+                f"geometries[{i}].shape: model {lbe[0]} takes shape {', '.join(BOLTZMANN_SHAPES)} only, "
+                f"got {shape!r} ({label}; put ducts in a second study)"
+            )
+    for i, (_label, w) in enumerate(wall_settings(section)):
+        if w["model"] != "maxwell":
+            raise ValueError(f"walls[{i}].model: model {lbe[0]} takes wall model maxwell only, got {w['model']!r}")
+    lo, hi = 0.0, bd.MAX_DELTA
+    for d in delta_values(section):
+        if not lo <= d <= hi:
+            bounds = f"(0, {hi:g}]" if axis == "delta" else f"[{SQRT_PI / (2 * hi):.3g}, inf)"
+            raise ValueError(
+                f"{axis}: a value gives delta = {d:g}; allowed range of {axis} with model {lbe[0]} is {bounds}"
+            )
+    res = section.get("resolution", {})
+    for key, (vmin, vmax), what in (
+        ("n_velocity", bd.SPEED_RANGE, "counts speed nodes"),
+        ("n_space", bd.SPACE_RANGE, "counts radial nodes"),
+    ):
+        value = res.get(key)
+        if value is not None and not vmin <= value <= vmax:
+            raise ValueError(
+                f"resolution.{key}: got {value}; with model {lbe[0]} it {what}, allowed range [{vmin}, {vmax}] or null"
+            )
+    gas_models = [m for m in section["models"] if m in GAS_MODELS]
+    for i, gas in enumerate(section["gases"] if gas_models else []):
+        omega = gas_omega(gas)
+        if not OMEGA_RANGE[0] <= omega <= OMEGA_RANGE[1]:
+            raise ValueError(
+                f"gases[{i}]: gas {gas} has omega = {omega:g} (config/gases.yaml); model {gas_models[0]} takes "
+                f"omega in [{OMEGA_RANGE[0]:g}, {OMEGA_RANGE[1]:g}]"
+            )
 
 
 def point_values(
@@ -121,14 +184,16 @@ def point_values(
     delta: float,
     wall: dict[str, Any],
     resolution: dict[str, Any],
+    gas: str | None = None,
 ) -> dict[str, Any]:
     """Canonical values of one point (a study's grid and ``knudsweep solve`` both build them here).
 
     ``geometry``: ``(label, shape, aspect_ratio)`` as :func:`geometry_of` gives it; ``wall``: canonical wall law
-    (:func:`knudsweep.families.wall_params`); ``resolution``: ``n_space``, ``n_velocity``, ``tol``, ``accuracy``.
+    (:func:`knudsweep.families.wall_params`); ``resolution``: ``n_space``, ``n_velocity``, ``tol``, ``accuracy``;
+    ``gas``: the gas of a model in GAS_MODELS (its values then carry ``gas`` and ``omega``), ignored otherwise.
     """
     label, shape, aspect = geometry
-    return {
+    values = {
         "geometry": label,
         "shape": shape,
         "aspect_ratio": aspect,
@@ -142,6 +207,12 @@ def point_values(
         "tol": canonical(resolution["tol"]),
         "accuracy": None if resolution.get("accuracy") is None else canonical(resolution["accuracy"]),
     }
+    if model in GAS_MODELS:
+        if gas is None:
+            raise ValueError(f"gas: model {model} needs a gas (its viscosity index omega)")
+        values["gas"] = gas
+        values["omega"] = gas_omega(gas)
+    return values
 
 
 def points(section: dict[str, Any]) -> list[Point]:
@@ -150,7 +221,8 @@ def points(section: dict[str, Any]) -> list[Point]:
     out = []
     for glabel, shape, aspect in geometry_settings(section):
         for problem in section["problems"]:
-            for model in section["models"]:
+            for mlabel, model, gas in model_entries(section):
+                gas_segment = [] if gas is None else [segment("gas", gas)]
                 for wlabel, w in wall_settings(section):
                     for delta in delta_values(section):
                         pid = point_id(
@@ -159,13 +231,20 @@ def points(section: dict[str, Any]) -> list[Point]:
                                 segment("", glabel),
                                 segment("", problem),
                                 segment("model", model),
+                                *gas_segment,
                                 segment("wall", wlabel),
                                 segment("grid", grid),
                                 segment("delta", format_exp(delta)),
                             ],
                         )
-                        values = point_values((glabel, shape, aspect), problem, model, delta, w, res)
-                        index = {"geometry": glabel, "problem": problem, "model": model, "wall": wlabel, "delta": delta}
+                        values = point_values((glabel, shape, aspect), problem, model, delta, w, res, gas)
+                        index = {
+                            "geometry": glabel,
+                            "problem": problem,
+                            "model": mlabel,
+                            "wall": wlabel,
+                            "delta": delta,
+                        }
                         out.append(Point(NAME, pid, values, index))
     return out
 
@@ -189,10 +268,31 @@ def peak_memory_mb(section: dict[str, Any]) -> tuple[float, str]:
     return best
 
 
+# Linearized Boltzmann tube point (solve plus the coarse solve of the estimate, one thread, operator cached, best
+# of two): hard spheres on the default grid 1.79, 0.94, 2.42, 1.62 s at delta 0.1, 1, 10, 100 (21, 21, 41, 41
+# radial nodes; 12, 8, 8, 8 speeds; 9-36 iterations); at delta = 1 with 11, 21, 41 nodes 0.30, 0.94, 3.6 s (8 speeds)
+# and 0.08, 0.20, 0.73 s (4 speeds): about n_space^1.7 x n_velocity^2, the iteration count left out (measured)
+TUBE_BOLTZMANN_SECONDS = 0.95  # at 21 radial nodes and 8 speeds
+# VHS argon: 24 and 44 iterations against 21 and 36 for hard spheres at delta 1 and 10 (1.1, 2.9 s); its operator
+# build (4 s for 8 speeds, cached per worker and omega) is not in the point cost
+VHS_FACTOR = 1.2
+
+
 def point_cost(values: dict[str, Any]) -> float:
     """Seconds per point, measured on the demo grids (n_velocity 8, solver-default space grid):
     tube 0.08-0.2 s with Maxwell walls, up to 0.8 s with Cercignani-Lampis walls at small
-    delta; duct 0.03-0.4 s, growing with the aspect ratio and with delta above 10."""
+    delta; duct 0.03-0.4 s, growing with the aspect ratio and with delta above 10.
+    Linearized Boltzmann (tube): TUBE_BOLTZMANN_SECONDS x (n_space / 21)^1.7 x (n_velocity / 8)^2, the solver's
+    default sizes where not given, times VHS_FACTOR for VHS."""
+    if values.get("model") in BOLTZMANN_MODELS:
+        from knudsweep.solver.tube.boltzmann_driver import default_sizes
+
+        ns, nv = default_sizes(values["delta"])
+        ns, nv = values.get("n_space") or ns, values.get("n_velocity") or nv
+        cost = TUBE_BOLTZMANN_SECONDS * (ns / 21.0) ** 1.7 * (nv / 8.0) ** 2
+        if values["model"] in GAS_MODELS:
+            cost *= VHS_FACTOR
+        return cost * (4.0 if values.get("accuracy") is not None else 1.0)
     nv = (values.get("n_velocity") or 8) / 8.0
     cl = 3.0 if values["wall_params"]["model"] == "cercignani_lampis" else 1.0
     if values["shape"] == "tube":
@@ -208,7 +308,7 @@ def gather_dims(section: dict[str, Any]) -> dict[str, list]:
     return {
         "geometry": [g for g, _, _ in geometry_settings(section)],
         "problem": list(section["problems"]),
-        "model": list(section["models"]),
+        "model": model_labels(section),
         "wall": [w for w, _ in wall_settings(section)],
         "delta": delta_values(section),
     }
@@ -234,7 +334,7 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
             },
         },
         "problem": {"attrs": {"long_name": "driving problem"}},
-        "model": {"attrs": {"long_name": "kinetic model equation"}},
+        "model": {"attrs": {"long_name": model_long_name(section)}, **model_gas_coordinates(section)},
         "wall": {
             "attrs": {"long_name": "gas-surface interaction setting"},
             "extra": {
@@ -266,6 +366,13 @@ def dim_attrs(section: dict[str, Any]) -> dict[str, dict]:
             },
         },
     }
+
+
+def model_long_name(section: dict[str, Any]) -> str:
+    """long_name of the ``model`` coordinate (unchanged for studies with model equations only)."""
+    if any(m in BOLTZMANN_MODELS for m in section["models"]):
+        return "kinetic model: model equation or linearized Boltzmann equation"
+    return "kinetic model equation"
 
 
 def coefficient_attrs(section: dict[str, Any]) -> dict[str, dict]:

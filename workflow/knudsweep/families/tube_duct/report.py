@@ -25,19 +25,45 @@ from typing import Any
 
 import numpy as np
 
-from knudsweep.families import Products, Table
+from knudsweep.families import Products, Table, base_model, model_error_ratio
 from knudsweep.families.tube_duct.grid import (
+    BOLTZMANN_MODELS,
+    BOLTZMANN_SHAPES,
     MAIN_COEFFICIENT,
+    MODEL_EQUATIONS,
     PROBLEMS,
     SQRT_PI,
     geometry_settings,
     is_diffuse,
+    model_entries,
+    model_labels,
     tangential_alpha,
     wall_settings,
 )
 
 TABLES = Products("table")
 FIGURES = Products("figure")
+
+# Plain words of the linearized Boltzmann models in legends, titles and tables (VHS with its gas: "(Ar)")
+BOLTZMANN_TEXT = {"boltzmann_hard_sphere": "Boltzmann, hard spheres", "boltzmann_vhs": "Boltzmann, VHS"}
+
+
+def model_text(label: str) -> str:
+    """Plain words of a label of the ``model`` dimension: knudsweep.plot_style.model_text for the model
+    equations, BOLTZMANN_TEXT for the Boltzmann models (``boltzmann_vhs-Ar`` -> "Boltzmann, VHS (Ar)")."""
+    from knudsweep.plot_style import model_text as style_text
+
+    model, gas = base_model(label)
+    if model in BOLTZMANN_TEXT:
+        return BOLTZMANN_TEXT[model] + ("" if gas is None else f" ({gas})")
+    return style_text(label)
+
+
+def gases_of(section: dict[str, Any], model_gas: str | None) -> list[str]:
+    """Gases a model's reduced results are converted for: every gas of the section, or a gas-dependent
+    operator's (VHS) own gas only."""
+    return list(section["gases"]) if model_gas is None else [model_gas]
+
 
 G_FM_TUBE = 8.0 / (3.0 * SQRT_PI)  # Knudsen, Ann. Phys. 28 (1909) 75, long-tube conductance [derived]
 from knudsweep.solver.limits import SIGMA_P_BGK as SIGMA_P_DIFFUSE  # noqa: E402  (one home: knudsweep.solver.limits)
@@ -127,6 +153,29 @@ NOTES_COMMON = [
 ]
 
 
+def model_error_pairs(section: dict[str, Any]) -> tuple[list[str], list[str], list[str]]:
+    """(Boltzmann references, model equations, coefficients) of the model-error view: the references are the
+    labels of the ``model`` dimension of each Boltzmann operator (hard spheres; VHS once per gas); ([], [], [])
+    if the study does not hold both kinds of model."""
+    refs = [label for label, model, _ in model_entries(section) if model in BOLTZMANN_MODELS]
+    eqs = [m for m in section["models"] if m in MODEL_EQUATIONS]
+    keys = [MAIN_COEFFICIENT[p] for p in section["problems"]]
+    if not refs or not eqs or not keys:
+        return [], [], []
+    return refs, eqs, keys
+
+
+def boltzmann_geometries(section: dict[str, Any]) -> list[str]:
+    """Labels of the cross-sections the Boltzmann models are solved for (the tube; the study check refuses ducts)."""
+    return [label for label, shape, _ in geometry_settings(section) if shape in BOLTZMANN_SHAPES]
+
+
+def _values(ds, key: str, **sel) -> np.ndarray:
+    if key not in ds:
+        return np.full(ds.sizes["delta"], np.nan)
+    return ds[key].sel(**sel).values.astype(float)
+
+
 def conductance_table_names(section: dict[str, Any]) -> list[str]:
     return ["tube_duct_conductance"] if "poiseuille" in section["problems"] else []
 
@@ -154,9 +203,9 @@ def conductance_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
         s_area, a, _ = size_of(section, shape, aspect)
         g_fm = free_molecular_gp(shape, aspect)
         g_cont = continuum_gp(shape, aspect, delta)
-        for model in section["models"]:
+        for mlabel, model, model_gas in model_entries(section):
             for wlabel, w in walls:
-                sel = dict(geometry=glabel, problem="poiseuille", model=model, wall=wlabel)
+                sel = dict(geometry=glabel, problem="poiseuille", model=mlabel, wall=wlabel)
                 status = ds["status"].sel(**sel).values
                 gp = ds["G_P"].sel(**sel).values.astype(float) if "G_P" in ds else np.full(delta.shape, np.nan)
                 gp_err = (
@@ -165,7 +214,7 @@ def conductance_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                     else np.full(delta.shape, np.nan)
                 )
                 gslip = slip_gp(shape, aspect, delta, slip_sigma(w))
-                for gas in section["gases"]:
+                for gas in gases_of(section, model_gas):
                     v0 = most_probable_speed(gas, t)
                     factor = s_area * a * v0 / (2.0 * length)  # C = S a v0 G_P / (2 L)  [m^3/s]
                     for j, d in enumerate(delta):
@@ -229,9 +278,9 @@ def thermal_creep_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
     rows = []
     for glabel, shape, aspect in geos:
         s_area, a, _ = size_of(section, shape, aspect)
-        for model in section["models"]:
+        for mlabel, model, model_gas in model_entries(section):
             for wlabel, w in walls:
-                sel = dict(geometry=glabel, problem="thermal_creep", model=model, wall=wlabel)
+                sel = dict(geometry=glabel, problem="thermal_creep", model=mlabel, wall=wlabel)
                 status = ds["status"].sel(**sel).values
                 gt = ds["G_T"].sel(**sel).values.astype(float) if "G_T" in ds else np.full(delta.shape, np.nan)
                 gt_err = (
@@ -240,7 +289,7 @@ def thermal_creep_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                     else np.full(delta.shape, np.nan)
                 )
                 gp = (
-                    ds["G_P"].sel(geometry=glabel, problem="poiseuille", model=model, wall=wlabel).values.astype(float)
+                    ds["G_P"].sel(geometry=glabel, problem="poiseuille", model=mlabel, wall=wlabel).values.astype(float)
                     if ("G_P" in ds and "poiseuille" in section["problems"])
                     else np.full(delta.shape, np.nan)
                 )
@@ -249,7 +298,7 @@ def thermal_creep_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
                     if (model == "bgk" and is_diffuse(w))
                     else np.full(delta.shape, np.nan)
                 )
-                for gas in section["gases"]:
+                for gas in gases_of(section, model_gas):
                     v0 = most_probable_speed(gas, t)
                     for j, d in enumerate(delta):
                         p = pressure_from_delta(gas, d, t, a)
@@ -281,6 +330,71 @@ def thermal_creep_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
     ]
     tables["tube_duct_thermal_creep"] = Table(pd.DataFrame(rows), "Tube and duct: thermal creep", notes)
     return tables
+
+
+def model_error_names(section: dict[str, Any]) -> list[str]:
+    """``tube_duct_model_error`` if the study holds a Boltzmann model and a model equation."""
+    return ["tube_duct_model_error"] if model_error_pairs(section)[0] else []
+
+
+@TABLES.register(model_error_names)
+def model_error_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
+    """G_P, G_T of each model equation over each linearized Boltzmann value (one row block per Boltzmann
+    operator, and per gas for VHS), per tube, wall and delta."""
+    import pandas as pd
+
+    refs, eqs, keys = model_error_pairs(section)
+    delta = ds["delta"].values.astype(float)
+    rows = []
+    for lbe in refs:
+        for glabel in boltzmann_geometries(section):
+            for wlabel, _w in wall_settings(section):
+                cols: dict[str, np.ndarray] = {}
+                for key in keys:
+                    problem = "poiseuille" if key == "G_P" else "thermal_creep"
+                    sel = dict(geometry=glabel, problem=problem, wall=wlabel)
+                    g_ref = _values(ds, key, model=lbe, **sel)
+                    e_ref = _values(ds, f"{key}_error_estimate", model=lbe, **sel)
+                    cols[f"{key} Boltzmann [1]"] = g_ref
+                    cols[f"{key} Boltzmann error estimate [1]"] = e_ref
+                    cols[f"{key} Boltzmann status"] = ds["status"].sel(model=lbe, **sel).values
+                    for m in eqs:
+                        ratio, err = model_error_ratio(
+                            _values(ds, key, model=m, **sel),
+                            _values(ds, f"{key}_error_estimate", model=m, **sel),
+                            g_ref,
+                            e_ref,
+                        )
+                        cols[f"{key} {model_text(m)} / Boltzmann [1]"] = ratio
+                        cols[f"{key} {model_text(m)} / Boltzmann error estimate [1]"] = err
+                gas = base_model(lbe)[1] or ""
+                for j, d in enumerate(delta):
+                    row = {"Boltzmann model": model_text(lbe), "gas": gas, "geometry": glabel, "wall": wlabel}
+                    row.update({"delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d)})
+                    row.update({k: (v[j] if v.dtype.kind in "OUS" else float(v[j])) for k, v in cols.items()})
+                    rows.append(row)
+    notes = [
+        NOTES_COMMON[0],
+        NOTES_COMMON[1],
+        "Model error of the kinetic model equations: each one's reduced flow rate divided by the solution of the "
+        f"linearized Boltzmann equation named in the row ({', '.join(model_text(r) for r in refs)}; "
+        "knudsweep.solver.tube.boltzmann_driver) in the same tube at the same delta and walls. The VHS operator "
+        "takes the viscosity index omega of the row's gas (config/gases.yaml); hard spheres and the model equations "
+        "do not depend on the gas (gas column empty). delta is defined with the gas's viscosity in every model, so "
+        "the difference is the error of the model's collision term: the ratios tend to 1 as delta -> 0 (the "
+        "free-molecular flow does not depend on collisions), G_P's also as delta -> infinity (Poiseuille flow with "
+        "the same viscosity), while G_T's tend to the ratio of the models' thermal slip coefficients.",
+        "error estimate columns: estimated discretisation errors (absolute), Richardson over a coarser solve "
+        "(knudsweep.solver.resolution); the ratio's estimate adds the two relative estimates. They do not include any "
+        "modelling error.",
+        "Empty cells: a point failed, is missing or corrupt (the Boltzmann status column says which for the "
+        "Boltzmann value).",
+    ]
+    return {
+        "tube_duct_model_error": Table(
+            pd.DataFrame(rows), "Tube, model error against the linearized Boltzmann equation", notes
+        )
+    }
 
 
 # ---------------------------------------------------------------- figures
@@ -393,7 +507,7 @@ def _coefficient_figure(ds, section, settings, problem, model, geos, walls):
         ps.no_data(ax)
     ax.set_xlabel(ps.DELTA_LABEL + r" ($a$ = tube radius or duct height)")
     ax.set_ylabel(f"reduced flow rate ${key}$")
-    title = f"Tube and ducts, {ps.problem_text(problem)}, {ps.model_text(model)}"
+    title = f"Tube and ducts, {ps.problem_text(problem)}, {model_text(model)}"
     if n_failed:
         title += f" ({n_failed} failed: $\\times$)"
     ax.set_title(title, fontsize="medium")
@@ -430,7 +544,7 @@ def _pressure_figures(ds, section, settings, geos, walls):
 
     c = section["conditions"]
     gas = section["gases"][0]
-    model = section["models"][0]
+    model = model_labels(section)[0]
     wlabel, w0 = walls[0]
     t = c["temperature"]
     delta = ds["delta"].values.astype(float)
@@ -473,7 +587,7 @@ def _pressure_figures(ds, section, settings, geos, walls):
     ax.set_ylabel(r"mass flow [kg s$^{-1}$]")
     ax.set_title(
         f"Flow through {c['length']:g} m long tube and ducts, {gas}, {t:g} K,\n"
-        f"$p_\\mathrm{{out}}$ = {ps.number(p_out)} Pa for all, {ps.model_text(model)}, "
+        f"$p_\\mathrm{{out}}$ = {ps.number(p_out)} Pa for all, {model_text(model)}, "
         f"{ps.wall_text(w0)}",
         fontsize="small",
     )
@@ -512,7 +626,7 @@ def _pressure_figures(ds, section, settings, geos, walls):
     ax.set_xlabel(r"cold-side pressure $p_\mathrm{cold}$ [Pa] (markers: computed $\delta$ at the cold end)")
     ax.set_ylabel(r"$p_\mathrm{hot}/p_\mathrm{cold}$")
     ax.set_title(
-        f"Thermal transpiration, {gas}, {t_cold:g} K / {t_hot:g} K, {ps.model_text(model)}, {ps.wall_text(w0)}",
+        f"Thermal transpiration, {gas}, {t_cold:g} K / {t_hot:g} K, {model_text(model)}, {ps.wall_text(w0)}",
         fontsize="small",
     )
     ps.bottom_legend(fig, handles, labels, ncol=2)
@@ -520,9 +634,113 @@ def _pressure_figures(ds, section, settings, geos, walls):
     return out
 
 
+def _model_error_figure(ds, section, settings):
+    """G_model / G_Boltzmann against delta, one panel per coefficient and Boltzmann operator (VHS: per gas); bars:
+    the ratio's error estimate."""
+    from knudsweep import plot_style as ps
+    from knudsweep.figures import new_figure
+
+    refs, eqs, keys = model_error_pairs(section)
+    walls = wall_settings(section)
+    geos = boltzmann_geometries(section)
+    delta = ds["delta"].values.astype(float)
+    mosaic = [[f"{key}|{lbe}" for key in keys] for lbe in refs]
+    fig, axes = new_figure(
+        settings,
+        mosaic=mosaic,
+        scale=(1.0 if len(keys) == 1 else 1.6, 1.2 * (1.0 + 0.6 * (len(refs) - 1))),
+        sharey=True,
+    )
+    for n, (key, lbe) in enumerate((k, r) for r in refs for k in keys):
+        ax = axes[f"{key}|{lbe}"]
+        problem = "poiseuille" if key == "G_P" else "thermal_creep"
+        drawn = False
+        for i, (wlabel, _w) in enumerate(walls):
+            for glabel in geos:
+                sel = dict(geometry=glabel, problem=problem, wall=wlabel)
+                g_ref = _values(ds, key, model=lbe, **sel)
+                e_ref = _values(ds, f"{key}_error_estimate", model=lbe, **sel)
+                for m in eqs:
+                    ratio, err = model_error_ratio(
+                        _values(ds, key, model=m, **sel),
+                        _values(ds, f"{key}_error_estimate", model=m, **sel),
+                        g_ref,
+                        e_ref,
+                    )
+                    style = {**ps.series_style(i), **ps.model_marker(m)}
+                    if ps.plot_series(ax, delta, ratio, style, logy=False):
+                        drawn = True
+                        ok = np.isfinite(ratio) & np.isfinite(err)
+                        ax.errorbar(
+                            delta[ok],
+                            ratio[ok],
+                            yerr=err[ok],
+                            fmt="none",
+                            ecolor=style["color"],
+                            elinewidth=0.8,
+                            capsize=0,
+                            zorder=ps.DATA_Z,
+                        )
+        ax.axhline(1.0, **ps.reference("continuum"))
+        ax.set_xscale("log")
+        if lbe == refs[-1]:
+            ax.set_xlabel(ps.DELTA_LABEL + r" ($a$ = tube radius)")
+        if n % len(keys) == 0:
+            ax.set_ylabel("model equation / Boltzmann")
+        title = f"${key}$, {ps.problem_text(problem)}"
+        ax.set_title(title if len(refs) == 1 else f"{title}\nagainst {model_text(lbe)}", fontsize="medium")
+        if not drawn:
+            ps.no_data(ax)
+    against = model_text(refs[0]) if len(refs) == 1 else "linearized Boltzmann equation"
+    fig.suptitle(f"Tube: model equations against the {against}", fontsize="medium")
+    first = axes[f"{keys[0]}|{refs[0]}"]
+    handles, labels = [], []
+    for i, (_wlabel, w) in enumerate(walls):
+        handles.append(first.plot([], [], **ps.series_style(i), ms=5.5)[0])
+        labels.append(ps.wall_text(w))
+    for m in eqs:
+        handles.append(first.plot([], [], ls="none", marker="o", color="0.35", **ps.model_marker(m))[0])
+        labels.append(model_text(m))
+    handles.append(first.plot([], [], **ps.reference("continuum"))[0])
+    labels.append("equal to the Boltzmann value")
+    ps.bottom_legend(fig, handles, labels, ncol=2)
+    return fig
+
+
 # ---------------------------------------------------------------- report captions
+def model_error_figure_names(section: dict[str, Any]) -> list[str]:
+    return ["tube_duct_model_error_vs_delta"] if model_error_pairs(section)[0] else []
+
+
+def model_error_captions(ds, section: dict[str, Any]) -> dict[str, str]:
+    from knudsweep.plot_style import wall_text
+    from knudsweep.report import relative_error_sentence, status_sentence
+
+    refs, eqs, keys = model_error_pairs(section)
+    delta = ds["delta"].values.astype(float)
+    wall_list = "; ".join(_plain(wall_text(w)) for _, w in wall_settings(section))
+    text = [
+        f"Model error of the kinetic model equations ({', '.join(model_text(m) for m in eqs)}) in the tube: their "
+        f"reduced flow rates {' and '.join(keys)} divided by the solution of the linearized Boltzmann equation "
+        f"({', '.join(model_text(r) for r in refs)}; VHS with the gas's viscosity index omega) at the same delta and "
+        f"walls, against delta = {delta.min():g} to {delta.max():g} ({delta.size} values); one panel per flow rate "
+        f"and Boltzmann operator. Colour and marker: wall ({wall_list}); marker fill: model equation. The dotted "
+        "line at 1 is agreement; delta uses the gas's viscosity in every model, so the ratios tend to 1 as "
+        "delta -> 0. Error bars: the discretisation error estimates of both solutions, added (usually smaller than "
+        "the markers).",
+    ]
+    for lbe in refs:
+        for key in keys:
+            problem = "poiseuille" if key == "G_P" else "thermal_creep"
+            text.append(
+                relative_error_sentence(ds, key, {"problem": problem, "model": lbe}, f"{key} ({model_text(lbe)})")
+            )
+        text.append(status_sentence(ds, {"model": lbe}))
+    return {"tube_duct_model_error_vs_delta": "\n\n".join(text)}
+
+
 def coefficient_figure_names(section: dict[str, Any]) -> list[str]:
-    return [f"tube_duct_{MAIN_COEFFICIENT[p]}_vs_delta_{m}" for p in section["problems"] for m in section["models"]]
+    return [f"tube_duct_{MAIN_COEFFICIENT[p]}_vs_delta_{m}" for p in section["problems"] for m in model_labels(section)]
 
 
 def pressure_figure_names(section: dict[str, Any]) -> list[str]:
@@ -538,7 +756,7 @@ def _plain(text: str) -> str:
 
 def coefficient_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     """Report caption (reStructuredText) of each coefficient figure: what is shown, models, walls, uncertainty."""
-    from knudsweep.plot_style import model_text, problem_text, wall_text
+    from knudsweep.plot_style import problem_text, wall_text
     from knudsweep.report import relative_error_sentence, status_sentence
 
     geos = geometry_settings(section)
@@ -550,7 +768,7 @@ def coefficient_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     out = {}
     for problem in section["problems"]:
         key = MAIN_COEFFICIENT[problem]
-        for model in section["models"]:
+        for model in model_labels(section):
             text = [
                 f"Reduced flow rate {key} of {problem_text(problem)} through long channels against the rarefaction "
                 f"parameter delta = p a / (mu v0), a = tube radius or duct height, {span}. Kinetic model: "
@@ -580,7 +798,7 @@ def coefficient_captions(ds, section: dict[str, Any]) -> dict[str, str]:
 
 def pressure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     """Report caption of the pressure-ratio and transpiration figures."""
-    from knudsweep.plot_style import model_text, wall_text
+    from knudsweep.plot_style import wall_text
 
     geos = geometry_settings(section)
     walls = wall_settings(section)
@@ -588,7 +806,7 @@ def pressure_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     geo_list = "; ".join(_plain(geometry_text(section, s, a)) for _, s, a in geos)
     delta = ds["delta"].values.astype(float)
     out = {}
-    gas, model = section["gases"][0], section["models"][0]
+    gas, model = section["gases"][0], model_labels(section)[0]
     wl, w0 = walls[0]
     ratios = sorted(c["pressure_ratios"])
     p_out = common_outlet_pressure(section, geos, gas, delta, float(max(ratios)))
@@ -632,10 +850,15 @@ def coefficient_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -
     return {
         f"tube_duct_{MAIN_COEFFICIENT[p]}_vs_delta_{m}": _coefficient_figure(ds, section, settings, p, m, geos, walls)
         for p in section["problems"]
-        for m in section["models"]
+        for m in model_labels(section)
     }
 
 
 @FIGURES.register(pressure_figure_names, caption=pressure_captions)
 def pressure_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
     return _pressure_figures(ds, section, settings, geometry_settings(section), wall_settings(section))
+
+
+@FIGURES.register(model_error_figure_names, caption=model_error_captions)
+def model_error_figures(ds, section: dict[str, Any], settings: dict[str, Any]) -> dict[str, Any]:
+    return {"tube_duct_model_error_vs_delta": _model_error_figure(ds, section, settings)}
