@@ -393,3 +393,30 @@ def test_cli_solves_a_tube_boltzmann_point(capsys, model, gas):
         n_velocity=4,
     )
     assert out["coefficients"]["G_T"] == direct.coefficient("G_T")
+
+
+def test_a_study_of_boltzmann_models_only_builds_every_product(tmp_path):
+    """No model equation: no model-error view, but the conductance and thermal-creep tables, the coefficient figures
+    and the pressure-ratio and transpiration figures (first model label boltzmann_vhs-Ar) are built."""
+    import matplotlib.pyplot as plt
+
+    section = {**SECTION, "models": ["boltzmann_vhs"], "gases": ["Ar"], "walls": [{"model": "maxwell", "alpha": 1.0}]}
+    FAMILY.check_section(section)
+    pts = FAMILY.points(section)
+    files = {}
+    for p in pts:
+        files[p.pid] = str(tmp_path / f"{p.pid}.nc")
+        res = FAMILY.solve(p.values, max_iter=None, section=section)
+        write_result(res, files[p.pid], {"point_id": p.pid, "point_values": p.values})
+    ds = gather_family(FAMILY, section, pts, valid_records(pts, files))
+    tables = FAMILY.tables(ds, section)
+    assert sorted(tables) == ["tube_duct_conductance", "tube_duct_thermal_creep"]
+    assert tables["tube_duct_conductance"].frame["G_P [1]"].notna().all()
+    figs = FAMILY.figures(ds, section, {"width": 5, "height": 3.5})
+    assert sorted(figs) == sorted(FAMILY.figure_names(section))
+    assert "tube_duct_thermal_transpiration" in figs
+    assert "Boltzmann, VHS (Ar)" in figs["tube_duct_flow_vs_pressure_ratio"].axes[0].get_title()
+    captions = FAMILY.figure_captions(ds, section)
+    assert "Boltzmann, VHS (Ar)" in captions["tube_duct_thermal_transpiration"]
+    for f in figs.values():
+        plt.close(f)
