@@ -3,7 +3,8 @@
 :mod:`.grid` turns the study section into points (values, identity, cost),
 :mod:`.report` builds the tables, figures and captions from the gathered
 sweep; this module holds the :class:`knudsweep.families.Family` that wires them
-to the solvers (``knudsweep.solver.tube``, ``knudsweep.solver.duct``).
+to the solvers (``knudsweep.solver.tube``, ``knudsweep.solver.duct``, and for the
+linearized Boltzmann models in the tube ``knudsweep.solver.tube.boltzmann_driver``).
 """
 
 from __future__ import annotations

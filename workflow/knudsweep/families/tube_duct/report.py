@@ -1,6 +1,9 @@
 """Tables, figures and captions of the tube and rectangular-duct family (read from the gathered sweep).
 
-Every builder is registered by name in :data:`TABLES` or :data:`FIGURES` (with its caption).  Physical
+Every builder is registered by name in :data:`TABLES` or :data:`FIGURES` (with its caption).  A study with a
+linearized Boltzmann model and a model equation also gets the model-error view (``tube_duct_model_error``, table;
+``tube_duct_model_error_vs_delta``, figure): each model equation's G_P and G_T over the Boltzmann value per delta,
+one block per Boltzmann operator (VHS: per gas), as the plane channel's.  Physical
 conversions use ``knudsweep.solver.conductance`` and ``knudsweep.solver.gas``; the reference curves come from
 ``knudsweep.solver.duct`` (continuum series, first-order slip, free-molecular quadrature).
 
