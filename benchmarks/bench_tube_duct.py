@@ -57,7 +57,7 @@ def default_points():
     solve_duct("poiseuille", delta=1.0, aspect_ratio=1.0, n_space=6, n_velocity=4)  # compile
     print(f"\n{'duct default point':<28s} {'G_P':>12s} {'rel. estimate':>14s} {'t/s':>8s}")
     for a in (1.0, 4.0, 20.0):
-        for d in (0.1, 1.0, 10.0):
+        for d in (0.1, 1.0, 10.0, 100.0):
             best, res = math.inf, None
             for _ in range(2):
                 t0 = time.perf_counter()

@@ -45,6 +45,7 @@ from precision import HONEST, ROUND_OFF, ROUND_OFF_SUM, STANDARD_ERRORS
 from knudsweep.cli import main
 from knudsweep.config import schema_node, validate_study
 from knudsweep.families import get_family
+from knudsweep.families.tube_duct.grid import BOLTZMANN_SHAPES
 from knudsweep.solver import kinetic_models as km
 from knudsweep.solver import limits, walls
 from knudsweep.solver.relaxation import METHODS, solve_relaxation
@@ -75,7 +76,8 @@ def case_id(value) -> str:
 
 
 def models_of(geometry) -> list[str]:
-    extra = list(km.BOLTZMANN_MODELS) if geometry[0] == "plane_channel" else []
+    # the linearized Boltzmann equations: plane channel and tube (families/tube_duct BOLTZMANN_SHAPES)
+    extra = list(km.BOLTZMANN_MODELS) if geometry[0] == "plane_channel" or geometry[1] in BOLTZMANN_SHAPES else []
     return [*km.MODEL_NAMES, *extra]
 
 
@@ -112,9 +114,8 @@ def _section(geometry, problem: str, model: str, wall: dict, delta: float) -> di
         "delta": [delta],
         "resolution": {**_sizes(family, model), "tol": 1e-8},
     }
-    if family == "plane_channel":
-        section["gases"] = ["Ar"]  # a VHS Boltzmann model takes its viscosity index from the gas
-    else:
+    section["gases"] = ["Ar"]  # a VHS Boltzmann model takes its viscosity index from the gas
+    if family != "plane_channel":
         section["geometries"] = [{"shape": shape}]
     return section
 

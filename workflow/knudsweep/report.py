@@ -29,7 +29,7 @@ REPORT_DIR = "report"
 CATEGORIES = {"plane_channel": "Plane channel", "tube_duct": "Tube and ducts", "relaxation": "Relaxation"}
 _FAMILY_WORDS = {
     "plane_channel": "fully developed flow between parallel plates (linearised kinetic models and the linearised Boltzmann equation)",
-    "tube_duct": "fully developed flow through a long circular tube and rectangular ducts (linearised kinetic models)",
+    "tube_duct": "fully developed flow through a long circular tube and rectangular ducts (linearised kinetic models; the linearised Boltzmann equation in the tube)",
     "relaxation": "space-homogeneous relaxation to equilibrium (DSMC, the Boltzmann equation by the fast spectral method, model equations)",
 }
 

@@ -281,7 +281,9 @@ VHS_FACTOR = 1.2
 def point_cost(values: dict[str, Any]) -> float:
     """Seconds per point, measured on the demo grids (n_velocity 8, solver-default space grid):
     tube 0.08-0.2 s with Maxwell walls, up to 0.8 s with Cercignani-Lampis walls at small
-    delta; duct 0.03-0.4 s, growing with the aspect ratio and with delta above 10.
+    delta; duct 0.06 sqrt(A) (n_y / 25)^2 (n_velocity / 8)^2 s with n_y the nodes across the half
+    height (benchmarks/bench_tube_duct.py --points-only, 12 speeds: 0.3-0.5 s at delta 0.1, 1.3-4.2 s
+    at 10, 3.7-13.6 s at 100 for A = 1-20; the formula is within 1.5x of each).
     Linearized Boltzmann (tube): TUBE_BOLTZMANN_SECONDS x (n_space / 21)^1.7 x (n_velocity / 8)^2, the solver's
     default sizes where not given, times VHS_FACTOR for VHS."""
     if values.get("model") in BOLTZMANN_MODELS:
@@ -298,7 +300,10 @@ def point_cost(values: dict[str, Any]) -> float:
     if values["shape"] == "tube":
         cost = 0.2 * cl * nv**2
     else:
-        cost = 0.06 * cl * math.sqrt(values["aspect_ratio"]) * (1.0 + values["delta"] / 50.0) * nv**2
+        from knudsweep.solver.duct import default_sizes as duct_default_sizes
+
+        ny = values.get("n_space") or duct_default_sizes(values["delta"], values["aspect_ratio"])[0]
+        cost = 0.06 * cl * math.sqrt(values["aspect_ratio"]) * (ny / 25.0) ** 2 * nv**2
     if values.get("accuracy") is not None:
         cost *= 4.0
     return cost
