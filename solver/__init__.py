@@ -4,4 +4,4 @@ Pure numerics only: no workflow, no plotting.  Every solver returns a
 :class:`knudsweep.solver.result.SolverResult`; :mod:`knudsweep.solver.netcdf_io` writes it.
 """
 
-__version__ = "0.4.0"
+__version__ = "0.5.0"
