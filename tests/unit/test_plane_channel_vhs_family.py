@@ -11,6 +11,7 @@ import json
 
 import numpy as np
 import pytest
+from precision import ROUND_OFF_FORMULA
 
 from knudsweep.config import StudyConfigError, validate_study
 from knudsweep.families.plane_channel import FAMILY, GAS_MODELS, grid
@@ -32,6 +33,9 @@ SECTION = {
     "iteration": {"max_iter": None, "accelerate": True, "retry_max_iter_factor": 4},
 }
 WALL = "maxwell-alpha=1.0"
+# Argon's and helium's VHS operators give G_P apart by more than this (measured 1.4e-2 at delta = 0.1 and 1.1e-3 at
+# delta = 1 on this grid), far above the section's iteration tol 1e-8: one operator used for both gases fails.
+OPERATORS_DIFFER = 1e-4
 
 
 def test_vhs_is_the_gas_dependent_model_of_the_registry():
@@ -131,7 +135,7 @@ def test_gathered_vhs_points_are_the_solvers_with_the_gas_omega(gathered):
         assert got == direct.coefficient("G_P")
     ar, he = (ds["G_P"].sel(model=f"boltzmann_vhs-{g}", problem="poiseuille", wall=WALL).values for g in GASES)
     # different operators, different answers (He omega 0.66 lies between hard spheres and argon 0.81)
-    assert np.all(np.abs(ar / he - 1.0) > 1e-4)
+    assert np.all(np.abs(ar / he - 1.0) > OPERATORS_DIFFER)
     # the CF encoding keeps the labels and the extra coordinates
     back = from_cf(to_cf(ds)[0])
     assert back["model"].values.tolist() == ds["model"].values.tolist()
@@ -152,7 +156,7 @@ def test_model_error_table_per_operator_and_gas(gathered):
             ref = ds[key].sel(model=f"boltzmann_vhs-{gas}", **sel).item()
             assert row[f"{key} Boltzmann [1]"] == ref
             assert row[f"{key} S-model / Boltzmann [1]"] == pytest.approx(
-                ds[key].sel(model="s_model", **sel).item() / ref, rel=1e-14
+                ds[key].sel(model="s_model", **sel).item() / ref, rel=ROUND_OFF_FORMULA
             )
     # each VHS point is converted with its own gas in the problem table, the gas-free models with every gas
     gp = tables["plane_channel_poiseuille"].frame
