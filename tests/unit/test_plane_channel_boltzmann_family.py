@@ -9,8 +9,9 @@ physics of the operator is tested in tests/verification/test_plane_channel_boltz
 import numpy as np
 import pytest
 
+from knudsweep.families import model_error_ratio
 from knudsweep.families.plane_channel import FAMILY, MODELS
-from knudsweep.families.plane_channel.report import model_error_pairs, model_error_ratio
+from knudsweep.families.plane_channel.report import model_error_pairs
 from knudsweep.gather import gather_family
 from knudsweep.point_files import valid_records
 from knudsweep.solver.netcdf_io import write_result

@@ -405,6 +405,93 @@ def model_error_ratio(g_model, e_model, g_ref, e_ref):
     return ratio, err
 
 
+def coefficient_values(ds, key: str, **where):
+    """Float values of ``key`` at the selection ``where`` along ``delta`` (NaN if the sweep lacks ``key``)."""
+    import numpy as np
+
+    if key not in ds:
+        return np.full(ds.sizes["delta"], np.nan)
+    return ds[key].sel(**where).values.astype(float)
+
+
+def plot_model_error(ax, ds, reference: str, equations, key: str, sel: dict[str, str], index: int, marker_of) -> bool:
+    """Draw each model equation's ``key`` over the Boltzmann value of ``reference`` against delta at the selection
+    ``sel`` (cross-section, wall), in series style ``index`` with ``marker_of(model)``, with the ratio's error
+    estimate as bars; True if anything was drawn."""
+    import numpy as np
+
+    from knudsweep import plot_style as ps
+
+    delta = ds["delta"].values.astype(float)
+    where = dict(problem="poiseuille" if key == "G_P" else "thermal_creep", **sel)
+    g_ref = coefficient_values(ds, key, model=reference, **where)
+    e_ref = coefficient_values(ds, f"{key}_error_estimate", model=reference, **where)
+    drawn = False
+    for m in equations:
+        ratio, err = model_error_ratio(
+            coefficient_values(ds, key, model=m, **where),
+            coefficient_values(ds, f"{key}_error_estimate", model=m, **where),
+            g_ref,
+            e_ref,
+        )
+        style = {**ps.series_style(index), **marker_of(m)}
+        if ps.plot_series(ax, delta, ratio, style, logy=False):
+            drawn = True
+            ok = np.isfinite(ratio) & np.isfinite(err)
+            ax.errorbar(
+                delta[ok],
+                ratio[ok],
+                yerr=err[ok],
+                fmt="none",
+                ecolor=style["color"],
+                elinewidth=0.8,
+                capsize=0,
+                zorder=ps.DATA_Z,
+            )
+    return drawn
+
+
+MODEL_ERROR_NOTES = [
+    "error estimate columns: estimated discretisation errors (absolute), Richardson over a coarser solve "
+    "(knudsweep.solver.resolution); the ratio's estimate adds the two relative estimates. They do not include any "
+    "modelling error.",
+    "Empty cells: a point failed, is missing or corrupt (the Boltzmann status column says which for the "
+    "Boltzmann value).",
+]
+
+
+def model_error_rows(ds, reference: str, equations, keys, sel: dict[str, str], model_text) -> list[dict[str, Any]]:
+    """Rows of a model-error table: per delta, G_P and G_T of the linearized Boltzmann model ``reference`` (a
+    label of the ``model`` dimension) with status and estimate, and each model equation's ratio to it with the
+    ratio's estimate (:func:`model_error_ratio`); ``sel`` picks the cross-section and wall (its keys lead the
+    row after the Boltzmann model and gas), ``model_text`` turns a model name into words."""
+    import math
+
+    values = coefficient_values
+    cols: dict[str, Any] = {}
+    for key in keys:
+        where = dict(problem="poiseuille" if key == "G_P" else "thermal_creep", **sel)
+        g_ref = values(ds, key, model=reference, **where)
+        e_ref = values(ds, f"{key}_error_estimate", model=reference, **where)
+        cols[f"{key} Boltzmann [1]"] = g_ref
+        cols[f"{key} Boltzmann error estimate [1]"] = e_ref
+        cols[f"{key} Boltzmann status"] = ds["status"].sel(model=reference, **where).values
+        for m in equations:
+            ratio, err = model_error_ratio(
+                values(ds, key, model=m, **where), values(ds, f"{key}_error_estimate", model=m, **where), g_ref, e_ref
+            )
+            cols[f"{key} {model_text(m)} / Boltzmann [1]"] = ratio
+            cols[f"{key} {model_text(m)} / Boltzmann error estimate [1]"] = err
+    gas = base_model(reference)[1] or ""
+    rows = []
+    for j, d in enumerate(ds["delta"].values.astype(float)):
+        row = {"Boltzmann model": model_text(reference), "gas": gas, **sel, "delta [1]": d}
+        row["Kn [1]"] = math.sqrt(math.pi) / (2.0 * d)
+        row.update({k: (v[j] if v.dtype.kind in "OUS" else float(v[j])) for k, v in cols.items()})
+        rows.append(row)
+    return rows
+
+
 def get_family(name: str) -> Family:
     """The registered family ``name`` (ValueError lists the known ones)."""
     if name not in REGISTRY:

@@ -42,7 +42,15 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from knudsweep.families import Products, Table, base_model, model_error_ratio  # the two shared with the tube
+from knudsweep.families import (
+    MODEL_ERROR_NOTES,
+    Products,
+    Table,
+    base_model,
+    coefficient_values,
+    model_error_rows,
+    plot_model_error,
+)
 from knudsweep.families.plane_channel.grid import (
     BOLTZMANN_MODELS,
     BOLTZMANN_PROBLEMS,
@@ -173,33 +181,9 @@ def model_error_table(ds, section: dict[str, Any]) -> Table:
     """G_P, G_T of each model equation over each linearized Boltzmann value (one row block per Boltzmann
     operator, and per gas for VHS), per wall and delta."""
     refs, eqs, keys = model_error_pairs(section)
-    delta = ds["delta"].values.astype(float)
     rows = []
     for lbe, label in ((r, w) for r in refs for w in walls_by_label(section)):
-        cols: dict[str, np.ndarray] = {}
-        for key in keys:
-            problem = "poiseuille" if key == "G_P" else "thermal_creep"
-            sel = dict(problem=problem, wall=label)
-            g_ref = values_of(ds, key, model=lbe, **sel)
-            e_ref = values_of(ds, f"{key}_error_estimate", model=lbe, **sel)
-            cols[f"{key} Boltzmann [1]"] = g_ref
-            cols[f"{key} Boltzmann error estimate [1]"] = e_ref
-            cols[f"{key} Boltzmann status"] = ds["status"].sel(model=lbe, **sel).values
-            for m in eqs:
-                ratio, err = model_error_ratio(
-                    values_of(ds, key, model=m, **sel),
-                    values_of(ds, f"{key}_error_estimate", model=m, **sel),
-                    g_ref,
-                    e_ref,
-                )
-                cols[f"{key} {model_text(m)} / Boltzmann [1]"] = ratio
-                cols[f"{key} {model_text(m)} / Boltzmann error estimate [1]"] = err
-        gas = base_model(lbe)[1] or ""
-        for j, d in enumerate(delta):
-            row = {"Boltzmann model": model_text(lbe), "gas": gas, "wall": label, "delta [1]": d}
-            row["Kn [1]"] = SQRT_PI / (2.0 * d)
-            row.update({k: (v[j] if v.dtype.kind in "OUS" else float(v[j])) for k, v in cols.items()})
-            rows.append(row)
+        rows += model_error_rows(ds, lbe, eqs, keys, {"wall": label}, model_text)
     notes = [
         NOTES_COMMON[0],
         NOTES_COMMON[1],
@@ -211,11 +195,7 @@ def model_error_table(ds, section: dict[str, Any]) -> Table:
         "defined with the gas's viscosity in both, so the difference is the error of the model's collision term; "
         "the ratio tends to 1 as delta -> 0, slowly (like 1/ln delta) between plates, where the flow rates diverge "
         "with a model-dependent constant.",
-        "error estimate columns: estimated discretisation errors (absolute), Richardson over a coarser solve "
-        "(knudsweep.solver.resolution); the ratio's estimate adds the two relative estimates. They do not include any "
-        "modelling error.",
-        "Empty cells: a point failed, is missing or corrupt (the Boltzmann status column says which for the "
-        "Boltzmann value).",
+        *MODEL_ERROR_NOTES,
     ]
     return Table(pd.DataFrame(rows), "Plane channel, model error against the linearized Boltzmann equation", notes)
 
@@ -370,10 +350,7 @@ def free_molecular_slope(lower: dict, upper: dict | None) -> float:
     return _accommodation_factor(lower, upper) / SQRT_PI
 
 
-def values_of(ds, key, **sel) -> np.ndarray:
-    if key not in ds:
-        return np.full(ds.sizes["delta"], np.nan)
-    return ds[key].sel(**sel).values.astype(float)
+values_of = coefficient_values
 
 
 def _wall_entries(walls) -> list[tuple[int, str, dict, dict | None]]:
@@ -634,7 +611,6 @@ def _model_error_figure(ds, section, settings):
 
     refs, eqs, keys = model_error_pairs(section)
     walls = walls_by_label(section)
-    delta = ds["delta"].values.astype(float)
     mosaic = [[f"{key}|{lbe}" for key in keys] for lbe in refs]  # one row per Boltzmann operator (VHS: per gas)
     fig, axes = new_figure(
         settings,
@@ -647,30 +623,7 @@ def _model_error_figure(ds, section, settings):
         problem = "poiseuille" if key == "G_P" else "thermal_creep"
         drawn = False
         for i, label, _lower, _upper in _wall_entries(walls):
-            sel = dict(problem=problem, wall=label)
-            g_ref = values_of(ds, key, model=lbe, **sel)
-            e_ref = values_of(ds, f"{key}_error_estimate", model=lbe, **sel)
-            for m in eqs:
-                ratio, err = model_error_ratio(
-                    values_of(ds, key, model=m, **sel),
-                    values_of(ds, f"{key}_error_estimate", model=m, **sel),
-                    g_ref,
-                    e_ref,
-                )
-                style = {**ps.series_style(i), **model_marker(m)}
-                if ps.plot_series(ax, delta, ratio, style, logy=False):
-                    drawn = True
-                    ok = np.isfinite(ratio) & np.isfinite(err)
-                    ax.errorbar(
-                        delta[ok],
-                        ratio[ok],
-                        yerr=err[ok],
-                        fmt="none",
-                        ecolor=style["color"],
-                        elinewidth=0.8,
-                        capsize=0,
-                        zorder=ps.DATA_Z,
-                    )
+            drawn |= plot_model_error(ax, ds, lbe, eqs, key, {"wall": label}, i, model_marker)
         ax.axhline(1.0, **ps.reference("continuum"))
         ax.set_xscale("log")
         if lbe == refs[-1]:

@@ -28,7 +28,15 @@ from typing import Any
 
 import numpy as np
 
-from knudsweep.families import Products, Table, base_model, model_error_ratio
+from knudsweep.families import (
+    MODEL_ERROR_NOTES,
+    Products,
+    Table,
+    base_model,
+    coefficient_values,
+    model_error_rows,
+    plot_model_error,
+)
 from knudsweep.families.tube_duct.grid import (
     BOLTZMANN_MODELS,
     BOLTZMANN_SHAPES,
@@ -173,10 +181,7 @@ def boltzmann_geometries(section: dict[str, Any]) -> list[str]:
     return [label for label, shape, _ in geometry_settings(section) if shape in BOLTZMANN_SHAPES]
 
 
-def _values(ds, key: str, **sel) -> np.ndarray:
-    if key not in ds:
-        return np.full(ds.sizes["delta"], np.nan)
-    return ds[key].sel(**sel).values.astype(float)
+_values = coefficient_values
 
 
 def conductance_table_names(section: dict[str, Any]) -> list[str]:
@@ -347,35 +352,11 @@ def model_error_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
     import pandas as pd
 
     refs, eqs, keys = model_error_pairs(section)
-    delta = ds["delta"].values.astype(float)
     rows = []
     for lbe in refs:
         for glabel in boltzmann_geometries(section):
             for wlabel, _w in wall_settings(section):
-                cols: dict[str, np.ndarray] = {}
-                for key in keys:
-                    problem = "poiseuille" if key == "G_P" else "thermal_creep"
-                    sel = dict(geometry=glabel, problem=problem, wall=wlabel)
-                    g_ref = _values(ds, key, model=lbe, **sel)
-                    e_ref = _values(ds, f"{key}_error_estimate", model=lbe, **sel)
-                    cols[f"{key} Boltzmann [1]"] = g_ref
-                    cols[f"{key} Boltzmann error estimate [1]"] = e_ref
-                    cols[f"{key} Boltzmann status"] = ds["status"].sel(model=lbe, **sel).values
-                    for m in eqs:
-                        ratio, err = model_error_ratio(
-                            _values(ds, key, model=m, **sel),
-                            _values(ds, f"{key}_error_estimate", model=m, **sel),
-                            g_ref,
-                            e_ref,
-                        )
-                        cols[f"{key} {model_text(m)} / Boltzmann [1]"] = ratio
-                        cols[f"{key} {model_text(m)} / Boltzmann error estimate [1]"] = err
-                gas = base_model(lbe)[1] or ""
-                for j, d in enumerate(delta):
-                    row = {"Boltzmann model": model_text(lbe), "gas": gas, "geometry": glabel, "wall": wlabel}
-                    row.update({"delta [1]": d, "Kn [1]": SQRT_PI / (2.0 * d)})
-                    row.update({k: (v[j] if v.dtype.kind in "OUS" else float(v[j])) for k, v in cols.items()})
-                    rows.append(row)
+                rows += model_error_rows(ds, lbe, eqs, keys, {"geometry": glabel, "wall": wlabel}, model_text)
     notes = [
         NOTES_COMMON[0],
         NOTES_COMMON[1],
@@ -387,11 +368,7 @@ def model_error_tables(ds, section: dict[str, Any]) -> dict[str, Table]:
         "the difference is the error of the model's collision term: the ratios tend to 1 as delta -> 0 (the "
         "free-molecular flow does not depend on collisions), G_P's also as delta -> infinity (Poiseuille flow with "
         "the same viscosity), while G_T's tend to the ratio of the models' thermal slip coefficients.",
-        "error estimate columns: estimated discretisation errors (absolute), Richardson over a coarser solve "
-        "(knudsweep.solver.resolution); the ratio's estimate adds the two relative estimates. They do not include any "
-        "modelling error.",
-        "Empty cells: a point failed, is missing or corrupt (the Boltzmann status column says which for the "
-        "Boltzmann value).",
+        *MODEL_ERROR_NOTES,
     ]
     return {
         "tube_duct_model_error": Table(
@@ -646,7 +623,6 @@ def _model_error_figure(ds, section, settings):
     refs, eqs, keys = model_error_pairs(section)
     walls = wall_settings(section)
     geos = boltzmann_geometries(section)
-    delta = ds["delta"].values.astype(float)
     mosaic = [[f"{key}|{lbe}" for key in keys] for lbe in refs]
     fig, axes = new_figure(
         settings,
@@ -660,30 +636,8 @@ def _model_error_figure(ds, section, settings):
         drawn = False
         for i, (wlabel, _w) in enumerate(walls):
             for glabel in geos:
-                sel = dict(geometry=glabel, problem=problem, wall=wlabel)
-                g_ref = _values(ds, key, model=lbe, **sel)
-                e_ref = _values(ds, f"{key}_error_estimate", model=lbe, **sel)
-                for m in eqs:
-                    ratio, err = model_error_ratio(
-                        _values(ds, key, model=m, **sel),
-                        _values(ds, f"{key}_error_estimate", model=m, **sel),
-                        g_ref,
-                        e_ref,
-                    )
-                    style = {**ps.series_style(i), **ps.model_marker(m)}
-                    if ps.plot_series(ax, delta, ratio, style, logy=False):
-                        drawn = True
-                        ok = np.isfinite(ratio) & np.isfinite(err)
-                        ax.errorbar(
-                            delta[ok],
-                            ratio[ok],
-                            yerr=err[ok],
-                            fmt="none",
-                            ecolor=style["color"],
-                            elinewidth=0.8,
-                            capsize=0,
-                            zorder=ps.DATA_Z,
-                        )
+                sel = {"geometry": glabel, "wall": wlabel}
+                drawn |= plot_model_error(ax, ds, lbe, eqs, key, sel, i, ps.model_marker)
         ax.axhline(1.0, **ps.reference("continuum"))
         ax.set_xscale("log")
         if lbe == refs[-1]:
