@@ -374,6 +374,15 @@ def solve_channel(
     )
 
 
+def check_count(name: str, value, low: int, high: int) -> int:
+    """``value`` as an int if it is an integer in [low, high]; else ValueError naming ``name`` and the range."""
+    import numbers
+
+    if isinstance(value, bool) or not isinstance(value, numbers.Integral) or not (low <= value <= high):
+        raise ValueError(f"{name}: must be an integer in [{low}, {high}], got {value!r}")
+    return int(value)
+
+
 def coarser_level(n_space: int, n_velocity: int, min_space: int = 5, min_velocity: int = 4) -> tuple[int, int]:
     """One nested step down: half the spatial intervals, 3/4 of the velocity nodes (at least the minima)."""
     return max(min_space, (n_space - 1) // 2 + 1), max(min_velocity, int(round(0.75 * n_velocity)))

@@ -51,7 +51,7 @@ from knudsweep.solver.limits import SIGMA_P_BGK
 from knudsweep.solver.plane_channel import grids, kernels
 from knudsweep.solver.plane_channel import linearized_boltzmann as lb
 from knudsweep.solver.plane_channel.driver import plate_parameters
-from knudsweep.solver.resolution import check_estimate_options, solve_with_estimate
+from knudsweep.solver.resolution import check_count, check_estimate_options, solve_with_estimate
 from knudsweep.solver.result import CONVERGED, Quantity, SolverResult
 from knudsweep.solver.walls import MaxwellWall, slip_factor
 
@@ -102,12 +102,6 @@ def resolution_ladder(delta: float) -> list[tuple[int, int]]:
             return out
         out.append((n, v))
         k += 1
-
-
-def _check_int(name, value, low, high):
-    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or not (low <= value <= high):
-        raise ValueError(f"{name}: must be an integer in [{low}, {high}], got {value!r}")
-    return int(value)
 
 
 def solve_plane_channel_boltzmann(
@@ -180,15 +174,15 @@ def solve_plane_channel_boltzmann(
     n_space = (
         grids.default_n_space(delta)
         if n_space is None
-        else _check_int("n_space", n_space, grids.MIN_SPACE, grids.MAX_SPACE)
+        else check_count("n_space", n_space, grids.MIN_SPACE, grids.MAX_SPACE)
     )
     n_velocity = (
-        default_n_speed(delta) if n_velocity is None else _check_int("n_velocity", n_velocity, MIN_SPEED, MAX_SPEED)
+        default_n_speed(delta) if n_velocity is None else check_count("n_velocity", n_velocity, MIN_SPEED, MAX_SPEED)
     )
     if max_iter is None:
         max_iter = default_max_iter(accelerate)
     else:
-        max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
+        max_iter = check_count("max_iter", max_iter, 1, 100_000_000)
 
     def run(ns, nv, it_tol):
         return _solve_once(

@@ -42,7 +42,13 @@ from knudsweep.solver.cross_section import MAX_DELTA, PROBLEMS, flow_rate_coeffi
 from knudsweep.solver.iteration import IterationControl, default_max_iter
 from knudsweep.solver.limits import SIGMA_P_BGK
 from knudsweep.solver.plane_channel import linearized_boltzmann as plane_lb
-from knudsweep.solver.resolution import check_estimate_options, coarser_level, nested_ladder, solve_channel
+from knudsweep.solver.resolution import (
+    check_count,
+    check_estimate_options,
+    coarser_level,
+    nested_ladder,
+    solve_channel,
+)
 from knudsweep.solver.result import CONVERGED, Quantity, SolverResult
 from knudsweep.solver.tube import grids, kernels
 from knudsweep.solver.tube import linearized_boltzmann as tlb
@@ -98,12 +104,6 @@ def resolution_ladder(delta: float) -> list[tuple[int, int]]:
     return nested_ladder(ns, nv, n_min, lambda n, v: n <= SPACE_RANGE[1] and v <= SPEED_RANGE[1])
 
 
-def _check_int(name, value, low, high):
-    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or not (low <= value <= high):
-        raise ValueError(f"{name}: must be an integer in [{low}, {high}], got {value!r}")
-    return int(value)
-
-
 def solve_tube_boltzmann(
     problem: str,
     *,
@@ -137,8 +137,8 @@ def solve_tube_boltzmann(
     flow = TubeBoltzmannFlow.checked(problem, delta, molecule, omega, wall, max_iter, tol, accelerate)
     accuracy = check_estimate_options(accuracy, error_estimate, n_space, n_velocity)
     ns, nv = default_sizes(flow.delta)
-    ns = ns if n_space is None else _check_int("n_space", n_space, *SPACE_RANGE)
-    nv = nv if n_velocity is None else _check_int("n_velocity", n_velocity, *SPEED_RANGE)
+    ns = ns if n_space is None else check_count("n_space", n_space, *SPACE_RANGE)
+    nv = nv if n_velocity is None else check_count("n_velocity", n_velocity, *SPEED_RANGE)
     return solve_channel(
         flow, ns, nv, tol=float(tol), accuracy=accuracy, error_estimate=error_estimate, t_start=t_start
     )
@@ -190,7 +190,7 @@ class TubeBoltzmannFlow:
             raise ValueError(f"accelerate: must be True or False, got {accelerate!r}")
         if max_iter is None:
             max_iter = default_max_iter(accelerate)
-        max_iter = _check_int("max_iter", max_iter, 1, 100_000_000)
+        max_iter = check_count("max_iter", max_iter, 1, 100_000_000)
         return cls(problem, d, molecule, omega, wall, max_iter, accelerate)
 
     def resolution_ladder(self) -> list[tuple[int, int]]:
