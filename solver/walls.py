@@ -19,7 +19,7 @@ velocity grid live with that solver (``plane_channel.boundary``,
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 from typing import Any
 
 import numpy as np
@@ -76,15 +76,19 @@ class CercignaniLampisWall:
 
 
 Wall = MaxwellWall | CercignaniLampisWall
+# The wall laws by name, and each law's parameters in order (the registry the study schema, the
+# study layer and the CLI read: a new law is a class here plus its boundary module per geometry).
+WALL_LAWS: dict[str, type] = {law.kind: law for law in (MaxwellWall, CercignaniLampisWall)}
+WALL_PARAMETERS: dict[str, tuple[str, ...]] = {
+    kind: tuple(f.name for f in fields(law)) for kind, law in WALL_LAWS.items()
+}
 
 
 def make_wall(model: str, **params: float) -> Wall:
-    """Build a wall from a model name and its parameters (used by config and CLI)."""
-    if model == "maxwell":
-        return MaxwellWall(params.get("alpha", 1.0))
-    if model == "cercignani_lampis":
-        return CercignaniLampisWall(params.get("alpha_t", 1.0), params.get("alpha_n", 1.0))
-    raise ValueError(f"wall_model: must be 'maxwell' or 'cercignani_lampis', got {model!r}")
+    """Build a wall from a model name and its parameters (used by config and CLI); missing ones take 1."""
+    if model not in WALL_LAWS:
+        raise ValueError(f"wall_model: must be one of {', '.join(map(repr, WALL_LAWS))}, got {model!r}")
+    return WALL_LAWS[model](*(params.get(name, 1.0) for name in WALL_PARAMETERS[model]))
 
 
 def tangential_accommodation(wall: Wall) -> float:

@@ -633,6 +633,7 @@ def build_parser() -> argparse.ArgumentParser:
     from knudsweep.solver import kinetic_models as km
     from knudsweep.solver.duct import MAX_DELTA as duct_max
     from knudsweep.solver.plane_channel.driver import DELTA_RANGE as plane_delta
+    from knudsweep.solver.walls import WALL_LAWS
 
     parser = _Parser(
         prog="knudsweep",
@@ -699,9 +700,7 @@ def build_parser() -> argparse.ArgumentParser:
     s.add_argument(
         "--temperature", type=float, default=300.0, help=f"temperature in K (with --pressure), (0, {temp['maximum']:g}]"
     )
-    s.add_argument(
-        "--wall-model", default="maxwell", choices=["maxwell", "cercignani_lampis"], help="gas-surface interaction law"
-    )
+    s.add_argument("--wall-model", default="maxwell", choices=list(WALL_LAWS), help="gas-surface interaction law")
     span = {k: f"[{lo:g}, {hi:g}{')' if hi_open else ']'}" for k, (lo, hi, hi_open) in _wall_limits().items()}
     s.add_argument("--alpha", type=float, help=f"Maxwell accommodation in {span['alpha']}, default 1")
     s.add_argument("--alpha-upper", type=float, help=f"Maxwell accommodation of the upper plate, {span['alpha']}")

@@ -53,8 +53,9 @@ class StudyConfigError(ValueError):
 @lru_cache(maxsize=1)
 def load_schema() -> dict[str, Any]:
     """The study schema with its name enums filled in: gas names from ``known_gases()``, kinetic-model names
-    from the one registry, knudsweep.solver.kinetic_models."""
+    from the one registry, knudsweep.solver.kinetic_models, wall laws from knudsweep.solver.walls."""
     from knudsweep.solver import kinetic_models as km
+    from knudsweep.solver.walls import WALL_LAWS
 
     with open(SCHEMA_FILE, encoding="utf-8") as fh:
         schema = yaml.safe_load(fh)
@@ -63,6 +64,7 @@ def load_schema() -> dict[str, Any]:
     defs["model_equation"]["enum"] = list(km.MODEL_NAMES)
     defs["channel_model"]["enum"] = [*km.MODEL_NAMES, *km.BOLTZMANN_MODELS]
     defs["relaxation_method"]["enum"] = ["dsmc", *km.MODEL_NAMES, km.RELAXATION_BOLTZMANN]
+    defs["wall_law"]["properties"]["model"]["enum"] = list(WALL_LAWS)
     return schema
 
 

@@ -89,6 +89,8 @@ from collections.abc import Callable
 from dataclasses import dataclass, field
 from typing import Any
 
+from knudsweep.solver.walls import WALL_PARAMETERS
+
 # One line per family: section name -> module holding ``FAMILY``.
 REGISTRY: dict[str, str] = {
     "plane_channel": "knudsweep.families.plane_channel",
@@ -265,8 +267,7 @@ def grid_label(section: dict[str, Any]) -> str:
     return f"ns{ns}-nv{nv}-tol{format_exp(res['tol'])}"
 
 
-# accommodation keys of each wall law (knudsweep.solver.walls)
-WALL_KEYS = {"maxwell": ("alpha",), "cercignani_lampis": ("alpha_t", "alpha_n")}
+WALL_KEYS = WALL_PARAMETERS  # each wall law's parameter keys, from the registry in knudsweep.solver.walls
 
 
 def wall_params(spec: dict[str, Any], where: str) -> dict[str, Any]:
@@ -279,7 +280,7 @@ def wall_params(spec: dict[str, Any], where: str) -> dict[str, Any]:
 
     model = spec.get("model", "maxwell")
     allowed = WALL_KEYS[model]
-    for key in ("alpha", "alpha_t", "alpha_n"):
+    for key in dict.fromkeys(k for keys in WALL_KEYS.values() for k in keys):
         if key in spec and key not in allowed:
             raise ValueError(
                 f"{where}.{key}: not a parameter of wall model {model!r}; its parameters are {', '.join(allowed)}"
