@@ -368,6 +368,27 @@ def required_keys(section: dict[str, Any]) -> dict[str, str]:
     }
 
 
+def resolution_values(resolution: dict[str, Any]) -> dict[str, Any]:
+    """The canonical resolution entries of a point's values: n_space, n_velocity, tol, accuracy."""
+    from knudsweep.identity import canonical
+
+    return {
+        "n_space": resolution.get("n_space"),
+        "n_velocity": resolution.get("n_velocity"),
+        "tol": canonical(resolution["tol"]),
+        "accuracy": None if resolution.get("accuracy") is None else canonical(resolution["accuracy"]),
+    }
+
+
+def gas_values(model: str, gas: str | None) -> dict[str, Any]:
+    """``{gas, omega}`` of a point of a gas-dependent model (GAS_MODELS); empty for the others."""
+    if model not in GAS_MODELS:
+        return {}
+    if gas is None:
+        raise ValueError(f"gas: model {model} needs a gas (its viscosity index omega)")
+    return {"gas": gas, "omega": gas_omega(gas)}
+
+
 def model_gas_coordinates(section: dict[str, Any]) -> dict[str, Any]:
     """Extra coordinates along ``model`` when a model depends on the gas: its gas and viscosity index."""
     entries = model_entries(section)

@@ -42,6 +42,7 @@ from knudsweep.families import (
     check_axis_choice,
     delta_values,
     gas_omega,
+    gas_values,
     grid_label,
     make_wall_object,
     model_entries,
@@ -51,6 +52,7 @@ from knudsweep.families import (
     one_wall_label,
     reject_repeats,
     required_keys,  # noqa: F401  (read by knudsweep.config as grid.required_keys)
+    resolution_values,
     wall_params,
 )
 from knudsweep.identity import canonical, format_exp, point_id, segment
@@ -220,16 +222,9 @@ def point_values(
         "wall": wall_label(lower, upper),
         "lower_wall": lower,
         "upper_wall": upper,
-        "n_space": resolution.get("n_space"),
-        "n_velocity": resolution.get("n_velocity"),
-        "tol": canonical(resolution["tol"]),
-        "accuracy": None if resolution.get("accuracy") is None else canonical(resolution["accuracy"]),
+        **resolution_values(resolution),
+        **gas_values(model, gas),
     }
-    if model in GAS_MODELS:
-        if gas is None:
-            raise ValueError(f"gas: model {model} needs a gas (its viscosity index omega)")
-        values["gas"] = gas
-        values["omega"] = gas_omega(gas)
     return values
 
 

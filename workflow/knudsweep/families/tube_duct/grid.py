@@ -39,6 +39,7 @@ from knudsweep.families import (
     check_axis_choice,
     delta_values,
     gas_omega,
+    gas_values,
     grid_label,
     model_entries,
     model_gas_coordinates,
@@ -46,6 +47,7 @@ from knudsweep.families import (
     one_wall_label,
     reject_repeats,
     required_keys,  # noqa: F401  (read by knudsweep.config as grid.required_keys)
+    resolution_values,
     wall_params,
 )
 from knudsweep.identity import canonical, format_exp, format_plain, point_id, segment
@@ -202,16 +204,9 @@ def point_values(
         "delta": canonical(delta),
         "wall": wall_label(wall),
         "wall_params": wall,
-        "n_space": resolution.get("n_space"),
-        "n_velocity": resolution.get("n_velocity"),
-        "tol": canonical(resolution["tol"]),
-        "accuracy": None if resolution.get("accuracy") is None else canonical(resolution["accuracy"]),
+        **resolution_values(resolution),
+        **gas_values(model, gas),
     }
-    if model in GAS_MODELS:
-        if gas is None:
-            raise ValueError(f"gas: model {model} needs a gas (its viscosity index omega)")
-        values["gas"] = gas
-        values["omega"] = gas_omega(gas)
     return values
 
 
