@@ -436,6 +436,20 @@ def coefficient_values(ds, key: str, **where):
     return ds[key].sel(**where).values.astype(float)
 
 
+def model_error_sentences(ds, references, keys, model_text) -> list[str]:
+    """Caption sentences of a model-error figure: the relative error estimate of each Boltzmann flow rate
+    and the status of each Boltzmann operator's points (knudsweep.report)."""
+    from knudsweep.report import relative_error_sentence, status_sentence
+
+    text = []
+    for ref in references:
+        for key in keys:
+            where = {"problem": "poiseuille" if key == "G_P" else "thermal_creep", "model": ref}
+            text.append(relative_error_sentence(ds, key, where, f"{key} ({model_text(ref)})"))
+        text.append(status_sentence(ds, {"model": ref}))
+    return text
+
+
 def plot_model_error(ax, ds, reference: str, equations, key: str, sel: dict[str, str], index: int, marker_of) -> bool:
     """Draw each model equation's ``key`` over the Boltzmann value of ``reference`` against delta at the selection
     ``sel`` (cross-section, wall), in series style ``index`` with ``marker_of(model)``, with the ratio's error

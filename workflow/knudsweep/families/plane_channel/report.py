@@ -49,6 +49,7 @@ from knudsweep.families import (
     base_model,
     coefficient_values,
     model_error_rows,
+    model_error_sentences,
     plot_model_error,
 )
 from knudsweep.families.plane_channel.grid import (
@@ -754,7 +755,6 @@ def convergence_captions(ds, section: dict[str, Any]) -> dict[str, str]:
 
 
 def model_error_captions(ds, section: dict[str, Any]) -> dict[str, str]:
-    from knudsweep.report import relative_error_sentence, status_sentence
 
     ctx = _caption_context(ds, section)
     refs, eqs, keys = model_error_pairs(section)
@@ -770,13 +770,7 @@ def model_error_captions(ds, section: dict[str, Any]) -> dict[str, str]:
         "plates). Error bars: the discretisation error estimates of both solutions, added (usually smaller than "
         "the markers).",
     ]
-    for lbe in refs:
-        for key in keys:
-            problem = "poiseuille" if key == "G_P" else "thermal_creep"
-            text.append(
-                relative_error_sentence(ds, key, {"problem": problem, "model": lbe}, f"{key} ({model_text(lbe)})")
-            )
-        text.append(status_sentence(ds, {"model": lbe}))
+    text += model_error_sentences(ds, refs, keys, model_text)
     return {"plane_channel_model_error_vs_delta": "\n\n".join(text)}
 
 

@@ -35,6 +35,7 @@ from knudsweep.families import (
     base_model,
     coefficient_values,
     model_error_rows,
+    model_error_sentences,
     plot_model_error,
 )
 from knudsweep.families.tube_duct.grid import (
@@ -671,7 +672,6 @@ def model_error_figure_names(section: dict[str, Any]) -> list[str]:
 
 def model_error_captions(ds, section: dict[str, Any]) -> dict[str, str]:
     from knudsweep.plot_style import wall_text
-    from knudsweep.report import relative_error_sentence, status_sentence
 
     refs, eqs, keys = model_error_pairs(section)
     delta = ds["delta"].values.astype(float)
@@ -686,13 +686,7 @@ def model_error_captions(ds, section: dict[str, Any]) -> dict[str, str]:
         "delta -> 0. Error bars: the discretisation error estimates of both solutions, added (usually smaller than "
         "the markers).",
     ]
-    for lbe in refs:
-        for key in keys:
-            problem = "poiseuille" if key == "G_P" else "thermal_creep"
-            text.append(
-                relative_error_sentence(ds, key, {"problem": problem, "model": lbe}, f"{key} ({model_text(lbe)})")
-            )
-        text.append(status_sentence(ds, {"model": lbe}))
+    text += model_error_sentences(ds, refs, keys, model_text)
     return {"tube_duct_model_error_vs_delta": "\n\n".join(text)}
 
 
